@@ -1,0 +1,57 @@
+"""The ``tractive`` command: a thin layer over :mod:`tractive.api`.
+
+Every command prints a readable table, or with ``--json`` one JSON document.
+User mistakes (:class:`~tractive.errors.InputError`, bad options) print one
+line on stderr and exit with status 2, with no traceback.
+"""
+
+from __future__ import annotations
+
+import sys
+
+import click
+
+from ..errors import InputError
+
+
+class _Group(click.Group):
+    def invoke(self, ctx):
+        try:
+            return super().invoke(ctx)
+        except InputError as exc:
+            click.echo(f"tractive: error: {exc.one_line()}", err=True)
+            sys.exit(2)
+
+
+@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(package_name="tractive", prog_name="tractive")
+def cli():
+    """What a vehicle modification costs or saves.
+
+    Road load, wheel energy over drive cycles and your own speed profiles,
+    fuel or battery use, range and performance. Run a command with --help
+    for its options; every command takes --json.
+    """
+
+
+def main(argv=None):
+    """Console-script entry point; returns only through sys.exit."""
+    try:
+        rv = cli.main(args=argv, prog_name="tractive", standalone_mode=False)
+    except click.exceptions.Exit as exc:
+        sys.exit(exc.exit_code)
+    except click.ClickException as exc:
+        click.echo(f"tractive: error: {' '.join(exc.format_message().split())}", err=True)
+        sys.exit(exc.exit_code)
+    except click.exceptions.Abort:
+        click.echo("tractive: aborted", err=True)
+        sys.exit(1)
+    except InputError as exc:
+        click.echo(f"tractive: error: {exc.one_line()}", err=True)
+        sys.exit(2)
+    sys.exit(rv if isinstance(rv, int) else 0)
+
+
+# commands register themselves on import
+from . import cycles as _cycles  # noqa: E402,F401
+from . import energy as _energy  # noqa: E402,F401
