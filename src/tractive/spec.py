@@ -169,6 +169,11 @@ class Section:
         self._used.add(key)
         if key not in self.data or self.data[key] is None:
             if required:
+                close = difflib.get_close_matches(str(key), [str(k) for k in self.data], n=1)
+                if close:
+                    raise InputError(f"missing required key (is '{close[0]}' a misspelling of "
+                                     f"it?)", file=self.file, field=self.field(key),
+                                     line=self.line_of(close[0]))
                 raise self.error("missing required key", key)
             return None
         return self.data[key]
@@ -228,8 +233,7 @@ class Section:
             return None
         if not isinstance(value, dict):
             raise self.error(f"must be a mapping of keys to values, got {_describe(value)}", key)
-        return Section(value, file=self.file, prefix=self.field(key),
-                       line=getattr(value, "line", self.line_of(key)))
+        return Section(value, file=self.file, prefix=self.field(key), line=self.line_of(key))
 
     def items(self, key: str, *, required: bool = True) -> list | None:
         """A list; returns ``[(item, field, line), ...]``."""

@@ -1,0 +1,114 @@
+"""Wheel energy (UN GTR No. 15 Annex 7) against exact identities and scipy."""
+
+import numpy as np
+import pytest
+from scipy import integrate
+
+from tractive.demand import interval_kinematics, wheel_demand
+from tractive.roadload import RoadLoad
+
+F0, F1, F2 = 130.0, 0.40, 0.032          # N, N/(km/h), N/(km/h)² (invented example)
+MASS, RMF = 1450.0, 0.03
+
+
+def _rl():
+    return RoadLoad.from_coastdown(F0, F1, F2)
+
+
+@pytest.mark.parametrize("v_kmh", [20.0, 50.0, 90.0, 130.0])
+def test_constant_speed_energy_per_distance_equals_road_load(v_kmh):
+    # at constant speed on a level road, energy per distance is exactly
+    # f0 + f1 v + f2 v² (GTR 15 Annex 4 road-load equation; work = force × distance)
+    t = np.arange(0.0, 601.0)
+    v = np.full_like(t, v_kmh / 3.6)
+    d = wheel_demand(_rl(), MASS, MASS * (1 + RMF), t, v)
+    force = F0 + F1 * v_kmh + F2 * v_kmh ** 2
+    assert float(d.positive_energy_j) / d.distance_m == pytest.approx(force, rel=1e-12)
+    assert float(d.negative_energy_j) == 0.0
+    assert float(d.components_j["inertia"]) == 0.0
+    assert float(d.components_j["rolling"]) / d.distance_m == pytest.approx(F0 + F1 * v_kmh,
+                                                                             rel=1e-12)
+    assert float(d.components_j["aero"]) / d.distance_m == pytest.approx(F2 * v_kmh ** 2,
+                                                                          rel=1e-12)
+
+
+def _trace(seed=3, n=900):
+    """An invented stop-and-go trace, 1 Hz, starting and ending at rest."""
+    rng = np.random.default_rng(seed)
+    t = np.arange(float(n))
+    v = np.clip(np.cumsum(rng.normal(0, 0.6, n)), 0, None)
+    v = np.convolve(v, np.ones(5) / 5, mode="same")
+    v[:3] = 0
+    v[-3:] = 0
+    return t, v
+
+
+def test_net_energy_identity():
+    # positive − negative = Σ road-load·d + ΔKE·m_inertial + m g Δh: the inertia term
+    # telescopes, Σ m a v̄ Δt = m (v_end² − v_0²)/2 (work-energy theorem)
+    t, v = _trace()
+    grade = 0.03 * np.sin(t / 60.0)
+    d = wheel_demand(_rl(), MASS, MASS * 1.03, t, v, grade)
+    iv = interval_kinematics(t, v, grade)
+    road = np.sum(_rl().force_n(iv.speed_ms) * iv.distance_m)
+    climb = np.sum(MASS * 9.80665 * iv.sin_grade * iv.distance_m)
+    ke = 0.5 * MASS * 1.03 * (v[-1] ** 2 - v[0] ** 2)
+    net = float(d.positive_energy_j - d.negative_energy_j)
+    assert net == pytest.approx(road + climb + ke, rel=1e-12)
+
+
+def test_components_add_up_to_positive_energy():
+    t, v = _trace(seed=5)
+    grade = np.where(t > 400, -0.04, 0.02)
+    d = wheel_demand(_rl(), MASS, MASS * 1.03, t, v, grade)
+    total = sum(float(x) for x in d.components_j.values())
+    assert total == pytest.approx(float(d.positive_energy_j), rel=1e-12)
+
+
+def test_matches_scipy_integration_of_the_same_force_model():
+    # independent integration with scipy.integrate.quad of max(F(t), 0)·v(t) over the
+    # piecewise-linear trace (constant acceleration in each interval, as GTR 15 Annex 7
+    # assumes); the Annex 7 sum evaluates F at the interval's mean speed, so the two agree
+    # to second order in the step (within 1 % on a 1 Hz trace)
+    t, v = _trace(seed=11)
+    rl = _rl()
+    m_i = MASS * 1.03
+    d = wheel_demand(rl, MASS, m_i, t, v)
+
+    def power(tt):
+        i = min(int(np.searchsorted(t, tt, side="right")) - 1, len(t) - 2)
+        a = (v[i + 1] - v[i]) / (t[i + 1] - t[i])
+        vv = v[i] + a * (tt - t[i])
+        f = float(rl.force_n(vv)) + m_i * a
+        return max(f, 0.0) * vv
+
+    total = 0.0
+    for i in range(len(t) - 1):
+        total += integrate.quad(power, t[i], t[i + 1], epsabs=1e-9, limit=20)[0]
+    assert float(d.positive_energy_j) == pytest.approx(total, rel=0.01)
+
+
+def test_vehicle_axis_matches_single_runs():
+    t, v = _trace(seed=2)
+    f0 = np.array([110.0, 130.0, 150.0])
+    f2 = np.array([0.028, 0.032, 0.036])
+    mass = np.array([1300.0, 1450.0, 1600.0])
+    rl = RoadLoad.from_coastdown(f0, np.full(3, F1), f2)
+    many = wheel_demand(rl, mass, mass * 1.03, t, v)
+    assert many.positive_energy_j.shape == (3,)
+    for k in range(3):
+        one = wheel_demand(RoadLoad.from_coastdown(f0[k], F1, f2[k]), mass[k], mass[k] * 1.03,
+                           t, v)
+        assert float(one.positive_energy_j) == pytest.approx(many.positive_energy_j[k], rel=1e-13)
+        assert float(one.negative_energy_j) == pytest.approx(many.negative_energy_j[k], rel=1e-13)
+
+
+def test_grade_uses_test_mass_and_acceleration_uses_inertial_mass():
+    # F = m_inertial a + m g sin θ (GTR 15 Annex 7 with grade term)
+    t = np.array([0.0, 1.0])
+    v = np.array([10.0, 11.0])
+    g = np.array([0.1, 0.1])
+    zero = RoadLoad(0.0, 0.0, 0.0)
+    d = wheel_demand(zero, 1000.0, 1100.0, t, v, g)
+    assert float(d.force_parts_n["inertia"][0]) == pytest.approx(1100.0)
+    assert float(d.force_parts_n["grade"][0]) == pytest.approx(1000 * 9.80665 * 0.1 / np.sqrt(1.01))
