@@ -1,0 +1,432 @@
+"""Result objects of a study: one row per variant and profile (or duty mix).
+
+Everything here is plain, frozen data that the exporters (JSON, CSV, the
+workbook) read; nothing here computes physics. Metric keys carry their unit
+as a suffix (``positive_energy_wh_per_km``, ``range_km``, ``top_speed_kmh``);
+money carries no unit suffix in its key but is always in the study's
+``currency`` (see :attr:`StudyResult.currency`). :data:`METRICS` lists every
+metric key with a label, unit and the direction that counts as better.
+
+Row anatomy (:class:`ResultRow`)
+    ``metrics``          nominal value of each metric (no uncertainty drawn)
+    ``change``           variant minus baseline on the same profile, same key
+    ``change_pct``       100 × change / baseline (absent when the baseline is 0)
+    ``mean``             Monte Carlo mean of the metric
+    ``interval_low/high``  central 95 % Monte Carlo interval of the metric
+    ``change_mean``, ``change_low/high``  the same for the change
+    ``distinguishable``  per changed metric: True when the change interval
+                         excludes zero (the effect is distinguishable from
+                         zero at the stated confidence)
+
+Keys absent from a row are metrics that do not apply (no powertrain, no
+performance data, a total that has no meaning for a duty mix).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+#: role of a variant
+BASELINE = "baseline"
+MODIFICATION = "modification"
+COMBINATION = "combination"
+
+
+@dataclass(frozen=True)
+class MetricInfo:
+    """Description of one metric key.
+
+    Attributes
+    ----------
+    key : str
+        Key with unit suffix.
+    label : str
+        Short human label.
+    unit : str
+        Unit text for headers (``"money"`` stands for the study currency).
+    better : str
+        ``"lower"``, ``"higher"`` or ``""`` (neither).
+    """
+
+    key: str
+    label: str
+    unit: str
+    better: str = ""
+
+
+def _m(key, label, unit, better=""):
+    return MetricInfo(key, label, unit, better)
+
+
+#: every metric a study can report, in report order (metric and US keys)
+METRICS: dict[str, MetricInfo] = {m.key: m for m in [
+    _m("distance_km", "distance", "km"),
+    _m("distance_mi", "distance", "mi"),
+    _m("positive_energy_kwh", "wheel energy (traction)", "kWh", "lower"),
+    _m("negative_energy_kwh", "braking energy", "kWh", "lower"),
+    _m("rolling_energy_kwh", "wheel energy: rolling", "kWh", "lower"),
+    _m("aero_energy_kwh", "wheel energy: aero", "kWh", "lower"),
+    _m("inertia_energy_kwh", "wheel energy: inertia", "kWh", "lower"),
+    _m("grade_energy_kwh", "wheel energy: grade", "kWh", "lower"),
+    _m("positive_energy_wh_per_km", "wheel energy per km", "Wh/km", "lower"),
+    _m("positive_energy_wh_per_mi", "wheel energy per mile", "Wh/mi", "lower"),
+    _m("rolling_energy_wh_per_km", "rolling per km", "Wh/km", "lower"),
+    _m("rolling_energy_wh_per_mi", "rolling per mile", "Wh/mi", "lower"),
+    _m("aero_energy_wh_per_km", "aero per km", "Wh/km", "lower"),
+    _m("aero_energy_wh_per_mi", "aero per mile", "Wh/mi", "lower"),
+    _m("inertia_energy_wh_per_km", "inertia per km", "Wh/km", "lower"),
+    _m("inertia_energy_wh_per_mi", "inertia per mile", "Wh/mi", "lower"),
+    _m("grade_energy_wh_per_km", "grade per km", "Wh/km", "lower"),
+    _m("grade_energy_wh_per_mi", "grade per mile", "Wh/mi", "lower"),
+    _m("battery_energy_kwh", "battery energy", "kWh", "lower"),
+    _m("battery_wh_per_km", "battery energy per km", "Wh/km", "lower"),
+    _m("battery_wh_per_mi", "battery energy per mile", "Wh/mi", "lower"),
+    _m("fuel_l", "fuel", "L", "lower"),
+    _m("fuel_gal", "fuel", "US gal", "lower"),
+    _m("fuel_l_per_100km", "fuel consumption", "L/100 km", "lower"),
+    _m("fuel_economy_mpg", "fuel economy", "mpg (US)", "higher"),
+    _m("co2_g_per_km", "CO2 per km", "g/km", "lower"),
+    _m("co2_g_per_mi", "CO2 per mile", "g/mi", "lower"),
+    _m("range_km", "range", "km", "higher"),
+    _m("range_mi", "range", "mi", "higher"),
+    _m("top_speed_kmh", "top speed", "km/h", "higher"),
+    _m("top_speed_mph", "top speed", "mph", "higher"),
+    _m("accel_0_100_kmh_s", "0-100 km/h", "s", "lower"),
+    _m("accel_80_120_kmh_s", "80-120 km/h", "s", "lower"),
+    _m("annual_distance_km", "annual distance", "km"),
+    _m("annual_distance_mi", "annual distance", "mi"),
+    _m("annual_battery_energy_kwh", "annual battery energy", "kWh", "lower"),
+    _m("annual_grid_energy_kwh", "annual energy from the grid", "kWh", "lower"),
+    _m("annual_fuel_l", "annual fuel", "L", "lower"),
+    _m("annual_fuel_gal", "annual fuel", "US gal", "lower"),
+    _m("annual_energy_cost", "annual energy cost", "money", "lower"),
+    _m("annual_co2_kg", "annual CO2", "kg", "lower"),
+    _m("annual_saving", "annual saving against baseline", "money", "higher"),
+    _m("modification_cost", "cost of the modification", "money", "lower"),
+    _m("payback_years", "simple payback", "years", "lower"),
+    _m("npv", "net present value", "money", "higher"),
+]}
+
+#: metrics that are the same on every profile of a variant (no profile dependence)
+PROFILE_INDEPENDENT = ("top_speed_kmh", "top_speed_mph", "accel_0_100_kmh_s",
+                       "accel_80_120_kmh_s", "modification_cost")
+
+
+def metric_unit(key: str, currency: str = "") -> str:
+    """Unit text of a metric key; money becomes the study currency."""
+    info = METRICS.get(key)
+    if info is None:
+        return ""
+    return currency if info.unit == "money" and currency else info.unit
+
+
+@dataclass(frozen=True)
+class ResultRow:
+    """One variant on one profile or duty mix.
+
+    Attributes
+    ----------
+    variant : str
+        ``"baseline"`` or the modification / combination name.
+    role : str
+        ``"baseline"``, ``"modification"`` or ``"combination"``.
+    profile : str
+        Profile or duty-mix name.
+    profile_kind : str
+        ``"profile"`` or ``"mix"``.
+    metrics : dict
+        Nominal value per metric key (float, or None when it cannot be
+        computed, e.g. payback without a saving).
+    change, change_pct : dict
+        Variant minus baseline [metric unit] and in percent of the baseline.
+        Empty on baseline rows.
+    mean, interval_low, interval_high : dict
+        Monte Carlo mean and central interval bounds per metric.
+    change_mean, change_low, change_high : dict
+        The same for the change.
+    distinguishable : dict
+        Per changed metric: True when the change interval excludes zero.
+    """
+
+    variant: str
+    role: str
+    profile: str
+    profile_kind: str
+    metrics: dict
+    change: dict = field(default_factory=dict)
+    change_pct: dict = field(default_factory=dict)
+    mean: dict = field(default_factory=dict)
+    interval_low: dict = field(default_factory=dict)
+    interval_high: dict = field(default_factory=dict)
+    change_mean: dict = field(default_factory=dict)
+    change_low: dict = field(default_factory=dict)
+    change_high: dict = field(default_factory=dict)
+    distinguishable: dict = field(default_factory=dict)
+
+    @property
+    def is_baseline(self) -> bool:
+        return self.role == BASELINE
+
+    def to_dict(self) -> dict:
+        out = {"variant": self.variant, "role": self.role, "profile": self.profile,
+               "profile_kind": self.profile_kind}
+        out.update(self.metrics)
+        out["change"] = dict(self.change)
+        out["change_pct"] = dict(self.change_pct)
+        out["mean"] = dict(self.mean)
+        out["interval_low"] = dict(self.interval_low)
+        out["interval_high"] = dict(self.interval_high)
+        out["change_mean"] = dict(self.change_mean)
+        out["change_low"] = dict(self.change_low)
+        out["change_high"] = dict(self.change_high)
+        out["distinguishable"] = dict(self.distinguishable)
+        return out
+
+
+@dataclass(frozen=True)
+class AttributionRow:
+    """Split of one metric's change into parameter groups (Shapley values).
+
+    Attributes
+    ----------
+    variant, profile : str
+    metric : str
+        Metric key (with unit suffix).
+    total : float
+        Variant minus baseline [metric unit].
+    parts : dict
+        Shapley value per group [metric unit]; they add up to ``total``.
+    one_at_a_time : dict
+        Change when only that group is changed from the baseline [metric unit].
+    interaction : float
+        ``total`` minus the sum of the one-at-a-time changes [metric unit].
+    """
+
+    variant: str
+    profile: str
+    metric: str
+    total: float
+    parts: dict
+    one_at_a_time: dict
+    interaction: float
+
+    def to_dict(self) -> dict:
+        return {"variant": self.variant, "profile": self.profile, "metric": self.metric,
+                "total": self.total, "parts": dict(self.parts),
+                "one_at_a_time": dict(self.one_at_a_time), "interaction": self.interaction}
+
+
+@dataclass(frozen=True)
+class TimeSeries:
+    """Nominal wheel force and power along one profile for one variant.
+
+    Arrays have one entry per interval of the sampled profile (UN GTR No. 15
+    Annex 7 intervals): ``time_s`` is the end time of the interval,
+    ``speed_kmh`` its mean speed, ``force_n`` the total wheel force,
+    ``power_kw`` = force × mean speed, ``cumulative_energy_kwh`` the running
+    sum of positive (traction) wheel energy.
+    """
+
+    variant: str
+    profile: str
+    time_s: np.ndarray
+    speed_kmh: np.ndarray
+    force_n: np.ndarray
+    power_kw: np.ndarray
+    cumulative_energy_kwh: np.ndarray
+
+    def to_dict(self) -> dict:
+        return {"variant": self.variant, "profile": self.profile,
+                "time_s": np.asarray(self.time_s).tolist(),
+                "speed_kmh": np.asarray(self.speed_kmh).tolist(),
+                "force_n": np.asarray(self.force_n).tolist(),
+                "power_kw": np.asarray(self.power_kw).tolist(),
+                "cumulative_energy_kwh": np.asarray(self.cumulative_energy_kwh).tolist()}
+
+
+@dataclass(frozen=True)
+class InputItem:
+    """One input value as used, with its unit and where it came from.
+
+    ``source`` is ``"file.yaml:LINE"`` for a value read from a file, or
+    ``"default"`` (with the reason in ``note``).
+    """
+
+    section: str
+    key: str
+    value: Any
+    unit: str
+    source: str
+    note: str = ""
+
+    def to_dict(self) -> dict:
+        return {"section": self.section, "key": self.key, "value": self.value,
+                "unit": self.unit, "source": self.source, "note": self.note}
+
+
+@dataclass(frozen=True)
+class VariantInfo:
+    """A variant as defined in the study: its role, cost, and the changes it makes."""
+
+    name: str
+    role: str
+    cost: float | None
+    changes: tuple          # human-readable descriptions, e.g. "cda_m2 +0.12"
+    groups: tuple           # changed parameter groups (aero, rolling, mass, ...)
+    members: tuple = ()     # for combinations: the modification names
+    vehicle_name: str = ""
+
+    def to_dict(self) -> dict:
+        return {"name": self.name, "role": self.role, "cost": self.cost,
+                "changes": list(self.changes), "groups": list(self.groups),
+                "members": list(self.members), "vehicle_name": self.vehicle_name}
+
+
+@dataclass(frozen=True)
+class ProfileInfo:
+    """A profile or duty mix as run: distance, duration, and mix shares."""
+
+    name: str
+    kind: str               # "profile" or "mix"
+    spec: str = ""          # the text resolved for a profile
+    distance_km: float | None = None
+    duration_s: float | None = None
+    shares_pct: dict = field(default_factory=dict)
+
+    def to_dict(self) -> dict:
+        out = {"name": self.name, "kind": self.kind, "spec": self.spec,
+               "distance_km": self.distance_km, "duration_s": self.duration_s}
+        if self.shares_pct:
+            out["shares_pct"] = dict(self.shares_pct)
+        return out
+
+
+@dataclass(frozen=True)
+class StudyResult:
+    """Everything a study produced.
+
+    Attributes
+    ----------
+    study : str
+        Study name.
+    source : str
+        Study file.
+    units : str
+        ``"metric"`` or ``"us"`` (the metric keys in the rows follow it).
+    currency : str
+        Currency of every money metric.
+    rows : tuple of ResultRow
+        Baseline rows first, then each variant, each over all profiles and mixes.
+    attribution : tuple of AttributionRow
+    series : tuple of TimeSeries
+    inputs : tuple of InputItem
+    variants : tuple of VariantInfo
+    profiles : tuple of ProfileInfo
+    uncertainty : dict
+        ``draws``, ``seed``, ``confidence_pct``, ``uncertain_parameters``.
+    economics : dict
+        Annual distance, prices, discount rate, service life as used.
+    warnings : tuple of str
+    """
+
+    study: str
+    source: str
+    units: str
+    currency: str
+    rows: tuple
+    attribution: tuple = ()
+    series: tuple = ()
+    inputs: tuple = ()
+    variants: tuple = ()
+    profiles: tuple = ()
+    uncertainty: dict = field(default_factory=dict)
+    economics: dict = field(default_factory=dict)
+    warnings: tuple = ()
+
+    # -- look-ups ---------------------------------------------------------
+    def metric_keys(self) -> list:
+        """Metric keys present in any row, in :data:`METRICS` order."""
+        present = set()
+        for r in self.rows:
+            present.update(r.metrics)
+        ordered = [k for k in METRICS if k in present]
+        return ordered + sorted(present - set(ordered))
+
+    def row(self, variant: str, profile: str) -> ResultRow:
+        for r in self.rows:
+            if r.variant == variant and r.profile == profile:
+                return r
+        raise KeyError((variant, profile))
+
+    def baseline_rows(self) -> list:
+        return [r for r in self.rows if r.role == BASELINE]
+
+    def unit_of(self, key: str) -> str:
+        return metric_unit(key, self.currency)
+
+    # -- export -------------------------------------------------------------
+    def to_dict(self, *, include_series: bool = False) -> dict:
+        out = {"study": self.study, "source": self.source, "units": self.units,
+               "currency": self.currency,
+               "metric_units": {k: self.unit_of(k) for k in self.metric_keys()},
+               "rows": [r.to_dict() for r in self.rows],
+               "attribution": [a.to_dict() for a in self.attribution],
+               "variants": [v.to_dict() for v in self.variants],
+               "profiles": [p.to_dict() for p in self.profiles],
+               "uncertainty": dict(self.uncertainty),
+               "economics": dict(self.economics),
+               "inputs": [i.to_dict() for i in self.inputs],
+               "warnings": list(self.warnings)}
+        if include_series:
+            out["series"] = [s.to_dict() for s in self.series]
+        return out
+
+    def summary_frame(self):
+        """The summary table as a pandas DataFrame, one line per row.
+
+        Columns: ``variant``, ``role``, ``profile``, ``profile_kind``, then for
+        every metric ``<key>``, ``change_<key>``, ``change_pct_<key>``,
+        ``<key>_low``, ``<key>_high``, ``change_<key>_low``,
+        ``change_<key>_high`` and ``distinguishable_<key>`` (change columns are
+        empty on baseline rows).
+        """
+        import pandas as pd
+
+        keys = self.metric_keys()
+        records = []
+        for r in self.rows:
+            rec = {"variant": r.variant, "role": r.role, "profile": r.profile,
+                   "profile_kind": r.profile_kind}
+            for k in keys:
+                rec[k] = r.metrics.get(k)
+                rec[f"change_{k}"] = r.change.get(k)
+                rec[f"change_pct_{k}"] = r.change_pct.get(k)
+                rec[f"{k}_low"] = r.interval_low.get(k)
+                rec[f"{k}_high"] = r.interval_high.get(k)
+                rec[f"change_{k}_low"] = r.change_low.get(k)
+                rec[f"change_{k}_high"] = r.change_high.get(k)
+                rec[f"distinguishable_{k}"] = r.distinguishable.get(k)
+            records.append(rec)
+        columns = ["variant", "role", "profile", "profile_kind"]
+        for k in keys:
+            columns += [k, f"change_{k}", f"change_pct_{k}", f"{k}_low", f"{k}_high",
+                        f"change_{k}_low", f"change_{k}_high", f"distinguishable_{k}"]
+        return pd.DataFrame.from_records(records, columns=columns)
+
+    def attribution_frame(self):
+        """Attribution as a long pandas DataFrame: one line per row, metric and group."""
+        import pandas as pd
+
+        records = []
+        for a in self.attribution:
+            for g, v in a.parts.items():
+                records.append({"variant": a.variant, "profile": a.profile, "metric": a.metric,
+                                "group": g, "shapley": v,
+                                "one_at_a_time": a.one_at_a_time.get(g), "total": a.total,
+                                "interaction": a.interaction})
+        return pd.DataFrame.from_records(records, columns=[
+            "variant", "profile", "metric", "group", "shapley", "one_at_a_time", "total",
+            "interaction"])
