@@ -106,6 +106,7 @@ def vehicle_from_section(sec: Section, *, name_default: str | None = None) -> Ve
     if mass_kg > 100000:
         raise sec.error(f"{mass_kg:g} kg is not a plausible road-vehicle mass; is the unit kg?",
                         "mass_kg")
+    mass_std_kg = sec.number("mass_std_kg", required=False, default=0.0, min=0.0, unit="kg")
     rmf = sec.number("rotating_mass_fraction", required=False,
                      default=DEFAULT_ROTATING_MASS_FRACTION, min=0.0, max=1.0)
     road_load = parse_road_load(sec.section("road_load"), mass_kg=mass_kg)
@@ -120,7 +121,8 @@ def vehicle_from_section(sec: Section, *, name_default: str | None = None) -> Ve
     sec.raw("notes")  # free text, allowed
     sec.finish()
     return Vehicle(name=name, mass_kg=mass_kg, rotating_mass_fraction=rmf, road_load=road_load,
-                   powertrain=powertrain, performance=performance, source=sec.file or "")
+                   powertrain=powertrain, performance=performance, source=sec.file or "",
+                   extras={"mass_std_kg": mass_std_kg} if mass_std_kg else {})
 
 
 def parse_road_load(sec: Section, *, mass_kg: float | None = None):

@@ -1,0 +1,608 @@
+"""Running a study: every variant on every profile and duty mix.
+
+For each variant (the baseline, each modification, each combination) the
+engine builds one parameter set with a leading vehicle axis of 1 + N entries
+(index 0 nominal, 1 … N Monte Carlo draws, see
+:mod:`tractive.study.uncertainty`) and computes, per profile, with one call
+each:
+
+* wheel energy by the UN GTR No. 15 Annex 7 method
+  (:func:`tractive.demand.wheel_demand`): positive energy and its rolling,
+  aero, inertia and grade parts, braking energy, per km;
+* with a powertrain, its ``consume``: battery or fuel energy, per km, range,
+  CO2;
+* with performance data, top speed and acceleration times (nominal only).
+
+Duty mixes
+    A mix gives distance shares wᵢ (adding up to 100 %) of profiles. Every
+    per-distance quantity of the mix is the share-weighted mean of the
+    profiles' per-distance values,
+
+        e_mix = Σ wᵢ · eᵢ        (Wh/km, L/100 km, g/km),
+
+    which is the energy of driving wᵢ of the distance on profile i. For an
+    economy (distance per energy, km/L or mpg) that is the harmonic
+    combination 1 / Σ (wᵢ / economyᵢ): the 55 % city / 45 % highway combined
+    fuel economy of 40 CFR 600 (Appendix II worked example: 27.7 and
+    36.9 mpg → 31.2 mpg). Range, being stored energy over energy per km,
+    combines the same way: 1 / Σ (wᵢ / rangeᵢ). Totals of a single run
+    (kWh, L over the cycle) have no meaning for a mix and are not reported.
+
+Economics (see :mod:`tractive.study.economics`), attribution (see
+:mod:`tractive.study.attribution`) and Monte Carlo intervals are computed from
+the same arrays; changes are variant minus baseline on the same profile, in
+the output units.
+
+References
+----------
+.. [1] UN GTR No. 15, Annex 7 (cycle energy demand).
+.. [2] 40 CFR Part 600, Appendix II (combined fuel economy, 55/45 harmonic).
+.. [3] US EPA (2009), EPA420-R-09-014, Appendix A (distance-weighted
+   harmonic mean of fuel economies).
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import replace
+from pathlib import Path
+
+import numpy as np
+
+from ..demand import COMPONENTS, wheel_demand
+from ..errors import InputError
+from ..units import KWH_J, MILE_M, US_GALLON_L
+from . import modify
+from .attribution import one_at_a_time, shapley_values, subsets
+from .economics import annual_amount, net_present_value, simple_payback_years
+from .results import (BASELINE, COMBINATION, MODIFICATION, PROFILE_INDEPENDENT, AttributionRow,
+                      InputItem, ProfileInfo, ResultRow, StudyResult, TimeSeries, VariantInfo)
+from .spec import StudySpec, j2263_air_density_kg_m3, load_study
+from .uncertainty import UNCERTAIN_PARAMS, clip, expand, interval, standard_normal_draws
+
+#: keys taken from a powertrain's consume(...).to_dict()
+POWERTRAIN_KEYS = ("battery_energy_kwh", "battery_wh_per_km", "fuel_l", "fuel_l_per_100km",
+                   "co2_g_per_km", "range_km")
+#: keys taken from performance_summary(...).to_dict()
+PERFORMANCE_KEYS = ("top_speed_kmh", "accel_0_100_kmh_s", "accel_80_120_kmh_s")
+#: metrics attributed to parameter groups (when present)
+ATTRIBUTED = ("positive_energy_wh_per_km", "battery_wh_per_km", "fuel_l_per_100km",
+              "co2_g_per_km", "range_km", "top_speed_kmh", "accel_0_100_kmh_s",
+              "accel_80_120_kmh_s", "annual_energy_cost", "annual_co2_kg")
+#: metrics that compare a variant with the baseline (never on baseline rows)
+COMPARATIVE = ("annual_saving", "modification_cost", "payback_years", "npv")
+
+
+def run_study(path: str | os.PathLike, *, draws: int | None = None, seed: int | None = None,
+              series: bool = True) -> StudyResult:
+    """Read a study file and run it.
+
+    Parameters
+    ----------
+    path : str or path
+        Study YAML file.
+    draws : int, optional
+        Monte Carlo draws (overrides the study file; 0 = nominal only).
+    seed : int, optional
+        Random seed (overrides the study file).
+    series : bool
+        Keep the nominal time series per variant and profile.
+    """
+    spec = load_study(path)
+    return run_spec(spec, draws=draws, seed=seed, series=series)
+
+
+def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = None,
+             series: bool = True) -> StudyResult:
+    """Run a validated study (see :func:`run_study`)."""
+    from ..profiles import profile_statistics, resolve_profile
+
+    n = spec.draws if draws is None else int(draws)
+    if n < 0:
+        raise InputError("draws must not be negative", field="draws")
+    seed = spec.seed if seed is None else int(seed)
+    rng = np.random.default_rng(seed)
+    warnings: list[str] = []
+    inputs = list(spec.inputs)
+    if draws is not None:
+        inputs.append(InputItem("uncertainty", "draws", n, "", "command line"))
+    if seed is not None:
+        inputs.append(InputItem("uncertainty", "seed", seed, "", "command line"))
+
+    # -- profiles ---------------------------------------------------------
+    profiles = []
+    infos = []
+    for ps_ in spec.profiles:
+        try:
+            prof = resolve_profile(ps_.text, base_dir=spec.base_dir, dt_s=spec.dt_s)
+        except InputError as exc:
+            if exc.file:
+                raise
+            raise InputError(exc.message, file=spec.file, field=ps_.field,
+                             line=ps_.line) from None
+        profiles.append((ps_.name, prof))
+        stats = profile_statistics(prof).to_dict()
+        infos.append(ProfileInfo(ps_.name, "profile", ps_.text, stats.get("distance_km"),
+                                 stats.get("duration_s")))
+        if prof.distance_m <= 0:
+            raise InputError("the profile covers no distance (the vehicle never moves)",
+                             file=spec.file, field=ps_.field, line=ps_.line)
+    for mx in spec.mixes:
+        infos.append(ProfileInfo(mx.name, "mix", "", None, None, dict(mx.shares_pct)))
+
+    # -- variants -----------------------------------------------------------
+    cda_rho = spec.air_density_kg_m3 or j2263_air_density_kg_m3()
+    z_base = {name: standard_normal_draws(rng, n)
+              for name in UNCERTAIN_PARAMS + ("coef0", "coef1", "coef2")}
+    z_changes = {}
+    for owner, changes in [("baseline", spec.baseline_changes)] + \
+            [(m.name, m.changes) for m in spec.modifications]:
+        z_changes[owner] = [standard_normal_draws(rng, n) for _ in changes]
+
+    base_nom, stds, cov = modify.nominal_params(spec.baseline, spec.baseline_raw,
+                                                air_density_kg_m3=spec.air_density_kg_m3,
+                                                cda_air_density_kg_m3=cda_rho)
+    uncertain = [f"baseline {k} ± {v:g}" for k, v in stds.items()]
+    if cov is not None:
+        uncertain.append("baseline road-load coefficients (covariance)")
+    base_mc, clipped = expand(base_nom, stds, cov, z_base, n)
+    for ch, z in zip(spec.baseline_changes, z_changes["baseline"]):
+        base_mc = modify.apply_change(base_mc, ch, z)
+        if ch.std:
+            uncertain.append(f"baseline {ch.key} ± {ch.std:g}")
+    _note_clipped(warnings, "baseline", {**clipped, **clip(base_mc.params)})
+
+    mods = {m.name: m for m in spec.modifications}
+    variants = [(BASELINE, BASELINE, base_mc, None, (), ())]
+    for m in spec.modifications:
+        ps, unc = _build_variant(spec, [m], base_mc, z_base, z_changes, n, cda_rho, warnings,
+                                 m.name)
+        uncertain += unc
+        variants.append((m.name, MODIFICATION, ps, m.cost, (m.name,), _describe([m])))
+    for c in spec.combinations:
+        members = [mods[k] for k in c.members]
+        if sum(1 for m in members if m.vehicle is not None) > 1:
+            raise InputError("a combination can hold at most one whole-vehicle modification",
+                             file=spec.file, field=f"{c.field}.modifications", line=c.line)
+        ps, _ = _build_variant(spec, members, base_mc, z_base, z_changes, n, cda_rho, warnings,
+                               c.name)
+        costs = [m.cost for m in members]
+        cost = None if any(x is None for x in costs) else float(sum(costs))
+        variants.append((c.name, COMBINATION, ps, cost, tuple(c.members), _describe(members)))
+
+    # -- evaluate -------------------------------------------------------------
+    raw_results = {}
+    demands = {}
+    for name, role, ps, cost, members, desc in variants:
+        raw_results[name], demands[name] = _evaluate(ps, profiles, warnings)
+    _check_money(spec, raw_results)
+    derived = {name: _derive(spec, raw_results[name]) for name, *_ in variants}
+    base_derived = derived[BASELINE]
+    for name, role, ps, cost, members, desc in variants:
+        if role != BASELINE:
+            _compare_economics(spec, derived[name], base_derived, cost)
+    out_units = {name: {p: _to_units(m, spec.units) for p, m in d.items()}
+                 for name, d in derived.items()}
+
+    # -- rows ---------------------------------------------------------------
+    order = [p for p, _ in profiles] + [mx.name for mx in spec.mixes]
+    kinds = {p: "profile" for p, _ in profiles} | {mx.name: "mix" for mx in spec.mixes}
+    rows = []
+    for name, role, ps, cost, members, desc in variants:
+        for p in order:
+            rows.append(_row(name, role, p, kinds[p], out_units[name][p],
+                             out_units[BASELINE][p], n, spec.confidence_pct))
+
+    # -- attribution ----------------------------------------------------------
+    attribution = []
+    variant_infos = [VariantInfo(BASELINE, BASELINE, None, (), (),
+                                 vehicle_name=spec.baseline.name)]
+    base_nominal = base_mc.take([0])
+    for name, role, ps, cost, members, desc in variants[1:]:
+        var_nominal = ps.take([0])
+        groups = modify.differing_groups(base_nominal, var_nominal)
+        variant_infos.append(VariantInfo(name, role, cost, desc, groups, members
+                                         if role == COMBINATION else (),
+                                         vehicle_name=ps.template.name))
+        if not groups:
+            continue
+        attribution += _attribute(spec, name, groups, base_nominal, var_nominal, profiles,
+                                  order, out_units, warnings)
+
+    # -- time series --------------------------------------------------------
+    series_out = []
+    if series:
+        for name, *_ in variants:
+            for p, prof in profiles:
+                series_out.append(_series(name, p, prof, demands[name][p]))
+
+    econ = {}
+    if spec.economics is not None:
+        e = spec.economics
+        econ = {"annual_distance_km": e.annual_distance_km,
+                "fuel_price_per_l": e.fuel_price_per_l,
+                "electricity_price_per_kwh": e.electricity_price_per_kwh,
+                "charging_efficiency": e.charging_efficiency,
+                "electricity_co2_g_per_kwh": e.electricity_co2_g_per_kwh,
+                "fuel_co2_g_per_l": e.fuel_co2_g_per_l,
+                "discount_rate_pct": e.discount_rate * 100.0,
+                "service_life_years": e.service_life_years, "currency": spec.currency}
+    unc = {"draws": n, "seed": seed, "confidence_pct": spec.confidence_pct,
+           "uncertain_parameters": sorted(set(uncertain)),
+           "method": "Monte Carlo (JCGM 101:2008), common random numbers across variants"}
+    if n == 0:
+        unc["note"] = "no draws: intervals are the nominal values"
+    elif not uncertain:
+        unc["note"] = "no input carries an uncertainty: every interval has zero width"
+    return StudyResult(study=spec.name, source=spec.file, units=spec.units,
+                       currency=spec.currency, rows=tuple(rows),
+                       attribution=tuple(attribution), series=tuple(series_out),
+                       inputs=tuple(inputs), variants=tuple(variant_infos),
+                       profiles=tuple(infos), uncertainty=unc, economics=econ,
+                       warnings=tuple(dict.fromkeys(warnings)))
+
+
+# ---------------------------------------------------------------------------
+# building variants
+# ---------------------------------------------------------------------------
+
+def _describe(members) -> tuple:
+    out = []
+    for m in members:
+        prefix = f"{m.name}: " if len(members) > 1 else ""
+        if m.vehicle is not None:
+            out.append(f"{prefix}vehicle {m.vehicle.name} ({m.vehicle.source or 'inline'})")
+        out += [prefix + ch.describe() for ch in m.changes]
+    return tuple(out)
+
+
+def _build_variant(spec, members, base_mc, z_base, z_changes, n, cda_rho, warnings, label):
+    uncertain = []
+    whole = [m for m in members if m.vehicle is not None]
+    if whole:
+        m0 = whole[0]
+        nom, stds, cov = modify.nominal_params(m0.vehicle, m0.raw,
+                                               air_density_kg_m3=spec.air_density_kg_m3,
+                                               cda_air_density_kg_m3=cda_rho)
+        if nom.form == modify.COEFFICIENT and base_mc.form == modify.COEFFICIENT:
+            # state the variant's rolling coefficients at the baseline mass, so that the
+            # mass rule (rolling ∝ mass) applies to the mass change alone
+            p = dict(nom.params)
+            ratio = base_mc.params["mass_kg"][:1] / p["mass_kg"]
+            p["f0_n"] = p["f0_n"] * ratio
+            p["f1_n_per_kmh"] = p["f1_n_per_kmh"] * ratio
+            p["mass_base_kg"] = base_mc.params["mass_kg"][:1].copy()
+            nom = replace(nom, params=p)
+            if cov is not None:
+                scale = np.diag([ratio[0], ratio[0], 1.0])
+                cov = scale @ cov @ scale
+        ps, clipped = expand(nom, stds, cov, z_base, n)
+        _note_clipped(warnings, label, clipped)
+        uncertain += [f"{m0.name} vehicle {k} ± {v:g}" for k, v in stds.items()]
+    else:
+        ps = base_mc
+    for m in members:
+        for ch, z in zip(m.changes, z_changes[m.name]):
+            ps = modify.apply_change(ps, ch, z)
+            if ch.std:
+                uncertain.append(f"{m.name}: {ch.key} ± {ch.std:g}")
+    p = dict(ps.params)
+    _note_clipped(warnings, label, clip(p))
+    return replace(ps, params=p), uncertain
+
+
+def _note_clipped(warnings, label, clipped):
+    for k, share in clipped.items():
+        warnings.append(f"{label}: {share * 100:.2g} % of the Monte Carlo draws of {k} fell "
+                        f"below its physical limit and were clipped; the uncertainty is large "
+                        f"against the value")
+
+
+# ---------------------------------------------------------------------------
+# evaluation
+# ---------------------------------------------------------------------------
+
+def _evaluate(ps, profiles, warnings) -> tuple:
+    """Metric arrays (vehicle axis) per profile, and the wheel demands."""
+    size = ps.size
+    rl = ps.road_load()
+    mass = ps.mass_kg()
+    inertial = ps.inertial_mass_kg()
+    vehicle = ps.vehicle()
+    out = {}
+    demands = {}
+    perf = _performance(ps, warnings)
+    for name, prof in profiles:
+        d = wheel_demand(rl, mass, inertial, prof.time_s, prof.speed_ms, prof.grade_fraction,
+                         profile=name)
+        km = d.distance_m / 1000.0
+        full = lambda x: np.broadcast_to(np.asarray(x, float), (size,)).copy()  # noqa: E731
+        met = {"distance_km": full(km),
+               "positive_energy_kwh": full(d.positive_energy_j / KWH_J),
+               "negative_energy_kwh": full(d.negative_energy_j / KWH_J)}
+        for comp in COMPONENTS:
+            met[f"{comp}_energy_kwh"] = full(d.components_j[comp] / KWH_J)
+        met["positive_energy_wh_per_km"] = full(d.positive_energy_j / 3600.0 / km)
+        for comp in COMPONENTS:
+            met[f"{comp}_energy_wh_per_km"] = full(d.components_j[comp] / 3600.0 / km)
+        if ps.powertrain is not None:
+            res = ps.powertrain.consume(vehicle, d, prof)
+            data = res.to_dict() if hasattr(res, "to_dict") else dict(res)
+            for key in POWERTRAIN_KEYS:
+                value = data.get(key)
+                if value is None:
+                    continue
+                arr = np.asarray(value, float)
+                if arr.ndim > 1 or (arr.ndim == 1 and arr.shape[0] != size):
+                    continue
+                met[key] = full(arr)
+        met.update({k: v.copy() for k, v in perf.items()})
+        out[name] = met
+        demands[name] = d
+    return out, demands
+
+
+def _performance(ps, warnings) -> dict:
+    """Top speed and acceleration arrays (nominal at index 0; draws NaN unless vectorized)."""
+    if ps.performance is None:
+        return {}
+    try:
+        from ..performance import performance_summary
+    except ImportError:
+        return {}
+    size = ps.size
+    nominal = performance_summary(ps.vehicle(0))
+    data = nominal.to_dict() if hasattr(nominal, "to_dict") else dict(nominal)
+    out = {}
+    for key in PERFORMANCE_KEYS:
+        value = data.get(key)
+        if value is None:
+            continue
+        arr = np.full(size, np.nan)
+        arr[0] = float(value)
+        out[key] = arr
+    if size > 1 and out:
+        warnings.append("top speed and acceleration are computed for the nominal vehicle "
+                        "only; their intervals are not reported")
+    return out
+
+
+def _check_money(spec: StudySpec, raw_results) -> None:
+    e = spec.economics
+    if e is None:
+        return
+    electric = fuel = False
+    for per_profile in raw_results.values():
+        for met in per_profile.values():
+            electric |= "battery_wh_per_km" in met
+            fuel |= "fuel_l_per_100km" in met
+    if not electric and not fuel:
+        raise e.error("annual energy and money need vehicles with a powertrain block "
+                      "(electric or combustion)", "")
+    if electric and e.electricity_price_per_kwh is None:
+        raise e.error("missing: the vehicles use electricity, so money needs this price "
+                      "(money per kWh)", "electricity_price_per_kwh")
+    if fuel and e.fuel_price_per_l is None:
+        raise e.error("missing: the vehicles burn fuel, so money needs fuel_price_per_l "
+                      "(or fuel_price_per_gal)", "fuel_price_per_l")
+
+
+def _mix(per_profile: dict, shares_pct: dict) -> dict:
+    """Duty-mix metrics from per-profile metrics (distance-weighted, see module doc)."""
+    members = [per_profile[k] for k in shares_pct]
+    weights = [v / 100.0 for v in shares_pct.values()]
+    keys = set(members[0])
+    for m in members[1:]:
+        keys &= set(m)
+    out = {}
+    for key in members[0]:
+        if key not in keys:
+            continue
+        if key.endswith("_per_km") or key.endswith("_per_100km"):
+            out[key] = sum(w * m[key] for w, m in zip(weights, members))
+        elif key == "range_km":
+            with np.errstate(divide="ignore"):
+                inv = sum(w / m[key] for w, m in zip(weights, members))
+                out[key] = 1.0 / inv
+        elif key in PROFILE_INDEPENDENT:
+            out[key] = members[0][key].copy()
+    return out
+
+
+def _derive(spec: StudySpec, per_profile: dict) -> dict:
+    """Add duty mixes and annual quantities (not the comparisons)."""
+    out = {p: dict(m) for p, m in per_profile.items()}
+    for mx in spec.mixes:
+        out[mx.name] = _mix(per_profile, mx.shares_pct)
+    if spec.economics is not None:
+        for met in out.values():
+            _annual(spec.economics, met)
+    return out
+
+
+def _annual(e, met: dict) -> None:
+    size = next(iter(met.values())).shape
+    dist = e.annual_distance_km
+    met["annual_distance_km"] = np.full(size, dist)
+    if "battery_wh_per_km" in met:
+        battery = annual_amount(met["battery_wh_per_km"] / 1000.0, dist)
+        grid = battery / e.charging_efficiency
+        met["annual_battery_energy_kwh"] = battery
+        met["annual_grid_energy_kwh"] = grid
+        if e.electricity_price_per_kwh is not None:
+            met["annual_energy_cost"] = grid * e.electricity_price_per_kwh
+        if e.electricity_co2_g_per_kwh is not None:
+            met["annual_co2_kg"] = grid * e.electricity_co2_g_per_kwh / 1000.0
+    elif "fuel_l_per_100km" in met:
+        fuel = annual_amount(met["fuel_l_per_100km"] / 100.0, dist)
+        met["annual_fuel_l"] = fuel
+        if e.fuel_price_per_l is not None:
+            met["annual_energy_cost"] = fuel * e.fuel_price_per_l
+        if e.fuel_co2_g_per_l is not None:
+            met["annual_co2_kg"] = fuel * e.fuel_co2_g_per_l / 1000.0
+        elif "co2_g_per_km" in met:
+            met["annual_co2_kg"] = annual_amount(met["co2_g_per_km"] / 1000.0, dist)
+
+
+def _compare_economics(spec: StudySpec, derived: dict, base: dict, cost) -> None:
+    e = spec.economics
+    if e is None:
+        return
+    for p, met in derived.items():
+        b = base[p]
+        if "annual_energy_cost" not in met or "annual_energy_cost" not in b:
+            continue
+        saving = b["annual_energy_cost"] - met["annual_energy_cost"]
+        met["annual_saving"] = saving
+        if cost is None:
+            continue
+        met["modification_cost"] = np.full(saving.shape, float(cost))
+        met["payback_years"] = simple_payback_years(cost, saving)
+        if e.service_life_years is not None:
+            met["npv"] = net_present_value(cost, saving, e.discount_rate, e.service_life_years)
+
+
+# ---------------------------------------------------------------------------
+# output units
+# ---------------------------------------------------------------------------
+
+_KM_PER_MI = MILE_M / 1000.0
+
+
+def _to_units(met: dict, units: str) -> dict:
+    """Metric arrays in the study's output units (keys renamed with their unit)."""
+    if units == "metric":
+        return dict(met)
+    out = {}
+    for key, value in met.items():
+        if key.endswith("_wh_per_km"):
+            out[key[:-len("_per_km")] + "_per_mi"] = value * _KM_PER_MI
+        elif key in ("distance_km", "range_km", "annual_distance_km"):
+            out[key[:-3] + "_mi"] = value / _KM_PER_MI
+        elif key == "fuel_l":
+            out["fuel_gal"] = value / US_GALLON_L
+        elif key == "annual_fuel_l":
+            out["annual_fuel_gal"] = value / US_GALLON_L
+        elif key == "fuel_l_per_100km":
+            with np.errstate(divide="ignore"):
+                out["fuel_economy_mpg"] = (100.0 / _KM_PER_MI) / (value / US_GALLON_L)
+        elif key == "co2_g_per_km":
+            out["co2_g_per_mi"] = value * _KM_PER_MI
+        elif key == "top_speed_kmh":
+            out["top_speed_mph"] = value / _KM_PER_MI
+        else:
+            out[key] = value
+    return out
+
+
+# ---------------------------------------------------------------------------
+# rows, statistics
+# ---------------------------------------------------------------------------
+
+def _nominal(x) -> float | None:
+    v = float(np.asarray(x)[0])
+    return v if np.isfinite(v) else None
+
+
+def _row(name, role, profile, kind, met, base, n, conf) -> ResultRow:
+    metrics, mean, low, high = {}, {}, {}, {}
+    change, change_pct, c_mean, c_low, c_high, dist = {}, {}, {}, {}, {}, {}
+    for key, arr in met.items():
+        arr = np.asarray(arr, float)
+        metrics[key] = _nominal(arr)
+        samples = arr[1:] if n > 0 else arr[:1]
+        if key == "payback_years" and "annual_saving" in met:
+            mean[key], low[key], high[key] = _payback_interval(met, n, conf)
+        else:
+            mean[key], low[key], high[key] = interval(samples, conf)
+        if role == BASELINE or key in COMPARATIVE or key not in base:
+            continue
+        b = np.asarray(base[key], float)
+        if metrics[key] is None or _nominal(b) is None:
+            continue
+        change[key] = metrics[key] - _nominal(b)
+        change_pct[key] = 100.0 * change[key] / _nominal(b) if _nominal(b) != 0 else None
+        diff = arr - b
+        d_samples = diff[1:] if n > 0 else np.array([change[key]])
+        c_mean[key], c_low[key], c_high[key] = interval(d_samples, conf)
+        if c_low[key] is not None:
+            dist[key] = bool(c_low[key] > 0.0 or c_high[key] < 0.0)
+    return ResultRow(name, role, profile, kind, metrics, change, change_pct, mean, low, high,
+                     c_mean, c_low, c_high, dist)
+
+
+def _payback_interval(met, n, conf):
+    """Payback quantiles from the saving quantiles (cost / saving is monotone)."""
+    cost = float(np.asarray(met["modification_cost"])[0])
+    saving = np.asarray(met["annual_saving"], float)
+    samples = saving[1:] if n > 0 else saving[:1]
+    s_mean, s_low, s_high = interval(samples, conf)
+    if s_low is None or s_high is None or s_high <= 0:
+        return None, None, None
+    high = cost / s_low if s_low > 0 else None
+    mean = float(np.mean(cost / samples)) if np.all(samples > 0) else None
+    return mean, cost / s_high, high
+
+
+# ---------------------------------------------------------------------------
+# attribution
+# ---------------------------------------------------------------------------
+
+def _attribute(spec, name, groups, base_nominal, var_nominal, profiles, order, out_units,
+               warnings) -> list:
+    all_sets = subsets(groups)
+    inner = [s for s in all_sets if 0 < len(s) < len(groups)]
+    values = {}
+    # batch the inner subsets along the vehicle axis, one batch per powertrain/performance
+    batches = {}
+    for s in inner:
+        merged = modify.merge_groups(base_nominal, var_nominal, s)
+        key = (id(merged.powertrain), id(merged.performance))
+        batches.setdefault(key, []).append((s, merged))
+    for items in batches.values():
+        first = items[0][1]
+        params = {k: np.concatenate([m.params[k] for _, m in items]) for k in first.params}
+        batch = replace(first, params=params)
+        per_profile, _ = _evaluate(batch, profiles, [])
+        for j, (s, _) in enumerate(items):
+            one = {p: {k: v[j:j + 1] for k, v in met.items()} for p, met in per_profile.items()}
+            derived = _derive(spec, one)
+            values[s] = {p: _to_units(m, spec.units) for p, m in derived.items()}
+    values[frozenset()] = out_units[BASELINE]
+    values[frozenset(groups)] = out_units[name]
+    rows = []
+    for p in order:
+        for metric in _attributed_keys(spec.units):
+            if not all(metric in values[s][p] for s in all_sets):
+                continue
+            f = {s: float(np.asarray(values[s][p][metric])[0]) for s in all_sets}
+            if not all(np.isfinite(v) for v in f.values()):
+                continue
+            total = f[frozenset(groups)] - f[frozenset()]
+            parts = {g: float(v) for g, v in shapley_values(groups, f).items()}
+            oat = {g: float(v) for g, v in one_at_a_time(groups, f).items()}
+            rows.append(AttributionRow(name, p, metric, total, parts, oat,
+                                       total - sum(oat.values())))
+    return rows
+
+
+def _attributed_keys(units: str) -> tuple:
+    if units == "metric":
+        return ATTRIBUTED
+    probe = {k: np.zeros(1) + 1.0 for k in ATTRIBUTED}
+    return tuple(_to_units(probe, units))
+
+
+# ---------------------------------------------------------------------------
+# time series
+# ---------------------------------------------------------------------------
+
+def _series(name, profile, prof, d) -> TimeSeries:
+    force = np.asarray(d.force_n)
+    force = force[0] if force.ndim == 2 else force
+    iv = d.intervals
+    positive = np.where(force > 0, force * iv.distance_m, 0.0)
+    return TimeSeries(variant=name, profile=profile, time_s=np.asarray(prof.time_s[1:], float),
+                      speed_kmh=iv.speed_ms * 3.6, force_n=force.copy(),
+                      power_kw=force * iv.speed_ms / 1000.0,
+                      cumulative_energy_kwh=np.cumsum(positive) / KWH_J)

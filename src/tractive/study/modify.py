@@ -1,0 +1,498 @@
+"""Applying modifications to a vehicle: absolute, relative and percent changes.
+
+A vehicle is turned into a flat set of *parameters* (arrays with a leading
+vehicle axis, so one set can hold a Monte Carlo sample), each belonging to one
+*group* that attribution splits by:
+
+========== =====================================================================
+group      parameters
+========== =====================================================================
+aero       ``cda_m2`` and the air density (physical road load); ``f2_n_per_kmh2``
+           and drag-area changes (measured coefficients)
+rolling    ``crr``, ``crr_per_kmh`` (physical); ``f0_n``, ``f1_n_per_kmh`` and
+           rolling-resistance changes (measured coefficients)
+mass       ``mass_kg``, ``rotating_mass_fraction``
+downforce  ``cla_m2``
+powertrain any ``powertrain.<key>`` or ``performance.<key>``; a different
+           powertrain block in a whole-vehicle replacement
+========== =====================================================================
+
+Physical road load (``cda_m2``, ``crr``, ...): a change acts on the parameter
+itself, and the road-load equation does the rest (mass changes the rolling
+force Crr·m·g and the inertia; downforce adds Crr·½ρ·ClA·v²).
+
+Measured coefficients (``f0_n``/``f1_n_per_kmh``/``f2_n_per_kmh2``, or A/B/C
+converted to them) carry no Crr or CdA, so physical changes follow these
+rules (common practice: the rolling part of a coast-down load is taken to be
+f0 + f1·v, the aerodynamic part f2·v²):
+
+* ``cda_m2: +Δ`` adds ½·ρ·Δ to f2 (ρ from the study's ambient block, or the
+  SAE J2263 reference state 20 °C, 98.21 kPa when none is given, because
+  coast-down coefficients are corrected to it);
+* ``crr: -15%`` multiplies the rolling part f0 and f1 by 0.85;
+* ``crr: +Δ`` adds Δ·m·g to f0 (``crr_per_kmh: +Δ`` adds Δ·m·g to f1);
+* ``mass_kg`` changes scale f0 and f1 by m_new / m_baseline, since rolling
+  force is proportional to wheel load;
+* an absolute ``crr`` or ``cda_m2``, and any ``cla_m2`` change, need the
+  physical form (the measured coefficients do not say how much of f0 is tyre
+  and how much is driveline drag, nor the drag area) and are refused.
+
+Order: the changes of one variant apply in the order written (for a
+combination: the modifications in the order listed, each in its own order).
+An absolute value replaces, a signed amount adds, a percentage multiplies.
+
+Tyre-label input: ``tyre_label: C2/B`` sets Crr to the middle of the class
+of Regulation (EC) No 1222/2009, Annex I Part A, with a standard uncertainty
+of class width / √12 (a value known only to lie in an interval is taken as
+uniformly distributed: JCGM 100:2008 (GUM), 4.3.7). The open-ended best and
+worst classes are taken one neighbouring-class width wide (an assumption of
+this tool).
+
+References
+----------
+.. [1] UN GTR No. 15, Annex 4 (road load as f0 + f1·v + f2·v²).
+.. [2] Regulation (EC) No 1222/2009 on the labelling of tyres, Annex I Part A.
+.. [3] JCGM 100:2008, Evaluation of measurement data - Guide to the
+   expression of uncertainty in measurement, 4.3.7.
+"""
+
+from __future__ import annotations
+
+import copy
+import math
+import re
+from dataclasses import dataclass, field, replace
+from typing import Any
+
+import numpy as np
+
+from ..errors import InputError
+from ..roadload import CoefficientRoadLoad, PhysicalRoadLoad, RoadLoad
+from ..spec import Section
+from ..units import KMH_MS, STANDARD_GRAVITY_MS2
+from ..vehicle import Vehicle
+
+GROUPS = ("aero", "rolling", "mass", "downforce", "powertrain")
+
+PHYSICAL = "physical"
+COEFFICIENT = "coefficient"
+
+#: parameter → group, physical road load
+PHYSICAL_PARAMS = {"mass_kg": "mass", "rotating_mass_fraction": "mass",
+                   "cda_m2": "aero", "air_density_kg_m3": "aero",
+                   "crr": "rolling", "crr_per_kmh": "rolling", "cla_m2": "downforce"}
+#: parameter → group, measured coefficients (mass_base_kg never changes)
+COEFFICIENT_PARAMS = {"mass_kg": "mass", "rotating_mass_fraction": "mass",
+                      "mass_base_kg": None,
+                      "f0_n": "rolling", "f1_n_per_kmh": "rolling", "rolling_scale": "rolling",
+                      "crr_add": "rolling", "crr_per_kmh_add": "rolling",
+                      "f2_n_per_kmh2": "aero", "cda_add_m2": "aero",
+                      "air_density_kg_m3": "aero"}
+
+#: keys a change may target, per road-load form
+TARGETS_PHYSICAL = ("mass_kg", "rotating_mass_fraction", "cda_m2", "crr", "crr_per_kmh",
+                    "cla_m2", "tyre_label")
+TARGETS_COEFFICIENT = ("mass_kg", "rotating_mass_fraction", "f0_n", "f1_n_per_kmh",
+                       "f2_n_per_kmh2", "cda_m2", "crr", "crr_per_kmh")
+
+#: plausible ranges of changed values (a change outside is a mistake)
+_LIMITS = {"mass_kg": (1e-6, 100000.0), "rotating_mass_fraction": (0.0, 1.0),
+           "cda_m2": (1e-6, 30.0), "crr": (0.0, 0.1), "crr_per_kmh": (0.0, 1e-3),
+           "cla_m2": (-5.0, 20.0), "f0_n": (0.0, 1e6), "f2_n_per_kmh2": (1e-9, 1e3)}
+
+
+# ---------------------------------------------------------------------------
+# tyre label classes, Regulation (EC) No 1222/2009 Annex I Part A [kg/t]
+# ---------------------------------------------------------------------------
+
+#: upper class limits (RRC in kg/t = N/kN = 1000 × Crr), continuous form; the
+#: last class of each category is open-ended (None)
+TYRE_CLASS_UPPER_KG_T = {
+    "C1": {"A": 6.5, "B": 7.7, "C": 9.0, "E": 10.5, "F": 12.0, "G": None},
+    "C2": {"A": 5.5, "B": 6.7, "C": 8.0, "E": 9.2, "F": 10.5, "G": None},
+    "C3": {"A": 4.0, "B": 5.0, "C": 6.0, "D": 7.0, "E": 8.0, "F": None},
+}
+
+
+def tyre_class_interval_kg_t(category: str, cls: str) -> tuple:
+    """Interval (low, high] of the rolling-resistance coefficient [kg/t] of a label class.
+
+    Classes of Regulation (EC) No 1222/2009, Annex I Part A. The best class is
+    taken to start one width of the next class below its limit, the worst to
+    end one width of the class before above its lower limit (assumption).
+    """
+    table = TYRE_CLASS_UPPER_KG_T[category]
+    names = list(table)
+    i = names.index(cls)
+    if i == 0:
+        upper = table[names[0]]
+        width = table[names[1]] - upper
+        return upper - width, upper
+    lower = table[names[i - 1]]
+    upper = table[cls]
+    if upper is None:
+        prev_lower = table[names[i - 2]] if i >= 2 else lower
+        width = lower - prev_lower
+        return lower, lower + width
+    return lower, upper
+
+
+def tyre_label_crr(text: str) -> tuple:
+    """Crr [-] and its standard uncertainty [-] from a label such as ``C2/B``.
+
+    Returns the class middle and class width / √12 (uniform distribution,
+    JCGM 100:2008 4.3.7), both converted from kg/t by /1000.
+    """
+    m = re.match(r"^\s*(C[123])\s*[/:\- ]\s*([A-Ga-g])\s*$", str(text))
+    if not m:
+        raise ValueError("write the tyre category and class, like C1/B, C2/A or C3/C")
+    cat, cls = m.group(1), m.group(2).upper()
+    if cls not in TYRE_CLASS_UPPER_KG_T[cat]:
+        raise ValueError(f"class {cls} does not exist for {cat} tyres; classes: "
+                         f"{', '.join(TYRE_CLASS_UPPER_KG_T[cat])}")
+    lo, hi = tyre_class_interval_kg_t(cat, cls)
+    return (lo + hi) / 2000.0, (hi - lo) / 1000.0 / math.sqrt(12.0)
+
+
+# ---------------------------------------------------------------------------
+# parameter sets
+# ---------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class ParamSet:
+    """A vehicle as flat parameters with a leading vehicle axis.
+
+    Attributes
+    ----------
+    form : str
+        ``"physical"`` or ``"coefficient"``.
+    params : dict of str → (N,) arrays
+        See :data:`PHYSICAL_PARAMS` / :data:`COEFFICIENT_PARAMS`.
+    powertrain, performance : objects or None
+        Parsed blocks (not varied by Monte Carlo).
+    template : Vehicle
+        The vehicle the set came from (name, source, raw-block holder).
+    raw : dict
+        The vehicle's raw YAML mapping (for powertrain/performance changes).
+    """
+
+    form: str
+    params: dict
+    powertrain: Any
+    performance: Any
+    template: Vehicle
+    raw: dict = field(default_factory=dict)
+    changed_blocks: frozenset = frozenset()
+
+    @property
+    def size(self) -> int:
+        return int(np.shape(next(iter(self.params.values())))[0])
+
+    def group_of(self, name: str):
+        table = PHYSICAL_PARAMS if self.form == PHYSICAL else COEFFICIENT_PARAMS
+        return table[name]
+
+    def take(self, index) -> "ParamSet":
+        """The subset along the vehicle axis (an index array or slice)."""
+        return replace(self, params={k: np.asarray(v)[index] for k, v in self.params.items()})
+
+    # -- physics views ------------------------------------------------------
+    def mass_kg(self):
+        return self.params["mass_kg"]
+
+    def inertial_mass_kg(self):
+        return self.params["mass_kg"] * (1.0 + self.params["rotating_mass_fraction"])
+
+    def coefficients(self):
+        """Effective f0 [N], f1 [N/(km/h)], f2 [N/(km/h)²] of a coefficient set."""
+        p = self.params
+        ratio = p["mass_kg"] / p["mass_base_kg"]
+        weight = p["mass_kg"] * STANDARD_GRAVITY_MS2
+        f0 = p["f0_n"] * ratio * p["rolling_scale"] + p["crr_add"] * weight
+        f1 = p["f1_n_per_kmh"] * ratio * p["rolling_scale"] + p["crr_per_kmh_add"] * weight
+        f2 = p["f2_n_per_kmh2"] + 0.5 * p["air_density_kg_m3"] * p["cda_add_m2"] * KMH_MS ** 2
+        return f0, f1, f2
+
+    def road_load(self) -> RoadLoad:
+        """Level-road resistance in SI coefficients, arrays of shape (N,)."""
+        p = self.params
+        if self.form == PHYSICAL:
+            return RoadLoad.from_physical(mass_kg=p["mass_kg"], crr=p["crr"], cda_m2=p["cda_m2"],
+                                          air_density_kg_m3=p["air_density_kg_m3"],
+                                          crr_per_kmh=p["crr_per_kmh"], cla_m2=p["cla_m2"])
+        f0, f1, f2 = self.coefficients()
+        return RoadLoad.from_coastdown(f0, f1, f2)
+
+    def vehicle(self, index: int | None = None) -> Vehicle:
+        """A :class:`Vehicle`: scalar at ``index``, or with array fields (vehicle axis)."""
+        p = self.params if index is None else {k: float(np.asarray(v)[index])
+                                               for k, v in self.params.items()}
+        tpl = self.template
+        if index is not None:
+            if self.form == PHYSICAL:
+                base_rl = tpl.road_load if isinstance(tpl.road_load, PhysicalRoadLoad) else \
+                    PhysicalRoadLoad(cda_m2=p["cda_m2"], crr=p["crr"],
+                                     air_density_kg_m3=p["air_density_kg_m3"])
+                rl = replace(base_rl, cda_m2=p["cda_m2"], crr=p["crr"],
+                             crr_per_kmh=p["crr_per_kmh"], cla_m2=p["cla_m2"],
+                             air_density_kg_m3=p["air_density_kg_m3"])
+            else:
+                f0, f1, f2 = self.take([index]).coefficients()
+                rl = CoefficientRoadLoad(float(f0[0]), float(f1[0]), float(f2[0]),
+                                         form="coastdown")
+        else:
+            rl = _FixedRoadLoad(self.road_load(), self.form)
+        return replace(tpl, mass_kg=p["mass_kg"], rotating_mass_fraction=p["rotating_mass_fraction"],
+                       road_load=rl, powertrain=self.powertrain, performance=self.performance)
+
+
+@dataclass(frozen=True)
+class _FixedRoadLoad:
+    """A resolved road load with a vehicle axis, shaped like the road-load forms."""
+
+    resistance: RoadLoad
+    form: str
+
+    def resolve(self, mass_kg=None) -> RoadLoad:
+        return self.resistance
+
+    def to_dict(self) -> dict:
+        return {"form": self.form, **self.resistance.coastdown_coefficients()}
+
+
+def nominal_params(vehicle: Vehicle, raw: dict, *, air_density_kg_m3: float | None,
+                   cda_air_density_kg_m3: float) -> tuple:
+    """Parameters of a vehicle (vehicle axis of length 1) and their uncertainties.
+
+    Parameters
+    ----------
+    vehicle : Vehicle
+    raw : dict
+        The vehicle's raw YAML mapping.
+    air_density_kg_m3 : float or None
+        Study air density [kg/m³]; None keeps the vehicle file's own air.
+    cda_air_density_kg_m3 : float
+        Air density [kg/m³] for drag-area changes on measured coefficients.
+
+    Returns
+    -------
+    (ParamSet, stds, covariance)
+        ``stds`` maps parameter → standard uncertainty; ``covariance`` is the
+        3×3 covariance of (f0, f1, f2) or None.
+    """
+    rl = vehicle.road_load
+    one = lambda x: np.array([float(x)])  # noqa: E731
+    stds = {}
+    cov = None
+    if vehicle.extras.get("mass_std_kg"):
+        stds["mass_kg"] = float(vehicle.extras["mass_std_kg"])
+    if isinstance(rl, PhysicalRoadLoad):
+        rho = rl.air_density_kg_m3 if air_density_kg_m3 is None else air_density_kg_m3
+        params = {"mass_kg": one(vehicle.mass_kg),
+                  "rotating_mass_fraction": one(vehicle.rotating_mass_fraction),
+                  "cda_m2": one(rl.cda_m2), "air_density_kg_m3": one(rho),
+                  "crr": one(rl.crr), "crr_per_kmh": one(rl.crr_per_kmh),
+                  "cla_m2": one(rl.cla_m2)}
+        for key, param in (("crr_std", "crr"), ("cda_std_m2", "cda_m2"),
+                           ("cla_std_m2", "cla_m2")):
+            if rl.std.get(key):
+                stds[param] = float(rl.std[key])
+        form = PHYSICAL
+    elif isinstance(rl, CoefficientRoadLoad):
+        rho = cda_air_density_kg_m3 if air_density_kg_m3 is None else air_density_kg_m3
+        params = {"mass_kg": one(vehicle.mass_kg), "mass_base_kg": one(vehicle.mass_kg),
+                  "rotating_mass_fraction": one(vehicle.rotating_mass_fraction),
+                  "f0_n": one(rl.f0_n), "f1_n_per_kmh": one(rl.f1_n_per_kmh),
+                  "f2_n_per_kmh2": one(rl.f2_n_per_kmh2), "rolling_scale": one(1.0),
+                  "crr_add": one(0.0), "crr_per_kmh_add": one(0.0), "cda_add_m2": one(0.0),
+                  "air_density_kg_m3": one(rho)}
+        if rl.covariance is not None:
+            cov = np.asarray(rl.covariance, float)
+        form = COEFFICIENT
+    else:
+        raise InputError("this road-load form cannot be used in a study", file=vehicle.source,
+                         field="road_load")
+    return (ParamSet(form, params, vehicle.powertrain, vehicle.performance, vehicle, raw),
+            stds, cov)
+
+
+def change_group(ps: ParamSet, change) -> str:
+    """The attribution group a change acts on (checks the target exists)."""
+    key = change.key
+    if key.startswith("powertrain.") or key.startswith("performance."):
+        return "powertrain"
+    targets = TARGETS_PHYSICAL if ps.form == PHYSICAL else TARGETS_COEFFICIENT
+    if key not in targets:
+        other = TARGETS_COEFFICIENT if ps.form == PHYSICAL else TARGETS_PHYSICAL
+        form_text = ("physical road load (cda_m2, crr)" if ps.form == PHYSICAL
+                     else "measured road-load coefficients (f0/f1/f2)")
+        if key in other:
+            raise change.error(f"the vehicle has {form_text}; '{key}' cannot be changed on it")
+        raise change.error(f"no such key to change; possible: {', '.join(targets)}, "
+                           f"powertrain.<key>, performance.<key>")
+    if key == "tyre_label":
+        return "rolling"
+    if ps.form == PHYSICAL:
+        return PHYSICAL_PARAMS[key]
+    return {"mass_kg": "mass", "rotating_mass_fraction": "mass", "f0_n": "rolling",
+            "f1_n_per_kmh": "rolling", "crr": "rolling", "crr_per_kmh": "rolling",
+            "f2_n_per_kmh2": "aero", "cda_m2": "aero"}[key]
+
+
+def apply_change(ps: ParamSet, change, z=None) -> ParamSet:
+    """Apply one change to every vehicle of a parameter set.
+
+    Parameters
+    ----------
+    ps : ParamSet
+    change : tractive.study.spec.Change
+    z : (N,) array, optional
+        Standard-normal draws for the change's own uncertainty (0 at nominal).
+
+    Returns
+    -------
+    ParamSet with the change applied.
+    """
+    change_group(ps, change)
+    key = change.key
+    if key.startswith("powertrain.") or key.startswith("performance."):
+        return _apply_block_change(ps, change)
+    p = dict(ps.params)
+    noise = 0.0 if (z is None or not change.std) else change.std * np.asarray(z, float)
+    mode, value = change.mode, change.value
+    if key == "tyre_label":
+        try:
+            crr, std = tyre_label_crr(value)
+        except ValueError as exc:
+            raise change.error(str(exc)) from None
+        std = change.std or std
+        noise = 0.0 if z is None else std * np.asarray(z, float)
+        p["crr"] = np.zeros_like(p["crr"]) + crr + noise
+        return replace(ps, params=p)
+    if ps.form == PHYSICAL or key in ("mass_kg", "rotating_mass_fraction"):
+        p[key] = _operate(p[key], mode, value) + noise
+        lo, hi = _LIMITS.get(key, (-math.inf, math.inf))
+        nominal = float(np.asarray(p[key])[0])
+        if not (lo <= nominal <= hi):
+            raise change.error(f"gives {key} = {nominal:g}, outside {lo:g} to {hi:g}")
+        return replace(ps, params=p)
+    # measured coefficients
+    if key in ("f0_n", "f1_n_per_kmh", "f2_n_per_kmh2"):
+        p[key] = _operate(p[key], mode, value) + noise
+        lo, hi = _LIMITS.get(key, (-math.inf, math.inf))
+        nominal = float(np.asarray(p[key])[0])
+        if not (lo <= nominal <= hi):
+            raise change.error(f"gives {key} = {nominal:g}, outside {lo:g} to {hi:g}")
+        return replace(ps, params=p)
+    if key == "cda_m2":
+        if mode != "add":
+            raise change.error("on measured coefficients a drag-area change must be a signed "
+                               "amount (cda_m2: +0.12): the coefficients do not give CdA")
+        p["cda_add_m2"] = p["cda_add_m2"] + value + noise
+        return replace(ps, params=p)
+    if key == "crr":
+        if mode == "scale":
+            p["rolling_scale"] = p["rolling_scale"] * value
+            p["crr_add"] = p["crr_add"] * value
+            if z is not None and change.std:
+                raise change.error("crr_std with a percent change needs a physical road load; "
+                                   "give the change as a signed amount (crr: -0.001)")
+            return replace(ps, params=p)
+        if mode == "add":
+            p["crr_add"] = p["crr_add"] + value + noise
+            return replace(ps, params=p)
+        raise change.error("on measured coefficients an absolute crr is unknown (f0 holds "
+                           "tyre and driveline drag); give a percent (-15%) or a signed "
+                           "amount (-0.001)")
+    if key == "crr_per_kmh":
+        if mode != "add":
+            raise change.error("on measured coefficients crr_per_kmh changes must be a "
+                               "signed amount")
+        p["crr_per_kmh_add"] = p["crr_per_kmh_add"] + value + noise
+        return replace(ps, params=p)
+    raise change.error("cannot be changed")  # unreachable: change_group checked the key
+
+
+def _operate(current, mode, value):
+    current = np.asarray(current, float)
+    if mode == "set":
+        return np.zeros_like(current) + float(value)
+    if mode == "add":
+        return current + float(value)
+    return current * float(value)
+
+
+def _apply_block_change(ps: ParamSet, change) -> ParamSet:
+    block, _, path = change.key.partition(".")
+    if block not in ps.raw or not isinstance(ps.raw.get(block), dict):
+        raise change.error(f"the vehicle has no {block} block to change")
+    if change.std:
+        raise change.error("uncertainty on powertrain changes is not supported")
+    raw = copy.deepcopy(ps.raw)
+    node = raw[block]
+    parts = path.split(".")
+    for part in parts[:-1]:
+        if not isinstance(node.get(part), dict):
+            raise change.error(f"the vehicle's {block} block has no '{part}' mapping")
+        node = node[part]
+    leaf = parts[-1]
+    current = node.get(leaf)
+    if change.mode in ("add", "scale"):
+        if leaf not in node:
+            raise change.error(f"the vehicle's {block} block has no key '{path}' to change")
+        if isinstance(current, bool) or not isinstance(current, (int, float)):
+            raise change.error(f"'{path}' is not a number, it cannot change by {change.text}")
+        node[leaf] = float(_operate(np.array([current]), change.mode, change.value)[0])
+    else:
+        node[leaf] = change.value
+    sec = Section(raw[block], file=ps.template.source or None, prefix=block)
+    try:
+        if block == "powertrain":
+            from ..powertrain import parse_powertrain
+            obj = parse_powertrain(sec)
+            out = replace(ps, powertrain=obj, raw=raw)
+        else:
+            from ..performance import parse_performance
+            obj = parse_performance(sec)
+            out = replace(ps, performance=obj, raw=raw)
+    except InputError as exc:
+        raise change.error(f"the changed {block} block is not valid: "
+                           f"{exc.field + ': ' if exc.field else ''}{exc.message}") from None
+    return replace(out, changed_blocks=out.changed_blocks | {block})
+
+
+def merge_groups(base: ParamSet, variant: ParamSet, groups) -> ParamSet:
+    """Baseline parameters with those of ``groups`` taken from the variant.
+
+    Both sets must have the same form and vehicle-axis length.
+    """
+    params = {}
+    for name, value in base.params.items():
+        g = base.group_of(name)
+        params[name] = variant.params[name] if g in groups else value
+    pt = variant.powertrain if "powertrain" in groups else base.powertrain
+    perf = variant.performance if "powertrain" in groups else base.performance
+    return replace(base, params=params, powertrain=pt, performance=perf)
+
+
+def differing_groups(base: ParamSet, variant: ParamSet) -> tuple:
+    """Groups whose nominal parameters (or blocks) differ between two sets."""
+    if base.form != variant.form:
+        return ("vehicle",)
+    out = set()
+    for name, value in base.params.items():
+        g = base.group_of(name)
+        if g is None:
+            if not np.array_equal(np.asarray(value)[:1], np.asarray(variant.params[name])[:1]):
+                return ("vehicle",)
+            continue
+        if not np.array_equal(np.asarray(value)[:1], np.asarray(variant.params[name])[:1]):
+            out.add(g)
+    if _block(base, "powertrain") != _block(variant, "powertrain") or \
+            _block(base, "performance") != _block(variant, "performance"):
+        out.add("powertrain")
+    return tuple(g for g in GROUPS if g in out)
+
+
+def _block(ps: ParamSet, name: str):
+    return ps.raw.get(name) if isinstance(ps.raw, dict) else None
