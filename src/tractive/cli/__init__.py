@@ -55,3 +55,4 @@ def main(argv=None):
 # commands register themselves on import
 from . import cycles as _cycles  # noqa: E402,F401
 from . import energy as _energy  # noqa: E402,F401
+from . import compare as _compare  # noqa: E402,F401
