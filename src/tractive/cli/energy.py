@@ -18,8 +18,11 @@ from ._output import emit_json, table
                    f"Default: {', '.join(api.DEFAULT_ENERGY_CYCLES)}.")
 @click.option("--dt-s", type=float, default=1.0, show_default=True,
               help="Time step [s] that user profiles are resampled to.")
+@click.option("--mix-shares", default=None, metavar="S1,S2,...",
+              help="Distance shares of the cycles (in --cycle order, adding up to 1) for a "
+                   "weighted-mix row of consumption and range; needs a powertrain.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
-def energy_command(vehicle_file, cycles, dt_s, as_json):
+def energy_command(vehicle_file, cycles, dt_s, mix_shares, as_json):
     """Wheel energy of a vehicle over drive cycles (UN GTR No. 15 Annex 7 method).
 
     Positive energy is what the wheels deliver; negative energy is what braking
@@ -32,6 +35,8 @@ def energy_command(vehicle_file, cycles, dt_s, as_json):
     report = api.energy(vehicle, api.load_profiles(cycles or api.DEFAULT_ENERGY_CYCLES,
                                                    dt_s=dt_s))
     data = report.to_dict()
+    if mix_shares is not None:
+        data["mix"] = _mix(vehicle, report, mix_shares)
     if as_json:
         emit_json(data)
         return
@@ -52,4 +57,51 @@ def energy_command(vehicle_file, cycles, dt_s, as_json):
             ("negative_energy_kwh", "braking kWh", ".3f"),
             ("rolling_kwh", "rolling", ".3f"), ("aero_kwh", "aero", ".3f"),
             ("inertia_kwh", "inertia", ".3f"), ("grade_kwh", "grade", ".3f")]
+    click.echo(table(rows, cols))
+    if vehicle.powertrain is not None:
+        _powertrain_table(vehicle, data)
+
+
+def _mix(vehicle, report, text):
+    from ..powertrain import mix_results
+
+    if vehicle.powertrain is None:
+        raise click.BadParameter("needs a vehicle with a powertrain block",
+                                 param_hint="--mix-shares")
+    try:
+        shares = [float(x) for x in text.split(",")]
+    except ValueError:
+        raise click.BadParameter(f"must be numbers separated by commas, got '{text}'",
+                                 param_hint="--mix-shares") from None
+    if len(shares) != len(report.results):
+        raise click.BadParameter(f"needs one share per cycle ({len(report.results)}), got "
+                                 f"{len(shares)}", param_hint="--mix-shares")
+    if any(not (s >= 0) for s in shares) or abs(sum(shares) - 1.0) > 1e-6:
+        raise click.BadParameter("shares must be 0 or more and add up to 1",
+                                 param_hint="--mix-shares")
+    return mix_results([r.powertrain for r in report.results], shares).to_dict()
+
+
+def _powertrain_table(vehicle, data):
+    rows = list(data["results"]) + ([data["mix"]] if "mix" in data else [])
+    if vehicle.powertrain.kind == "electric":
+        click.echo("\nbattery (electric powertrain):")
+        cols = [("cycle", "cycle", ""), ("battery_energy_kwh", "battery kWh", ".3f"),
+                ("battery_wh_per_km", "Wh/km", ".1f"),
+                ("regenerated_energy_kwh", "regenerated kWh", ".3f")]
+        if vehicle.powertrain.charger_efficiency is not None:
+            cols.append(("wall_wh_per_km", "wall Wh/km", ".1f"))
+        cols += [("range_km", "range km", ".0f"),
+                 ("motor_limit_exceeded_s", "over motor limit s", ".0f")]
+    else:
+        click.echo(f"\nfuel ({vehicle.powertrain.fuel.name}, combustion powertrain):")
+        if vehicle.powertrain.fuel.liquid:
+            cols = [("cycle", "cycle", ""), ("fuel_l", "fuel L", ".3f"),
+                    ("fuel_l_per_100km", "L/100km", ".2f"), ("mpg_us", "mpg US", ".1f"),
+                    ("mpg_uk", "mpg UK", ".1f")]
+        else:
+            cols = [("cycle", "cycle", ""), ("fuel_kg", "fuel kg", ".3f"),
+                    ("fuel_kg_per_100km", "kg/100km", ".2f")]
+        cols += [("co2_g_per_km", "CO2 g/km", ".0f"), ("range_km", "range km", ".0f"),
+                 ("engine_limit_exceeded_s", "over engine limit s", ".0f")]
     click.echo(table(rows, cols))

@@ -1,0 +1,70 @@
+"""``tractive range-curve``: range and consumption against constant speed."""
+
+from __future__ import annotations
+
+import click
+import numpy as np
+
+from ..powertrain.curve import range_curve
+from ..vehicle import load_vehicle
+from . import cli
+from ._output import emit_json, fmt, table
+
+
+@cli.command("range-curve")
+@click.argument("vehicle_file", metavar="VEHICLE.yaml")
+@click.option("--from-kmh", type=float, default=20.0, show_default=True,
+              help="Lowest speed [km/h].")
+@click.option("--to-kmh", type=float, default=160.0, show_default=True,
+              help="Highest speed [km/h].")
+@click.option("--step-kmh", type=float, default=10.0, show_default=True,
+              help="Speed step [km/h].")
+@click.option("--ambient-c", type=float, default=None,
+              help="Ambient temperature [°C] for a temperature-dependent auxiliary load "
+                   "(default: the vehicle file's ambient_temperature_c).")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
+def range_curve_command(vehicle_file, from_kmh, to_kmh, step_kmh, ambient_c, as_json):
+    """Range and consumption at constant speeds on a level road without wind,
+    and the speed of greatest range (electric: battery Wh/km; combustion:
+    L/100 km, CO2 and tank range).
+    """
+    if not from_kmh > 0:
+        raise click.BadParameter("must be above 0", param_hint="--from-kmh")
+    if not to_kmh >= from_kmh:
+        raise click.BadParameter("must be at least --from-kmh", param_hint="--to-kmh")
+    if not step_kmh > 0:
+        raise click.BadParameter("must be above 0", param_hint="--step-kmh")
+    if (to_kmh - from_kmh) / step_kmh > 10000:
+        raise click.BadParameter("gives more than 10000 speeds", param_hint="--step-kmh")
+    speeds = np.arange(from_kmh, to_kmh + 1e-9 * max(1.0, to_kmh), step_kmh)
+    vehicle = load_vehicle(vehicle_file)
+    curve = range_curve(vehicle, speeds, ambient_temperature_c=ambient_c)
+    data = curve.to_dict()
+    if as_json:
+        emit_json(data)
+        return
+    click.echo(f"{vehicle.name}  (constant speed, level road, no wind)\n")
+    if curve.kind == "electric":
+        cols = [("speed_kmh", "km/h", ".0f"), ("battery_wh_per_km", "Wh/km battery", ".1f")]
+        if "wall_wh_per_km" in curve.columns:
+            cols.append(("wall_wh_per_km", "Wh/km wall", ".1f"))
+        cols += [("power_kw", "battery kW", ".1f"), ("range_km", "range km", ".0f")]
+    else:
+        cols = [("speed_kmh", "km/h", ".0f")]
+        if "fuel_l_per_100km" in curve.columns:
+            cols.append(("fuel_l_per_100km", "L/100km", ".2f"))
+        else:
+            cols.append(("fuel_kg_per_100km", "kg/100km", ".2f"))
+        cols += [("co2_g_per_km", "CO2 g/km", ".0f"), ("gear", "gear", ".0f"),
+                 ("engine_speed_rpm", "rpm", ".0f"), ("range_km", "range km", ".0f")]
+    rows = []
+    for r in data["rows"]:
+        row = dict(r)
+        row["note"] = "" if r["feasible"] else "beyond the drive's limits"
+        rows.append(row)
+    if not all(r["feasible"] for r in data["rows"]):
+        cols.append(("note", "note", ""))
+    click.echo(table(rows, cols))
+    edge = " (end of the swept span)" if data["best_at_edge_of_span"] else ""
+    click.echo(f"\ngreatest range {fmt(data['best_range_km'], '.0f')} km at "
+               f"{fmt(data['best_speed_kmh'], '.1f')} km/h{edge}")

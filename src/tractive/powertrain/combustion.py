@@ -1,0 +1,606 @@
+"""Combustion powertrain: from wheel power to fuel, CO2 and tank range.
+
+For every interval of a profile (wheel force F [N] at mean speed v [m/s]) and
+for every gear g at once (a leading gear axis), the engine speed is
+ω_g = v·i_g·i_fd / r and, while pulling, the engine torque is
+T_g = F·r / (i_g·i_fd·η_t). Below idle speed the clutch slips: the engine
+runs at idle speed and passes the same torque. The gear used is chosen by the
+shift rule:
+
+* ``speeds``: upshift at fixed vehicle speeds (gear = number of upshift
+  speeds at or below v, plus one);
+* ``efficient``: the gear with the lowest fuel rate among those that keep the
+  engine between idle and rev limit and (with a full-load curve) can deliver
+  the torque; when no gear can, the gear that comes closest.
+
+Fuel rate, two engine models:
+
+* **Willans line**: the brake mean effective pressure is a linear function of
+  the fuel mean effective pressure, p_me = e·p_mf − p_me0; in power form
+  P_e = e·ṁ_f·H_l − P_0 with P_0 = p_me0·V_d·ω/(4π) for a four-stroke engine
+  (or a constant friction power), so ṁ_f = (P_e + P_0) / (e·H_l).
+* **BSFC map**: brake-specific fuel consumption b [g/kWh] over engine speed
+  and torque, turned into a fuel-rate table ṁ = b·T·ω on the map's grid and
+  interpolated bilinearly (fuel rate, unlike b, stays finite and nearly linear
+  in torque). Below the lowest mapped torque the fuel rate is extended
+  linearly in torque to zero torque (the Willans line at that speed, from the
+  two lowest rows); above the highest torque the top row's b is used.
+
+Overrun (wheel force ≤ 0 while moving, clutch engaged): no fuel with fuel
+cut-off, else the zero-torque fuel rate at that engine speed. Clutch open
+(standstill, or braking below the speed where first gear reaches idle): the
+idle fuel rate, or nothing at standstill with ``engine_off_at_rest``.
+
+References
+----------
+.. [1] L. Guzzella, A. Sciarretta, *Vehicle Propulsion Systems*, 3rd ed.,
+   Springer 2013, §3.2 (quasi-static IC engine models; the Willans
+   approximation p_me = e·p_mf − p_me0) and ch. 2 (backward simulation).
+.. [2] J. B. Heywood, *Internal Combustion Engine Fundamentals*, McGraw-Hill
+   1988, §2.7 (mean effective pressure: P = p_me·V_d·N / n_R, n_R = 2 for a
+   four-stroke engine) and §2.9 (specific fuel consumption).
+.. [3] 40 CFR 600.210-12 and UK / US gallon definitions (NIST SP 811;
+   Weights and Measures Act 1985) for mpg.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..spec import Section
+from ..units import KMH_MS, KWH_J, MILE_M, UK_GALLON_L, US_GALLON_L
+from ._common import STANDSTILL_MS, col, plain, range_from, safe_divide
+from .drive import (RPM_RADS, FullLoadCurve, Gearing, parse_full_load, parse_gear_ratios,
+                    rads_to_rpm)
+from .fuels import FUELS, Fuel, get_fuel
+from .maps import SpeedTorqueMap, parse_speed_torque_map
+
+
+# ---------------------------------------------------------------------------
+# engine models
+# ---------------------------------------------------------------------------
+
+def willans_friction_power_w(friction_mep_pa, displacement_m3, speed_rads):
+    """Friction (loss) power of a four-stroke engine [W] = p_me0·V_d·ω/(4π) [2].
+
+    Parameters
+    ----------
+    friction_mep_pa : float or array
+        Friction mean effective pressure p_me0 [Pa].
+    displacement_m3 : float or array
+        Swept volume V_d [m³].
+    speed_rads : array
+        Engine speed ω [rad/s].
+    """
+    return (np.asarray(friction_mep_pa, float) * np.asarray(displacement_m3, float)
+            * np.asarray(speed_rads, float) / (4.0 * math.pi))
+
+
+def willans_fuel_rate_kg_s(power_w, friction_power_w, marginal_efficiency, lhv_j_per_kg):
+    """Fuel mass rate on the Willans line [kg/s] = (P_e + P_0) / (e·H_l) [1].
+
+    Parameters
+    ----------
+    power_w : array
+        Brake power P_e [W] (≥ −P_0; clipped at zero fuel below).
+    friction_power_w : array
+        Loss power P_0 [W].
+    marginal_efficiency : float or array
+        Slope e of brake power over fuel power [-].
+    lhv_j_per_kg : float
+        Lower heating value H_l [J/kg].
+    """
+    fuel_power = (np.asarray(power_w, float) + np.asarray(friction_power_w, float)) / \
+        np.asarray(marginal_efficiency, float)
+    return np.maximum(fuel_power, 0.0) / lhv_j_per_kg
+
+
+@dataclass(frozen=True)
+class WillansEngine:
+    """Willans-line engine (see :func:`willans_fuel_rate_kg_s`).
+
+    Attributes
+    ----------
+    marginal_efficiency : float
+        e [-].
+    lhv_j_per_kg : float
+        Lower heating value of the fuel [J/kg].
+    friction_mep_pa, displacement_m3 : float or None
+        p_me0 [Pa] and V_d [m³] (friction power grows with speed).
+    friction_power_w : float or None
+        Constant loss power P_0 [W] instead.
+    """
+
+    marginal_efficiency: object
+    lhv_j_per_kg: float
+    friction_mep_pa: object = None
+    displacement_m3: float | None = None
+    friction_power_w: object = None
+
+    model = "willans"
+
+    def friction_power(self, speed_rads):
+        if self.friction_power_w is not None:
+            return col(self.friction_power_w) * np.ones_like(np.asarray(speed_rads, float))
+        return willans_friction_power_w(col(self.friction_mep_pa), self.displacement_m3,
+                                        speed_rads)
+
+    def fuel_rate_kg_s(self, speed_rads, torque_nm):
+        """Fuel rate [kg/s] at engine speed [rad/s] and torque [N m] (torque ≥ 0)."""
+        w = np.asarray(speed_rads, float)
+        p = np.maximum(np.asarray(torque_nm, float), 0.0) * w
+        return willans_fuel_rate_kg_s(p, self.friction_power(w), col(self.marginal_efficiency),
+                                      self.lhv_j_per_kg)
+
+    def to_dict(self) -> dict:
+        out = {"model": self.model, "marginal_efficiency": plain(self.marginal_efficiency)}
+        if self.friction_power_w is not None:
+            out["friction_power_kw"] = plain(np.asarray(self.friction_power_w) / 1000.0)
+        else:
+            out["friction_mep_kpa"] = plain(np.asarray(self.friction_mep_pa) / 1000.0)
+            out["displacement_l"] = self.displacement_m3 * 1000.0
+        return out
+
+
+@dataclass(frozen=True)
+class BsfcEngine:
+    """Engine described by a brake-specific fuel consumption map.
+
+    Attributes
+    ----------
+    bsfc : SpeedTorqueMap
+        b [g/kWh] over speed [rpm] and torque [N m] (as given).
+    torque_grid_nm : (K+1,) array
+        The map's torques with 0 N m prepended.
+    fuel_rate_grid_kg_s : (K+1, S) array
+        Fuel rate [kg/s] on that grid (row 0 extended to zero torque).
+    """
+
+    bsfc: SpeedTorqueMap
+    torque_grid_nm: np.ndarray
+    fuel_rate_grid_kg_s: np.ndarray
+
+    model = "bsfc_map"
+
+    @classmethod
+    def from_map(cls, bsfc: SpeedTorqueMap) -> "BsfcEngine":
+        w = bsfc.speed_rpm * RPM_RADS
+        t = bsfc.torque_nm
+        rate = bsfc.values * (t[:, None] * w[None, :]) / (KWH_J * 1000.0)  # g/kWh·W → kg/s
+        slope = (rate[1] - rate[0]) / (t[1] - t[0])
+        zero_row = np.maximum(rate[0] - slope * t[0], 0.0)
+        return cls(bsfc, np.concatenate([[0.0], t]), np.vstack([zero_row, rate]))
+
+    def fuel_rate_kg_s(self, speed_rads, torque_nm):
+        """Fuel rate [kg/s] at engine speed [rad/s] and torque [N m] (torque ≥ 0).
+
+        Speeds outside the map are held at its edge; torque above the top row
+        uses the top row's specific consumption.
+        """
+        from .maps import bilinear
+
+        n = rads_to_rpm(speed_rads)
+        t = np.maximum(np.asarray(torque_nm, float), 0.0)
+        t_top = self.torque_grid_nm[-1]
+        base = bilinear(self.bsfc.speed_rpm, self.torque_grid_nm, self.fuel_rate_grid_kg_s, n,
+                        np.minimum(t, t_top))
+        return np.where(t > t_top, base * t / t_top, base)
+
+    def to_dict(self) -> dict:
+        out = {"model": self.model}
+        out.update(self.bsfc.to_dict())
+        return out
+
+
+# ---------------------------------------------------------------------------
+# result
+# ---------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class CombustionResult:
+    """Fuel, CO2 and tank range of a combustion vehicle on one profile.
+
+    Values are floats, or arrays of shape (N,) for a vehicle axis. Volume
+    results are None for a fuel sold by mass (CNG).
+    """
+
+    profile: str
+    fuel: Fuel
+    distance_km: float
+    duration_s: float
+    fuel_kg: object
+    idle_fuel_kg: object
+    tank_l: float | None
+    tank_kg: float | None
+    positive_wheel_energy_kwh: object
+    engine_limit_exceeded_s: object
+
+    kind = "combustion"
+
+    @property
+    def fuel_l(self):
+        if not self.fuel.liquid:
+            return None
+        return np.asarray(self.fuel_kg) / self.fuel.density_kg_per_l
+
+    @property
+    def fuel_l_per_100km(self):
+        fl = self.fuel_l
+        return None if fl is None else safe_divide(fl * 100.0, self.distance_km)
+
+    @property
+    def fuel_kg_per_100km(self):
+        return safe_divide(np.asarray(self.fuel_kg) * 100.0, self.distance_km)
+
+    @property
+    def mpg_us(self):
+        """Miles per US gallon (None for CNG)."""
+        fl = self.fuel_l
+        if fl is None:
+            return None
+        return safe_divide(self.distance_km * 1000.0 / MILE_M, fl / US_GALLON_L)
+
+    @property
+    def mpg_uk(self):
+        """Miles per imperial gallon (None for CNG)."""
+        fl = self.fuel_l
+        if fl is None:
+            return None
+        return safe_divide(self.distance_km * 1000.0 / MILE_M, fl / UK_GALLON_L)
+
+    @property
+    def co2_kg(self):
+        return np.asarray(self.fuel_kg) * self.fuel.co2_kg_per_kg
+
+    @property
+    def co2_g_per_km(self):
+        return safe_divide(self.co2_kg * 1000.0, self.distance_km)
+
+    @property
+    def fuel_energy_mj(self):
+        return np.asarray(self.fuel_kg) * self.fuel.lhv_mj_per_kg
+
+    @property
+    def tank_to_wheel_efficiency(self):
+        """Positive wheel energy / fuel energy (lower heating value) [-]."""
+        return safe_divide(np.asarray(self.positive_wheel_energy_kwh) * 3.6, self.fuel_energy_mj)
+
+    @property
+    def store_used(self):
+        """Fuel drawn from the tank, in the tank's unit (L, or kg for CNG)."""
+        return self.fuel_kg if self.tank_l is None else self.fuel_l
+
+    @property
+    def store_size(self):
+        return self.tank_kg if self.tank_l is None else self.tank_l
+
+    @property
+    def range_km(self):
+        """Tank range [km] = tank / fuel per km."""
+        return range_from(self.store_size, safe_divide(self.store_used, self.distance_km))
+
+    def to_dict(self) -> dict:
+        return {
+            "powertrain": self.kind,
+            "fuel": self.fuel.name,
+            "fuel_l": plain(self.fuel_l),
+            "fuel_l_per_100km": plain(self.fuel_l_per_100km),
+            "fuel_kg": plain(self.fuel_kg),
+            "fuel_kg_per_100km": plain(self.fuel_kg_per_100km),
+            "fuel_energy_mj": plain(self.fuel_energy_mj),
+            "idle_fuel_kg": plain(self.idle_fuel_kg),
+            "mpg_us": plain(self.mpg_us),
+            "mpg_uk": plain(self.mpg_uk),
+            "co2_kg": plain(self.co2_kg),
+            "co2_g_per_km": plain(self.co2_g_per_km),
+            "range_km": plain(self.range_km),
+            "tank_to_wheel_efficiency": plain(self.tank_to_wheel_efficiency),
+            "engine_limit_exceeded_s": plain(self.engine_limit_exceeded_s),
+        }
+
+
+# ---------------------------------------------------------------------------
+# powertrain
+# ---------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class CombustionPowertrain:
+    """A combustion engine with a stepped gearbox (see module docstring).
+
+    Attributes
+    ----------
+    fuel : Fuel
+    engine : WillansEngine or BsfcEngine
+    gearing : Gearing
+        Ratios, final drive, tyre radius, transmission efficiency.
+    idle_speed_rpm : float
+        Idle speed [rpm].
+    rev_limit_rpm : float
+        Highest engine speed [rpm].
+    shift_rule : str
+        ``"efficient"`` or ``"speeds"``.
+    upshift_speeds_ms : tuple
+        Upshift speeds [m/s] from gear k to k+1 (``"speeds"`` rule).
+    fuel_cutoff : bool
+        Fuel cut-off on overrun.
+    engine_off_at_rest : bool
+        Engine stops at standstill (stop-start).
+    idle_fuel_kg_s : float or None
+        Idle fuel rate [kg/s]; None to take it from the engine model at idle.
+    full_load : FullLoadCurve or None
+        Full-load torque (gear feasibility, performance).
+    tank_l, tank_kg : float or None
+        Tank size [L] (liquid fuels) or [kg] (CNG).
+    """
+
+    fuel: Fuel
+    engine: object
+    gearing: Gearing
+    idle_speed_rpm: float
+    rev_limit_rpm: float
+    shift_rule: str = "efficient"
+    upshift_speeds_ms: tuple = ()
+    fuel_cutoff: bool = True
+    engine_off_at_rest: bool = False
+    idle_fuel_kg_s: float | None = None
+    full_load: FullLoadCurve | None = None
+    tank_l: float | None = None
+    tank_kg: float | None = None
+
+    kind = "combustion"
+
+    def idle_fuel_rate_kg_s(self):
+        """Fuel rate at idle with the clutch open [kg/s]."""
+        if self.idle_fuel_kg_s is not None:
+            return np.asarray(self.idle_fuel_kg_s, float)
+        return self.engine.fuel_rate_kg_s(self.idle_speed_rpm * RPM_RADS, 0.0)
+
+    def operation(self, force_n, speed_ms) -> dict:
+        """Gear, engine speed and torque, and fuel rate per interval.
+
+        Parameters
+        ----------
+        force_n : array (T,) or (N, T)
+            Wheel force [N].
+        speed_ms : array (T,)
+            Mean speed [m/s].
+
+        Returns
+        -------
+        dict of arrays shaped like the broadcast of the inputs: ``gear``
+        (1-based, 0 at standstill), ``engine_speed_rads``, ``engine_torque_nm``,
+        ``fuel_kg_s``, ``idle`` (clutch open), ``over_limit`` (demand beyond the
+        engine's full load or rev limit).
+        """
+        f, v = np.broadcast_arrays(np.asarray(force_n, float), np.asarray(speed_ms, float))
+        gr = self.gearing
+        n_g = gr.n_gears
+        ratios = gr.overall_ratios.reshape((n_g,) + (1,) * f.ndim)
+        eta = col(gr.efficiency)
+        w_gear = v * ratios / gr.tyre_radius_m                     # (G, ...)
+        w_idle = self.idle_speed_rpm * RPM_RADS
+        w_max = self.rev_limit_rpm * RPM_RADS
+        moving = v > STANDSTILL_MS
+        pulling = moving & (f > 0)
+        slip = w_gear < w_idle
+        w_eng = np.maximum(w_gear, w_idle)
+        t_pull = np.maximum(f, 0.0) * gr.tyre_radius_m / (ratios * eta)
+        idle_rate = self.idle_fuel_rate_kg_s()
+        fuel_pull = self.engine.fuel_rate_kg_s(w_eng, t_pull)
+        if self.fuel_cutoff:
+            fuel_over = np.where(slip, idle_rate, 0.0)
+        else:
+            fuel_over = np.where(slip, idle_rate, self.engine.fuel_rate_kg_s(w_eng, 0.0))
+        fuel_g = np.where(pulling, fuel_pull, fuel_over)
+        if self.full_load is not None:
+            t_max = self.full_load.max_torque_nm(w_eng)
+            torque_ok = ~pulling | (t_pull <= t_max * (1 + 1e-9))
+            torque_excess = np.where(pulling, np.maximum(t_pull / np.maximum(t_max, 1e-9) - 1,
+                                                         0.0), 0.0)
+        else:
+            torque_ok = np.ones(w_gear.shape, bool)
+            torque_excess = np.zeros(w_gear.shape)
+        rev_ok = w_gear <= w_max * (1 + 1e-12)
+        first = (np.arange(n_g) == 0).reshape((n_g,) + (1,) * f.ndim)
+        low_ok = ~slip | first
+        over_g = ~(rev_ok & torque_ok)
+        if self.shift_rule == "speeds":
+            g = np.searchsorted(np.asarray(self.upshift_speeds_ms, float), v, side="right")
+            g = np.minimum(g, n_g - 1)
+        else:
+            feasible = rev_ok & low_ok & torque_ok
+            penalty = (np.maximum(w_gear / w_max - 1.0, 0.0)
+                       + np.where(first, 0.0, np.maximum(1.0 - w_gear / w_idle, 0.0))
+                       + torque_excess)
+            # ties (e.g. fuel cut-off in every gear) go to the lowest engine speed
+            cost = np.where(feasible, fuel_g, 1.0e6 + penalty) + 1e-15 * w_eng
+            g = np.argmin(cost, axis=0)
+        g = np.broadcast_to(g, f.shape)
+
+        def pick(a):
+            return np.take_along_axis(np.broadcast_to(a, w_gear.shape), g[None], axis=0)[0]
+
+        fuel = pick(fuel_g)
+        w_sel = pick(w_eng)
+        t_sel = np.where(pulling, pick(t_pull),
+                         f * gr.tyre_radius_m * eta / pick(np.broadcast_to(ratios,
+                                                                           w_gear.shape)))
+        idle = ~moving | (pick(slip) & ~pulling)
+        rest_rate = 0.0 if self.engine_off_at_rest else idle_rate
+        fuel = np.where(moving, fuel, rest_rate)
+        w_sel = np.where(moving, w_sel, 0.0 if self.engine_off_at_rest else w_idle)
+        t_sel = np.where(moving, t_sel, 0.0)
+        over = moving & pick(over_g)
+        gear = np.where(moving, g + 1, 0)
+        return {"gear": gear, "engine_speed_rads": w_sel, "engine_torque_nm": t_sel,
+                "fuel_kg_s": fuel, "idle": idle, "over_limit": over}
+
+    def consume(self, vehicle, demand, profile=None) -> CombustionResult:
+        """Fuel, CO2 and tank range on one profile (demand of shape (T-1,) or (N, T-1))."""
+        iv = demand.intervals
+        dt = np.asarray(iv.dt_s, float)
+        op = self.operation(demand.force_n, iv.speed_ms)
+        fuel_kg = np.sum(op["fuel_kg_s"] * dt, axis=-1)
+        idle_kg = np.sum(np.where(op["idle"], op["fuel_kg_s"], 0.0) * dt, axis=-1)
+        over_s = np.sum(np.where(op["over_limit"], dt, 0.0), axis=-1)
+        name = getattr(profile, "name", None) or demand.profile
+        return CombustionResult(
+            profile=name, fuel=self.fuel, distance_km=demand.distance_m / 1000.0,
+            duration_s=float(np.sum(dt)), fuel_kg=fuel_kg, idle_fuel_kg=idle_kg,
+            tank_l=self.tank_l, tank_kg=self.tank_kg,
+            positive_wheel_energy_kwh=np.asarray(demand.positive_energy_j) / KWH_J,
+            engine_limit_exceeded_s=over_s)
+
+    def steady(self, vehicle, speed_ms, **_) -> dict:
+        """Consumption at constant speeds on a level road, no wind.
+
+        Returns a dict of (S,) arrays: ``store_per_km`` (L/km, or kg/km for CNG),
+        ``fuel_l_per_100km`` (None for CNG), ``fuel_kg_per_100km``, ``range_km``,
+        ``gear``, ``engine_speed_rpm``, ``feasible``.
+        """
+        v = np.asarray(speed_ms, float)
+        force = vehicle.resistance().force_n(v)
+        op = self.operation(force, v)
+        kg_per_km = op["fuel_kg_s"] / v * 1000.0
+        out = {"fuel_kg_per_100km": kg_per_km * 100.0, "gear": op["gear"],
+               "engine_speed_rpm": rads_to_rpm(op["engine_speed_rads"]),
+               "feasible": ~op["over_limit"], "fuel_l_per_100km": None,
+               "co2_g_per_km": kg_per_km * self.fuel.co2_kg_per_kg * 1000.0}
+        if self.tank_l is not None:
+            l_per_km = kg_per_km / self.fuel.density_kg_per_l
+            out["fuel_l_per_100km"] = l_per_km * 100.0
+            out["store_per_km"] = l_per_km
+            out["range_km"] = range_from(self.tank_l, l_per_km)
+        else:
+            if self.fuel.liquid:
+                out["fuel_l_per_100km"] = kg_per_km / self.fuel.density_kg_per_l * 100.0
+            out["store_per_km"] = kg_per_km
+            out["range_km"] = range_from(self.tank_kg, kg_per_km)
+        return out
+
+    def to_dict(self) -> dict:
+        out = {"kind": self.kind, "fuel": self.fuel.name, "tank_l": self.tank_l,
+               "tank_kg": self.tank_kg, "engine": self.engine.to_dict(),
+               "idle_speed_rpm": self.idle_speed_rpm, "rev_limit_rpm": self.rev_limit_rpm,
+               "shift_rule": self.shift_rule,
+               "upshift_speeds_kmh": [s / KMH_MS for s in self.upshift_speeds_ms] or None,
+               "fuel_cutoff": self.fuel_cutoff, "engine_off_at_rest": self.engine_off_at_rest,
+               "idle_fuel_kg_per_h": plain(self.idle_fuel_rate_kg_s() * 3600.0),
+               "full_load": None if self.full_load is None else self.full_load.to_dict()}
+        out.update(self.gearing.to_dict())
+        out["transmission_efficiency"] = out.pop("driveline_efficiency")
+        return out
+
+
+# ---------------------------------------------------------------------------
+# parser
+# ---------------------------------------------------------------------------
+
+def parse_combustion(sec: Section) -> CombustionPowertrain:
+    """Read a ``powertrain`` block with ``kind: combustion`` (keys in the docs)."""
+    fuel = get_fuel(sec.string("fuel"), where=lambda m: sec.error(m, "fuel"))
+    tank_form = sec.only_one_of(("tank_l",), ("tank_kg",), what="tank size")
+    if tank_form is None:
+        raise sec.error("give tank_l (liquid fuels) or tank_kg (CNG)")
+    tank_l = tank_kg = None
+    if tank_form == 0:
+        if not fuel.liquid:
+            raise sec.error(f"{fuel.name} is stored by mass: give tank_kg", "tank_l")
+        tank_l = sec.number("tank_l", min=0.0, min_inclusive=False, max=5000.0, unit="L")
+    else:
+        tank_kg = sec.number("tank_kg", min=0.0, min_inclusive=False, max=5000.0, unit="kg")
+    ratios = parse_gear_ratios(sec)
+    final = sec.number("final_drive_ratio", min=0.0, min_inclusive=False, max=20.0)
+    radius = sec.number("tyre_radius_m", min=0.1, max=1.5, unit="m")
+    eff = sec.number("transmission_efficiency", min=0.5, max=1.0)
+    gearing = Gearing(ratios, final, radius, eff)
+    idle = sec.number("idle_speed_rpm", min=200.0, max=3000.0, unit="rpm")
+    full_load = parse_full_load(sec.section("full_load")) if sec.has("full_load") else None
+    if full_load is None and not sec.has("rev_limit_rpm"):
+        raise sec.error("missing required key (or give full_load, whose last speed is then "
+                        "the rev limit)", "rev_limit_rpm")
+    default_limit = None if full_load is None else float(full_load.speed_rpm[-1])
+    rev = sec.number("rev_limit_rpm", required=False, default=default_limit, min=500.0,
+                     max=25000.0, unit="rpm")
+    if rev <= idle:
+        raise sec.error(f"must be above idle_speed_rpm ({idle:g})", "rev_limit_rpm")
+    if full_load is not None and full_load.speed_rpm[0] > idle + 1e-9:
+        raise sec.error(f"full_load must start at or below idle_speed_rpm ({idle:g} rpm); "
+                        f"it starts at {full_load.speed_rpm[0]:g} rpm", "full_load")
+    # shift rule
+    rule = sec.string("shift_rule", required=False, choices=("efficient", "speeds"),
+                      default="speeds" if sec.has("upshift_speeds_kmh") else "efficient")
+    upshift = ()
+    if rule == "speeds":
+        if not sec.has("upshift_speeds_kmh") and len(ratios) > 1:
+            raise sec.error("missing required key for shift_rule: speeds", "upshift_speeds_kmh")
+        if len(ratios) > 1:
+            up = sec.numbers("upshift_speeds_kmh", min=0.0, increasing=True, unit="km/h")
+            if len(up) != len(ratios) - 1:
+                raise sec.error(f"needs one speed per upshift ({len(ratios) - 1} for "
+                                f"{len(ratios)} gears), got {len(up)}", "upshift_speeds_kmh")
+            upshift = tuple(float(u) * KMH_MS for u in up)
+    elif sec.has("upshift_speeds_kmh"):
+        raise sec.error("is only used with shift_rule: speeds", "upshift_speeds_kmh")
+    cutoff = sec.boolean("fuel_cutoff", default=True)
+    off_at_rest = sec.boolean("engine_off_at_rest", default=False)
+    # engine model
+    model = sec.only_one_of(("willans",), ("bsfc_map",), what="engine model")
+    if model is None:
+        raise sec.error("give an engine model: willans (marginal efficiency and friction) or "
+                        "bsfc_map (brake-specific fuel consumption over speed and torque)")
+    if model == 0:
+        engine = _parse_willans(sec.section("willans"), fuel)
+    else:
+        msec = sec.section("bsfc_map")
+        bmap = parse_speed_torque_map(msec, "bsfc_g_per_kwh", unit="g/kWh", value_min=100.0,
+                                      value_max=5000.0, torque_min=0.0)
+        if bmap.torque_nm[0] <= 0:
+            raise msec.error("the lowest torque must be above 0 N m (specific consumption is "
+                             "not defined at zero torque; the model extends the fuel rate "
+                             "there)", "torque_nm")
+        engine = BsfcEngine.from_map(bmap)
+    idle_form = sec.only_one_of(("idle_fuel_l_per_h",), ("idle_fuel_kg_per_h",),
+                                what="idle fuel rate")
+    idle_kg_s = None
+    if idle_form == 0:
+        if not fuel.liquid:
+            raise sec.error(f"{fuel.name} is measured by mass: give idle_fuel_kg_per_h",
+                            "idle_fuel_l_per_h")
+        idle_kg_s = sec.number("idle_fuel_l_per_h", min=0.0, max=50.0, unit="L/h") \
+            * fuel.density_kg_per_l / 3600.0
+    elif idle_form == 1:
+        idle_kg_s = sec.number("idle_fuel_kg_per_h", min=0.0, max=50.0, unit="kg/h") / 3600.0
+    if idle_kg_s is None and model == 0 and engine.friction_power_w is not None:
+        raise sec.error("missing: with a constant willans.friction_power_kw give "
+                        "idle_fuel_l_per_h or idle_fuel_kg_per_h (friction at idle differs "
+                        "from friction while driving)", "idle_fuel_l_per_h")
+    sec.finish(allowed_extra=("kind",))
+    return CombustionPowertrain(
+        fuel=fuel, engine=engine, gearing=gearing, idle_speed_rpm=idle, rev_limit_rpm=rev,
+        shift_rule=rule, upshift_speeds_ms=upshift, fuel_cutoff=cutoff,
+        engine_off_at_rest=off_at_rest, idle_fuel_kg_s=idle_kg_s, full_load=full_load,
+        tank_l=tank_l, tank_kg=tank_kg)
+
+
+def _parse_willans(sec: Section, fuel: Fuel) -> WillansEngine:
+    e = sec.number("marginal_efficiency", min=0.05, max=0.7)
+    form = sec.only_one_of(("friction_power_kw",), ("friction_mep_kpa", "displacement_l"),
+                           what="friction form")
+    if form is None:
+        raise sec.error("give friction_power_kw, or friction_mep_kpa with displacement_l")
+    if form == 0:
+        p0 = sec.number("friction_power_kw", min=0.0, max=500.0, unit="kW") * 1000.0
+        sec.finish()
+        return WillansEngine(e, fuel.lhv_j_per_kg, friction_power_w=p0)
+    pme0 = sec.number("friction_mep_kpa", min=0.0, max=1000.0, unit="kPa") * 1000.0
+    vd = sec.number("displacement_l", min=0.0, min_inclusive=False, max=40.0, unit="L") / 1000.0
+    sec.finish()
+    return WillansEngine(e, fuel.lhv_j_per_kg, friction_mep_pa=pme0, displacement_m3=vd)
+
+
+__all__ = ["CombustionPowertrain", "CombustionResult", "WillansEngine", "BsfcEngine",
+           "willans_fuel_rate_kg_s", "willans_friction_power_w", "parse_combustion", "FUELS"]
