@@ -61,8 +61,8 @@ from .spec import StudySpec, j2263_air_density_kg_m3, load_study
 from .uncertainty import UNCERTAIN_PARAMS, clip, expand, interval, standard_normal_draws
 
 #: keys taken from a powertrain's consume(...).to_dict()
-POWERTRAIN_KEYS = ("battery_energy_kwh", "battery_wh_per_km", "fuel_l", "fuel_l_per_100km",
-                   "co2_g_per_km", "range_km")
+POWERTRAIN_KEYS = ("battery_energy_kwh", "battery_wh_per_km", "wall_wh_per_km", "fuel_l",
+                   "fuel_l_per_100km", "co2_g_per_km", "range_km")
 #: keys taken from performance_summary(...).to_dict()
 PERFORMANCE_KEYS = ("top_speed_kmh", "accel_0_100_kmh_s", "accel_80_120_kmh_s")
 #: metrics attributed to parameter groups (when present)
@@ -174,7 +174,8 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
     raw_results = {}
     demands = {}
     for name, role, ps, cost, members, desc in variants:
-        raw_results[name], demands[name] = _evaluate(ps, profiles, warnings)
+        raw_results[name], demands[name] = _evaluate(ps, profiles, warnings,
+                                                     spec.ambient_temperature_c)
     _check_money(spec, raw_results)
     derived = {name: _derive(spec, raw_results[name]) for name, *_ in variants}
     base_derived = derived[BASELINE]
@@ -302,7 +303,7 @@ def _note_clipped(warnings, label, clipped):
 # evaluation
 # ---------------------------------------------------------------------------
 
-def _evaluate(ps, profiles, warnings) -> tuple:
+def _evaluate(ps, profiles, warnings, ambient_temperature_c=None) -> tuple:
     """Metric arrays (vehicle axis) per profile, and the wheel demands."""
     size = ps.size
     rl = ps.road_load()
@@ -312,6 +313,14 @@ def _evaluate(ps, profiles, warnings) -> tuple:
     out = {}
     demands = {}
     perf = _performance(ps, warnings)
+    consume_kw = {}
+    if ps.powertrain is not None and ambient_temperature_c is not None:
+        import inspect
+        try:
+            if "ambient_temperature_c" in inspect.signature(ps.powertrain.consume).parameters:
+                consume_kw["ambient_temperature_c"] = ambient_temperature_c
+        except (TypeError, ValueError):
+            pass
     for name, prof in profiles:
         d = wheel_demand(rl, mass, inertial, prof.time_s, prof.speed_ms, prof.grade_fraction,
                          profile=name)
@@ -326,7 +335,7 @@ def _evaluate(ps, profiles, warnings) -> tuple:
         for comp in COMPONENTS:
             met[f"{comp}_energy_wh_per_km"] = full(d.components_j[comp] / 3600.0 / km)
         if ps.powertrain is not None:
-            res = ps.powertrain.consume(vehicle, d, prof)
+            res = ps.powertrain.consume(vehicle, d, prof, **consume_kw)
             data = res.to_dict() if hasattr(res, "to_dict") else dict(res)
             for key in POWERTRAIN_KEYS:
                 value = data.get(key)
@@ -426,7 +435,11 @@ def _annual(e, met: dict) -> None:
     met["annual_distance_km"] = np.full(size, dist)
     if "battery_wh_per_km" in met:
         battery = annual_amount(met["battery_wh_per_km"] / 1000.0, dist)
-        grid = battery / e.charging_efficiency
+        if "wall_wh_per_km" in met:
+            # the powertrain states its own charger efficiency
+            grid = annual_amount(met["wall_wh_per_km"] / 1000.0, dist)
+        else:
+            grid = battery / e.charging_efficiency
         met["annual_battery_energy_kwh"] = battery
         met["annual_grid_energy_kwh"] = grid
         if e.electricity_price_per_kwh is not None:
@@ -563,7 +576,7 @@ def _attribute(spec, name, groups, base_nominal, var_nominal, profiles, order, o
         first = items[0][1]
         params = {k: np.concatenate([m.params[k] for _, m in items]) for k in first.params}
         batch = replace(first, params=params)
-        per_profile, _ = _evaluate(batch, profiles, [])
+        per_profile, _ = _evaluate(batch, profiles, [], spec.ambient_temperature_c)
         for j, (s, _) in enumerate(items):
             one = {p: {k: v[j:j + 1] for k, v in met.items()} for p, met in per_profile.items()}
             derived = _derive(spec, one)

@@ -84,6 +84,8 @@ METRICS: dict[str, MetricInfo] = {m.key: m for m in [
     _m("battery_energy_kwh", "battery energy", "kWh", "lower"),
     _m("battery_wh_per_km", "battery energy per km", "Wh/km", "lower"),
     _m("battery_wh_per_mi", "battery energy per mile", "Wh/mi", "lower"),
+    _m("wall_wh_per_km", "energy from the wall per km", "Wh/km", "lower"),
+    _m("wall_wh_per_mi", "energy from the wall per mile", "Wh/mi", "lower"),
     _m("fuel_l", "fuel", "L", "lower"),
     _m("fuel_gal", "fuel", "US gal", "lower"),
     _m("fuel_l_per_100km", "fuel consumption", "L/100 km", "lower"),

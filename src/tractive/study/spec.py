@@ -161,6 +161,7 @@ class StudySpec:
     economics: EconomicsSpec | None
     air_density_kg_m3: float | None
     air_basis: str
+    ambient_temperature_c: float | None
     draws: int
     seed: int
     confidence_pct: float
@@ -248,7 +249,7 @@ def load_study(path: str | os.PathLike) -> StudySpec:
     sec.raw("notes")
 
     # ambient air (for physical road loads and for CdA changes on coefficients)
-    rho, air_basis = _read_ambient(sec, rd)
+    rho, air_basis, t_amb = _read_ambient(sec, rd)
 
     baseline, base_changes, base_raw = _read_baseline(sec.section("baseline"), rd)
     modifications = _read_modifications(sec, rd)
@@ -267,7 +268,8 @@ def load_study(path: str | os.PathLike) -> StudySpec:
                      baseline=baseline, baseline_changes=base_changes, baseline_raw=base_raw,
                      modifications=tuple(modifications), combinations=tuple(combinations),
                      profiles=tuple(profiles), mixes=tuple(mixes), economics=economics,
-                     air_density_kg_m3=rho, air_basis=air_basis, draws=draws, seed=seed,
+                     air_density_kg_m3=rho, air_basis=air_basis, ambient_temperature_c=t_amb,
+                     draws=draws, seed=seed,
                      confidence_pct=conf, dt_s=dt_s, inputs=tuple(rd.inputs),
                      base_dir=str(path.parent))
 
@@ -278,14 +280,14 @@ def _read_ambient(sec: Section, rd: _Reader):
         rd.echo("ambient", "air_density_kg_m3", None, "kg/m^3", "default",
                 "each vehicle keeps the air of its own file; CdA changes on measured "
                 "coefficients use the SAE J2263 reference state 20 °C, 98.21 kPa")
-        return None, ""
+        return None, "", None
     if amb.has("air_density_kg_m3"):
         for k in ("air_temperature_c", "air_pressure_pa", "altitude_m"):
             if amb.has(k):
                 raise amb.error("give air_density_kg_m3 or the air state, not both", k)
         rho = rd.num(amb, "air_density_kg_m3", "ambient", "kg/m^3", min=0.3, max=1.6)
         amb.finish()
-        return rho, "air_density_kg_m3 as given"
+        return rho, "air_density_kg_m3 as given", None
     t_c = rd.num(amb, "air_temperature_c", "ambient", "°C", default=math.nan,
                  min=-60.0, max=60.0)
     p_pa = rd.num(amb, "air_pressure_pa", "ambient", "Pa", default=math.nan,
@@ -299,7 +301,7 @@ def _read_ambient(sec: Section, rd: _Reader):
     rd.inputs = [i for i in rd.inputs if not (i.section == "ambient" and i.source == "default")]
     rd.echo("ambient", "air_density_kg_m3", air["density_kg_m3"], "kg/m^3", "computed",
             air["basis"])
-    return air["density_kg_m3"], air["basis"]
+    return air["density_kg_m3"], air["basis"], (None if math.isnan(t_c) else t_c)
 
 
 def _vehicle_from(sec: Section, key: str, rd: _Reader) -> Vehicle:
@@ -424,7 +426,7 @@ def _read_changes(sec: Section, rd: _Reader, section: str) -> tuple:
             else:
                 mode, val, text = "set", v, f"{v:g}"
         else:
-            raw = self_raw = rd.raw.get((line, key))
+            raw = rd.raw.get((line, key))
             if raw is None:
                 raw = str(value)
             if isinstance(value, bool) or value is None or isinstance(value, (list, dict)):
@@ -446,7 +448,6 @@ def _read_changes(sec: Section, rd: _Reader, section: str) -> tuple:
             else:
                 raise sec.error(f"must be a number (new value), a signed amount (+0.12) or a "
                                 f"signed percent (-15%), got '{raw}'", key)
-            del self_raw
             if not math.isfinite(float(val)):
                 raise sec.error("must be finite", key)
         if mode == "scale" and val < 0:
