@@ -4,8 +4,11 @@ All functions are vectorized: arguments may be numpy arrays (a Monte Carlo
 vehicle axis).
 
 * Annual energy = consumption per km × annual distance.
-* Simple payback [years] = cost / annual saving (no discounting), defined
-  only for a positive saving.
+* Simple payback [years] = cost / annual saving (no discounting), for a
+  positive cost and a positive saving. A modification that costs nothing or
+  lowers the purchase price (cost ≤ 0) and does not raise the running cost
+  (saving ≥ 0) pays back at once (0 years); one whose saving is not positive
+  while it costs money never pays back (no value).
 * Net present value of a modification bought at time 0 for ``cost`` and
   saving ``s`` at the end of each year 1 … L, discounted at rate r:
 
@@ -41,7 +44,10 @@ def annuity_factor(rate, years):
 
 
 def simple_payback_years(cost, annual_saving):
-    """Simple payback [years] = cost / annual saving; NaN where the saving is not positive.
+    """Simple payback [years] = cost / annual saving.
+
+    0 where cost ≤ 0 and saving ≥ 0 (pays back at once); NaN where the
+    modification costs money and saves none, or costs nothing and loses money.
 
     Parameters
     ----------
@@ -53,7 +59,8 @@ def simple_payback_years(cost, annual_saving):
     cost = np.asarray(cost, float)
     saving = np.asarray(annual_saving, float)
     with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(saving > 0, cost / np.where(saving > 0, saving, 1.0), np.nan)
+        out = np.where(saving > 0, cost / np.where(saving > 0, saving, 1.0), np.nan)
+    return np.where((cost <= 0) & (saving >= 0), 0.0, out)
 
 
 def net_present_value(cost, annual_saving, rate, years):

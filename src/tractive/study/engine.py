@@ -66,7 +66,8 @@ POWERTRAIN_KEYS = ("battery_energy_kwh", "battery_wh_per_km", "wall_wh_per_km", 
 #: keys taken from performance_summary(...).to_dict()
 PERFORMANCE_KEYS = ("top_speed_kmh", "accel_0_100_kmh_s", "accel_80_120_kmh_s")
 #: metrics attributed to parameter groups (when present)
-ATTRIBUTED = ("positive_energy_wh_per_km", "battery_wh_per_km", "fuel_l_per_100km",
+ATTRIBUTED = ("positive_energy_wh_per_km", "rolling_energy_wh_per_km", "aero_energy_wh_per_km",
+              "battery_wh_per_km", "fuel_l_per_100km",
               "co2_g_per_km", "range_km", "top_speed_kmh", "accel_0_100_kmh_s",
               "accel_80_120_kmh_s", "annual_energy_cost", "annual_co2_kg")
 #: metrics that compare a variant with the baseline (never on baseline rows)
@@ -303,7 +304,7 @@ def _note_clipped(warnings, label, clipped):
 # evaluation
 # ---------------------------------------------------------------------------
 
-def _evaluate(ps, profiles, warnings, ambient_temperature_c=None) -> tuple:
+def _evaluate(ps, profiles, warnings, ambient_temperature_c=None, every=False) -> tuple:
     """Metric arrays (vehicle axis) per profile, and the wheel demands."""
     size = ps.size
     rl = ps.road_load()
@@ -312,7 +313,7 @@ def _evaluate(ps, profiles, warnings, ambient_temperature_c=None) -> tuple:
     vehicle = ps.vehicle()
     out = {}
     demands = {}
-    perf = _performance(ps, warnings)
+    perf = _performance(ps, warnings, every)
     consume_kw = {}
     if ps.powertrain is not None and ambient_temperature_c is not None:
         import inspect
@@ -351,7 +352,7 @@ def _evaluate(ps, profiles, warnings, ambient_temperature_c=None) -> tuple:
     return out, demands
 
 
-def _performance(ps, warnings) -> dict:
+def _performance(ps, warnings, every=False) -> dict:
     """Top speed and acceleration arrays (nominal at index 0; draws NaN unless vectorized)."""
     if ps.performance is None:
         return {}
@@ -360,17 +361,19 @@ def _performance(ps, warnings) -> dict:
     except ImportError:
         return {}
     size = ps.size
-    nominal = performance_summary(ps.vehicle(0))
-    data = nominal.to_dict() if hasattr(nominal, "to_dict") else dict(nominal)
+    # performance is a scalar model: the nominal vehicle only, or (for the few
+    # attribution subsets, never for Monte Carlo draws) each vehicle of the set
+    indices = range(size) if every else [0]
     out = {}
-    for key in PERFORMANCE_KEYS:
-        value = data.get(key)
-        if value is None:
-            continue
-        arr = np.full(size, np.nan)
-        arr[0] = float(value)
-        out[key] = arr
-    if size > 1 and out:
+    for i in indices:
+        res = performance_summary(ps.vehicle(i))
+        data = res.to_dict() if hasattr(res, "to_dict") else dict(res)
+        for key in PERFORMANCE_KEYS:
+            value = data.get(key)
+            if value is None:
+                continue
+            out.setdefault(key, np.full(size, np.nan))[i] = float(value)
+    if size > 1 and out and not every:
         warnings.append("top speed and acceleration are computed for the nominal vehicle "
                         "only; their intervals are not reported")
     return out
@@ -550,6 +553,10 @@ def _payback_interval(met, n, conf):
     saving = np.asarray(met["annual_saving"], float)
     samples = saving[1:] if n > 0 else saving[:1]
     s_mean, s_low, s_high = interval(samples, conf)
+    if cost <= 0:
+        if s_low is not None and s_low >= 0:
+            return 0.0, 0.0, 0.0
+        return None, None, None
     if s_low is None or s_high is None or s_high <= 0:
         return None, None, None
     high = cost / s_low if s_low > 0 else None
@@ -576,7 +583,7 @@ def _attribute(spec, name, groups, base_nominal, var_nominal, profiles, order, o
         first = items[0][1]
         params = {k: np.concatenate([m.params[k] for _, m in items]) for k in first.params}
         batch = replace(first, params=params)
-        per_profile, _ = _evaluate(batch, profiles, [], spec.ambient_temperature_c)
+        per_profile, _ = _evaluate(batch, profiles, [], spec.ambient_temperature_c, every=True)
         for j, (s, _) in enumerate(items):
             one = {p: {k: v[j:j + 1] for k, v in met.items()} for p, met in per_profile.items()}
             derived = _derive(spec, one)

@@ -366,7 +366,7 @@ def _read_modifications(sec: Section, rd: _Reader) -> list:
         if name in seen:
             raise m.error(f"the name '{name}' is used twice (or is reserved)", "name")
         seen.add(name)
-        cost = m.number("cost", required=False, min=0.0)
+        cost = m.number("cost", required=False)
         if cost is not None:
             rd.echo(f"modification {name}", "cost", cost, "money", rd.src(m, "cost"))
         vehicle = None
