@@ -130,6 +130,10 @@ def atomic_write(path, write: Callable[[Path], None], *, inputs: Iterable = ()) 
     tmp = Path(tmp_name)
     try:
         write(tmp)
+        # mkstemp creates the file readable by its owner only; give it the usual mode
+        mask = os.umask(0)
+        os.umask(mask)
+        os.chmod(tmp, 0o666 & ~mask)
         os.replace(tmp, target)
     except OSError as exc:
         with contextlib.suppress(OSError):
