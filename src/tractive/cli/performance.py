@@ -28,8 +28,12 @@ def performance_command(vehicle_file, grade_pct, wind_kmh, grade_speed_kmh, as_j
     drive data: an engine full-load curve or a motor, gears and tyre radius,
     in the performance or the powertrain block.
     """
-    if grade_speed_kmh is not None and not grade_speed_kmh >= 0:
-        raise click.BadParameter("must be 0 or more", param_hint="--grade-speed-kmh")
+    if not abs(grade_pct) <= 200:
+        raise click.BadParameter("must be within -200 and 200", param_hint="--grade-pct")
+    if not abs(wind_kmh) <= 300:
+        raise click.BadParameter("must be within -300 and 300", param_hint="--wind-kmh")
+    if grade_speed_kmh is not None and not 0 <= grade_speed_kmh <= 300:
+        raise click.BadParameter("must be within 0 and 300", param_hint="--grade-speed-kmh")
     vehicle = load_vehicle(vehicle_file)
     res = performance_summary(vehicle, grade_pct=grade_pct, wind_kmh=wind_kmh,
                               gradeability_speed_kmh=grade_speed_kmh)

@@ -1,0 +1,72 @@
+"""The `performance` command: JSON shape, conditions, text table, one-line errors."""
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from tractive.performance import performance_summary
+from tractive.vehicle import load_vehicle
+
+ROOT = Path(__file__).resolve().parents[1]
+VEH = ROOT / "examples" / "vehicles"
+LIMITS = {"power", "traction", "rev_limit", "motor_speed_limit", "governor", "search_limit",
+          "cannot_move"}
+
+
+def run(*args):
+    return subprocess.run([sys.executable, "-m", "tractive", *map(str, args)],
+                          capture_output=True, text=True)
+
+
+def test_performance_json_keys_and_values_match_the_library():
+    r = run("performance", VEH / "track_car.yaml", "--json")
+    assert r.returncode == 0, r.stderr
+    data = json.loads(r.stdout)
+    for key in ("top_speed_kmh", "top_speed_limit", "accel_0_100_kmh_s", "accel_80_120_kmh_s",
+                "gears", "gradeability_pct", "gradeability_speed_kmh"):
+        assert key in data
+    assert data["top_speed_limit"] in LIMITS
+    assert len(data["gears"]) == 6
+    assert all(g["top_speed_limit"] in LIMITS for g in data["gears"])
+    lib = performance_summary(load_vehicle(VEH / "track_car.yaml")).to_dict()
+    assert data["top_speed_kmh"] == pytest.approx(lib["top_speed_kmh"], rel=1e-12)
+    assert data["accel_0_100_kmh_s"] == pytest.approx(lib["accel_0_100_kmh_s"], rel=1e-12)
+    # the fastest gear's top speed is the vehicle's (no governor on this car)
+    assert data["top_speed_kmh"] == pytest.approx(
+        max(g["top_speed_kmh"] for g in data["gears"]), rel=1e-12)
+
+
+def test_grade_and_wind_options_change_the_figures():
+    base = json.loads(run("performance", VEH / "petrol_hatchback_map.yaml", "--json").stdout)
+    up = json.loads(run("performance", VEH / "petrol_hatchback_map.yaml", "--grade-pct", "6",
+                        "--json").stdout)
+    head = json.loads(run("performance", VEH / "petrol_hatchback_map.yaml", "--wind-kmh",
+                          "40", "--json").stdout)
+    assert up["grade_pct"] == 6 and head["wind_kmh"] == 40
+    assert up["top_speed_kmh"] < base["top_speed_kmh"]
+    assert head["top_speed_kmh"] < base["top_speed_kmh"]
+    assert up["accel_0_100_kmh_s"] > base["accel_0_100_kmh_s"]
+
+
+def test_performance_text_table():
+    r = run("performance", VEH / "diesel_light_truck.yaml", "--grade-speed-kmh", "20")
+    assert r.returncode == 0, r.stderr
+    assert "top speed" in r.stdout and "0-100 km/h" in r.stdout
+    assert "at 20 km/h" in r.stdout and "rev_limit" in r.stdout
+
+
+@pytest.mark.parametrize("args, words", [
+    (("performance", VEH.parent / "vehicles" / "hatchback.yaml"), "performance"),
+    (("performance", "no_such_file.yaml"), "file not found"),
+    (("performance", VEH / "track_car.yaml", "--grade-pct", "500"), "--grade-pct"),
+    (("performance", VEH / "track_car.yaml", "--grade-speed-kmh", "-5"), "--grade-speed-kmh"),
+])
+def test_performance_errors_are_one_line_with_status_2(args, words):
+    r = run(*args)
+    assert r.returncode == 2
+    lines = r.stderr.strip().splitlines()
+    assert len(lines) == 1 and words in lines[0]
+    assert "Traceback" not in r.stderr and r.stdout == ""

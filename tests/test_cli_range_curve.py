@@ -1,0 +1,88 @@
+"""The `range-curve` command and the powertrain columns of `energy`."""
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+VEH = ROOT / "examples" / "vehicles"
+
+
+def run(*args):
+    return subprocess.run([sys.executable, "-m", "tractive", *map(str, args)],
+                          capture_output=True, text=True)
+
+
+def test_range_curve_electric_json():
+    r = run("range-curve", VEH / "electric_van.yaml", "--json")
+    assert r.returncode == 0, r.stderr
+    data = json.loads(r.stdout)
+    rows = data["rows"]
+    assert [x["speed_kmh"] for x in rows] == list(np.arange(20.0, 161.0, 10.0))
+    for x in rows:
+        # range = usable battery energy / consumption per km (68 kWh usable)
+        assert x["range_km"] * x["battery_wh_per_km"] == pytest.approx(68000, rel=1e-12)
+        assert x["wall_wh_per_km"] == pytest.approx(x["battery_wh_per_km"] / 0.90, rel=1e-12)
+    # above the 130 km/h governor and the motor speed limit the speed is not feasible
+    assert [x["feasible"] for x in rows] == [s <= 130 for s in range(20, 161, 10)]
+    assert 20 <= data["best_speed_kmh"] <= 160
+    assert data["best_range_km"] >= max(x["range_km"] for x in rows) - 1e-9
+
+
+def test_range_curve_combustion_text_and_json():
+    r = run("range-curve", VEH / "diesel_light_truck.yaml", "--from-kmh", "30", "--to-kmh",
+            "120", "--step-kmh", "15", "--json")
+    assert r.returncode == 0, r.stderr
+    rows = json.loads(r.stdout)["rows"]
+    assert [x["speed_kmh"] for x in rows] == [30, 45, 60, 75, 90, 105, 120]
+    for x in rows:
+        # tank range = 90 L / (L/100 km) × 100
+        assert x["range_km"] * x["fuel_l_per_100km"] == pytest.approx(9000, rel=1e-12)
+    t = run("range-curve", VEH / "diesel_light_truck.yaml")
+    assert t.returncode == 0 and "L/100km" in t.stdout and "greatest range" in t.stdout
+
+
+@pytest.mark.parametrize("args, words", [
+    (("range-curve", VEH / "track_car.yaml"), "powertrain"),
+    (("range-curve", VEH / "electric_van.yaml", "--step-kmh", "0"), "--step-kmh"),
+    (("range-curve", VEH / "electric_van.yaml", "--from-kmh", "90", "--to-kmh", "50"),
+     "--to-kmh"),
+])
+def test_range_curve_errors_are_one_line_with_status_2(args, words):
+    r = run(*args)
+    assert r.returncode == 2
+    lines = r.stderr.strip().splitlines()
+    assert len(lines) == 1 and words in lines[0] and "Traceback" not in r.stderr
+
+
+def test_energy_adds_battery_results_and_a_weighted_mix():
+    r = run("energy", VEH / "electric_van.yaml", "-c", "udds", "-c", "hwfet", "--mix-shares",
+            "0.55,0.45", "--json")
+    assert r.returncode == 0, r.stderr
+    data = json.loads(r.stdout)
+    res = data["results"]
+    for x in res:
+        for key in ("battery_energy_kwh", "battery_wh_per_km", "range_km",
+                    "regenerated_energy_kwh", "wall_wh_per_km"):
+            assert isinstance(x[key], float)
+    # mix by distance share (40 CFR 600 App. II weighting): Σ share × Wh/km
+    per_km = 0.55 * res[0]["battery_wh_per_km"] + 0.45 * res[1]["battery_wh_per_km"]
+    assert data["mix"]["battery_wh_per_km"] == pytest.approx(per_km, rel=1e-12)
+    assert data["mix"]["range_km"] == pytest.approx(68000 / per_km, rel=1e-12)
+    text = run("energy", VEH / "electric_van.yaml", "-c", "udds")
+    assert "battery kWh" in text.stdout and "range km" in text.stdout
+
+
+def test_energy_adds_fuel_results():
+    r = run("energy", VEH / "petrol_hatchback_map.yaml", "-c", "wltc3b", "--json")
+    assert r.returncode == 0, r.stderr
+    x = json.loads(r.stdout)["results"][0]
+    for key in ("fuel_l", "fuel_l_per_100km", "co2_g_per_km", "range_km", "mpg_us", "mpg_uk"):
+        assert isinstance(x[key], float)
+    assert x["fuel_l_per_100km"] * x["range_km"] == pytest.approx(45 * 100, rel=1e-12)
+    bad = run("energy", VEH / "petrol_hatchback_map.yaml", "-c", "udds", "--mix-shares", "0.5")
+    assert bad.returncode == 2 and len(bad.stderr.strip().splitlines()) == 1

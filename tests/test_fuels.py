@@ -1,0 +1,109 @@
+"""The fuel table against its published sources and against independent data."""
+
+import pytest
+
+from tractive.errors import InputError
+from tractive.powertrain.fuels import FUELS, get_fuel
+
+# exact unit factors (NIST SP 811 App. B): US gallon, Btu (International Table)
+GAL_L = 3.785411784
+BTU_J = 1055.05585262
+LB_KG = 0.45359237
+# IUPAC conventional atomic weights
+C, H, O = 12.011, 1.008, 15.999
+CO2 = C + 2 * O
+
+
+def test_table_has_the_required_fuels():
+    assert {"gasoline", "e10", "diesel", "lpg", "cng"} <= set(FUELS)
+    for fuel in FUELS.values():
+        assert set(fuel.sources) == {"lhv", "density", "co2"}
+        assert all(fuel.sources.values())
+
+
+def test_gasoline_co2_per_litre_is_epa_8887_g_per_gallon():
+    # US EPA: 8,887 g CO2 per US gallon of gasoline (40 CFR 600.210-12)
+    assert FUELS["gasoline"].co2_kg_per_l == pytest.approx(8.887 / GAL_L, rel=1e-12)
+
+
+def test_diesel_co2_per_litre_is_epa_10180_g_per_gallon():
+    # US EPA: 10,180 g CO2 per US gallon of diesel (40 CFR 600.113, 600.210-12)
+    assert FUELS["diesel"].co2_kg_per_l == pytest.approx(10.180 / GAL_L, rel=1e-12)
+
+
+def test_diesel_lhv_is_afdc_128488_btu_per_gallon():
+    # US DOE AFDC (from ANL GREET): ULSD 128,488 Btu/gal = 35.81 MJ/L
+    d = FUELS["diesel"]
+    assert d.lhv_mj_per_l == pytest.approx(128488 * BTU_J / GAL_L / 1e6, rel=1e-12)
+    assert d.lhv_mj_per_l == pytest.approx(35.81, abs=0.005)
+
+
+def test_gasoline_and_e10_lhv_span_the_afdc_range():
+    # US DOE AFDC: gasoline/E10 112,114-116,090 Btu/gal = 31.25-32.36 MJ/L
+    assert FUELS["gasoline"].lhv_mj_per_l == pytest.approx(32.36, abs=0.005)
+    assert FUELS["e10"].lhv_mj_per_l == pytest.approx(31.25, abs=0.005)
+
+
+def test_e10_lhv_is_the_volume_blend_of_gasoline_and_ethanol():
+    # independent check: ethanol LHV 76,330 Btu/gal (AFDC / GREET, from memory);
+    # 90 % gasoline + 10 % ethanol by volume should land on the AFDC E10 value
+    ethanol_mj_per_l = 76330 * BTU_J / GAL_L / 1e6
+    blend = 0.9 * FUELS["gasoline"].lhv_mj_per_l + 0.1 * ethanol_mj_per_l
+    assert FUELS["e10"].lhv_mj_per_l == pytest.approx(blend, rel=0.005)
+
+
+def test_gasoline_agrees_with_epa_test_fuel_composition():
+    # 40 CFR 600 App. II(b) example test fuel: carbon mass fraction 0.868,
+    # net heating value 18,478 Btu/lb. The table's gasoline (AFDC heating value,
+    # EPA 8,887 g/gal) must agree within 1.5 %.
+    g = FUELS["gasoline"]
+    assert g.co2_kg_per_kg == pytest.approx(0.868 * CO2 / C, rel=0.015)
+    assert g.lhv_mj_per_kg == pytest.approx(18478 * BTU_J / LB_KG / 1e6, rel=0.015)
+
+
+def test_diesel_agrees_with_ipcc_2006_defaults():
+    # IPCC 2006 Guidelines vol. 2 Tables 1.2 / 1.4, gas/diesel oil: 43.0 MJ/kg and
+    # 74,100 kg CO2/TJ. The table uses AFDC and EPA values; they must agree within 2 %.
+    d = FUELS["diesel"]
+    assert d.lhv_mj_per_kg == pytest.approx(43.0, rel=0.01)
+    assert d.co2_kg_per_kg / d.lhv_mj_per_kg * 1e6 == pytest.approx(74100, rel=0.02)
+
+
+def test_diesel_density_inside_en590_band():
+    # EN 590 diesel density 820-845 kg/m³ at 15 °C (from memory)
+    assert 0.820 <= FUELS["diesel"].density_kg_per_l <= 0.845
+
+
+def test_lpg_co2_close_to_propane_stoichiometry():
+    # propane C3H8 burnt completely: 3 CO2 per molecule (IUPAC atomic weights);
+    # autogas is mostly propane, so the IPCC factor must agree within 1 %
+    propane = 3 * CO2 / (3 * C + 8 * H)
+    assert FUELS["lpg"].co2_kg_per_kg == pytest.approx(propane, rel=0.01)
+    # the table's value is the IPCC factor times the IPCC heating value (exact conversion)
+    assert FUELS["lpg"].co2_kg_per_kg == pytest.approx(63100e-6 * 47.3, rel=1e-12)
+
+
+def test_cng_co2_close_to_methane_stoichiometry():
+    # methane CH4 burnt completely (IUPAC atomic weights); natural gas carries some
+    # inert gas and heavier hydrocarbons, so agreement within 3 %
+    methane = CO2 / (C + 4 * H)
+    assert FUELS["cng"].co2_kg_per_kg == pytest.approx(methane, rel=0.03)
+    assert not FUELS["cng"].liquid and FUELS["cng"].co2_kg_per_l is None
+
+
+def test_ethanol_share_lowers_e10_co2_per_litre():
+    # ethanol C2H5OH: 2 CO2 per molecule, 1.91 kg CO2/kg (stoichiometry), and less
+    # carbon per litre than gasoline, so E10 emits less CO2 per litre than E0
+    ethanol = 2 * CO2 / (2 * C + 6 * H + O)
+    assert ethanol == pytest.approx(1.9106, abs=1e-4)
+    assert FUELS["e10"].co2_kg_per_l < FUELS["gasoline"].co2_kg_per_l
+    expected = 0.9 * 8.887 / GAL_L + 0.1 * 0.789 * ethanol
+    assert FUELS["e10"].co2_kg_per_l == pytest.approx(expected, rel=1e-9)
+
+
+def test_unknown_fuel_names_the_choices():
+    with pytest.raises(InputError) as exc:
+        get_fuel("kerosene")
+    msg = str(exc.value)
+    assert "kerosene" in msg and "diesel" in msg and "\n" not in msg
+    assert get_fuel(" Diesel ") is FUELS["diesel"]

@@ -1,0 +1,362 @@
+"""Combustion powertrain: Willans line, BSFC map, gears, idle, cut-off, fuel units."""
+
+import dataclasses
+import math
+
+import numpy as np
+import pytest
+import yaml
+
+from tractive.demand import vehicle_wheel_demand, wheel_demand
+from tractive.errors import InputError
+from tractive.powertrain import FUELS, mix_results, range_curve
+from tractive.powertrain.combustion import (CombustionResult, willans_friction_power_w,
+                                            willans_fuel_rate_kg_s)
+from tractive.powertrain.drive import Gearing
+from tractive.profiles import constant_speed, resolve_profile
+from tractive.vehicle import load_vehicle
+
+TWO_PI = 2 * math.pi
+GAL_L = 3.785411784        # NIST SP 811, exact
+UK_GAL_L = 4.54609         # Weights and Measures Act 1985, exact
+MILE_KM = 1.609344         # NIST SP 811, exact
+
+
+def write_vehicle(tmp_path, powertrain, *, name="v.yaml", mass=1400,
+                  road=None):
+    powertrain = {k: v for k, v in powertrain.items() if v is not None}
+    data = {"name": "test car", "mass_kg": mass,
+            "road_load": road or {"f0_n": 120.0, "f2_n_per_kmh2": 0.03},
+            "powertrain": powertrain}
+    path = tmp_path / name
+    path.write_text(yaml.safe_dump(data, sort_keys=False))
+    return load_vehicle(path)
+
+
+def willans_pt(**over):
+    pt = {"kind": "combustion", "fuel": "diesel", "tank_l": 60,
+          "gear_ratios": [3.5, 2.0, 1.3, 1.0, 0.8], "final_drive_ratio": 4.0,
+          "tyre_radius_m": 0.3, "transmission_efficiency": 0.95, "idle_speed_rpm": 800,
+          "rev_limit_rpm": 6000, "upshift_speeds_kmh": [20, 40, 60, 80],
+          "willans": {"marginal_efficiency": 0.38, "friction_mep_kpa": 120,
+                      "displacement_l": 1.6}}
+    pt.update(over)
+    return pt
+
+
+# -- Willans line at hand-computed points ----------------------------------------
+
+def test_willans_friction_power_is_mean_effective_pressure_times_swept_volume_rate():
+    # Heywood (1988) §2.7: P = p_me · V_d · N / n_R, n_R = 2 for four-stroke.
+    # 100 kPa, 2.0 L, 3000 rpm = 50 rev/s: 1e5 Pa × 2e-3 m³ × 50 / 2 = 5000 W
+    assert willans_friction_power_w(1e5, 2e-3, 3000 * TWO_PI / 60) == pytest.approx(5000.0,
+                                                                                   rel=1e-12)
+
+
+def test_willans_fuel_rate_at_hand_computed_points():
+    # Willans line (Guzzella & Sciarretta §3.2): P_e = e·ṁ·H_l − P_0.
+    # e = 0.4, P_0 = 5 kW, H_l = 43 MJ/kg:
+    #   P_e = 30 kW -> ṁ = 35 000 / 0.4 / 43e6 = 2.034 883 7e-3 kg/s (7.3256 kg/h)
+    #   P_e = 0    -> ṁ = 5 000 / 0.4 / 43e6  = 2.906 976 7e-4 kg/s
+    #   P_e = -5 kW (motored at the friction power) -> 0
+    out = willans_fuel_rate_kg_s(np.array([30e3, 0.0, -5e3]), 5e3, 0.4, 43e6)
+    assert out[0] * 3600 == pytest.approx(7.3256, abs=1e-4)
+    assert out[1] == pytest.approx(2.9069767e-4, rel=1e-7)
+    assert out[2] == 0.0
+    # brake efficiency P_e / (ṁ H_l) at 30 kW: 30/87.5 = 0.342857 (below e, as the
+    # Willans line requires)
+    assert 30e3 / (out[0] * 43e6) == pytest.approx(30 / 87.5, rel=1e-12)
+
+
+def test_willans_powertrain_at_constant_speed_matches_the_line(tmp_path):
+    # 72 km/h = 20 m/s, 4th gear (upshifts at 20/40/60/80 km/h):
+    # ω = 20 × 1.0 × 4.0 / 0.3 = 266.67 rad/s
+    # wheel force f0 + f2 v² = 120 + 0.03 × 72² = 275.52 N (GTR 15 units)
+    # engine power = 275.52 × 20 / 0.95 = 5800.42 W
+    # friction power = 120 kPa × 1.6 L × 266.67 / (4π) = 4074.4 W
+    # fuel = (5800.42 + 3259.5) / 0.38 / H_l(diesel) over 600 s
+    v = write_vehicle(tmp_path, willans_pt())
+    prof = constant_speed(20.0, 600.0)
+    r = v.powertrain.consume(v, vehicle_wheel_demand(v, prof), prof)
+    w = 20 * 1.0 * 4.0 / 0.3
+    p_e = (120 + 0.03 * 72 ** 2) * 20 / 0.95
+    p_0 = 120e3 * 1.6e-3 * w / (4 * math.pi)
+    assert p_e == pytest.approx(5800.42, abs=0.01) and p_0 == pytest.approx(4074.4, abs=0.1)
+    fuel = (p_e + p_0) / 0.38 / FUELS["diesel"].lhv_j_per_kg * 600
+    assert r.fuel_kg == pytest.approx(fuel, rel=1e-12)
+    assert r.fuel_l == pytest.approx(fuel / FUELS["diesel"].density_kg_per_l, rel=1e-12)
+    assert r.co2_kg == pytest.approx(fuel * FUELS["diesel"].co2_kg_per_kg, rel=1e-12)
+
+
+# -- BSFC map -----------------------------------------------------------------------
+
+MAP_SPEEDS = [800.0, 1500.0, 3000.0, 4500.0, 6000.0]
+MAP_TORQUES = [10.0, 40.0, 80.0, 160.0, 400.0]
+
+
+def _willans_bsfc_table(e=0.38, fmep_pa=120e3, vd_m3=1.6e-3, lhv=None):
+    lhv = lhv or FUELS["diesel"].lhv_j_per_kg
+    rows = []
+    for t in MAP_TORQUES:
+        row = []
+        for n in MAP_SPEEDS:
+            w = n * TWO_PI / 60
+            p = t * w
+            mdot = (p + fmep_pa * vd_m3 * w / (4 * math.pi)) / e / lhv
+            row.append(mdot / p * 3.6e9)            # kg/s per W → g/kWh
+        rows.append(row)
+    return rows
+
+
+def map_pt(**over):
+    pt = willans_pt(**over)
+    del pt["willans"]
+    pt["bsfc_map"] = {"speed_rpm": MAP_SPEEDS, "torque_nm": MAP_TORQUES,
+                      "bsfc_g_per_kwh": _willans_bsfc_table()}
+    return pt
+
+
+def test_bsfc_map_fuel_rate_is_specific_consumption_times_power(tmp_path):
+    # Heywood §2.9: sfc = ṁ_f / P, so at every map node ṁ = b · T · ω
+    v = write_vehicle(tmp_path, map_pt())
+    eng = v.powertrain.engine
+    table = np.array(_willans_bsfc_table())
+    for j, t in enumerate(MAP_TORQUES):
+        for i, n in enumerate(MAP_SPEEDS):
+            w = n * TWO_PI / 60
+            assert eng.fuel_rate_kg_s(w, t) == pytest.approx(table[j, i] * t * w / 3.6e9,
+                                                             rel=1e-12)
+
+
+@pytest.mark.parametrize("cutoff", [True, False])
+def test_bsfc_map_from_a_willans_line_reproduces_the_willans_model(tmp_path, cutoff):
+    # A Willans fuel rate ω·(T + c)/(e·H) is bilinear in (ω, T), so bilinear interpolation
+    # of the fuel rate, and the linear extension to zero torque, reproduce it exactly
+    # (Press et al., Numerical Recipes §3.6: bilinear interpolation is exact for
+    # a + b x + c y + d x y). Whole cycle, idle, overrun with and without cut-off.
+    vw = write_vehicle(tmp_path, willans_pt(fuel_cutoff=cutoff), name="w.yaml")
+    vm = write_vehicle(tmp_path, map_pt(fuel_cutoff=cutoff), name="m.yaml")
+    prof = resolve_profile("udds")
+    d = vehicle_wheel_demand(vw, prof)
+    op = vw.powertrain.operation(d.force_n, d.intervals.speed_ms)
+    assert op["engine_speed_rads"].max() * 60 / TWO_PI <= 6000
+    assert op["engine_torque_nm"].max() <= 400
+    rw = vw.powertrain.consume(vw, d, prof)
+    rm = vm.powertrain.consume(vm, d, prof)
+    assert rm.fuel_kg == pytest.approx(rw.fuel_kg, rel=1e-9)
+    assert rm.idle_fuel_kg == pytest.approx(rw.idle_fuel_kg, rel=1e-9)
+
+
+# -- gears, clutch, idle, cut-off ---------------------------------------------------------
+
+def test_speed_rule_picks_the_gear_from_the_upshift_speeds(tmp_path):
+    v = write_vehicle(tmp_path, willans_pt())
+    speeds_kmh = np.array([5.0, 19.99, 20.0, 45.0, 60.0, 79.0, 80.0, 150.0])
+    op = v.powertrain.operation(np.full(speeds_kmh.shape, 300.0), speeds_kmh / 3.6)
+    # upshifts at 20, 40, 60, 80 km/h: gear = 1 + number of upshift speeds ≤ v
+    assert op["gear"].tolist() == [1, 1, 2, 3, 4, 4, 5, 5]
+
+
+def test_clutch_slips_below_idle_and_engine_idles_at_standstill(tmp_path):
+    v = write_vehicle(tmp_path, willans_pt())
+    pt = v.powertrain
+    # 1 m/s in first gear: 1 × 3.5 × 4 / 0.3 = 46.7 rad/s, below idle (83.8 rad/s):
+    # the engine holds idle speed and passes the wheel torque F·r/(i·η)
+    op = pt.operation(np.array([500.0, 0.0]), np.array([1.0, 0.0]))
+    assert op["engine_speed_rads"][0] == pytest.approx(800 * TWO_PI / 60)
+    assert op["engine_torque_nm"][0] == pytest.approx(500 * 0.3 / (3.5 * 4.0 * 0.95))
+    assert op["gear"].tolist() == [1, 0]
+    assert op["idle"].tolist() == [False, True]
+    # idle fuel from the Willans line at idle: P_0(idle) / (e · H_l)
+    p0 = 120e3 * 1.6e-3 * (800 * TWO_PI / 60) / (4 * math.pi)
+    assert op["fuel_kg_s"][1] == pytest.approx(p0 / 0.38 / FUELS["diesel"].lhv_j_per_kg)
+
+
+def test_standstill_uses_idle_fuel_or_nothing_with_engine_off(tmp_path):
+    prof = constant_speed(0.0, 600.0)
+    v = write_vehicle(tmp_path, willans_pt(idle_fuel_l_per_h=0.8), name="a.yaml")
+    r = v.powertrain.consume(v, vehicle_wheel_demand(v, prof), prof)
+    assert r.fuel_l == pytest.approx(0.8 * 600 / 3600, rel=1e-12)
+    assert r.idle_fuel_kg == pytest.approx(r.fuel_kg, rel=1e-12)
+    assert r.fuel_l_per_100km is not None and math.isnan(r.fuel_l_per_100km)
+    v2 = write_vehicle(tmp_path, willans_pt(idle_fuel_l_per_h=0.8, engine_off_at_rest=True),
+                       name="b.yaml")
+    assert v2.powertrain.consume(v2, vehicle_wheel_demand(v2, prof), prof).fuel_kg == 0.0
+
+
+def _decel_profile():
+    t = np.arange(21.0)
+    return type("P", (), {"time_s": t, "speed_ms": 30.0 - 1.5 * t,
+                          "grade_fraction": np.zeros_like(t), "name": "decel"})()
+
+
+@pytest.mark.parametrize("cutoff", [True, False])
+def test_overrun_fuel_cut_off(tmp_path, cutoff):
+    v = write_vehicle(tmp_path, willans_pt(fuel_cutoff=cutoff, idle_fuel_l_per_h=0.7))
+    d = vehicle_wheel_demand(v, _decel_profile())
+    assert np.all(d.force_n < 0)
+    pt = v.powertrain
+    vm = d.intervals.speed_ms
+    gear = np.searchsorted(np.array([20, 40, 60, 80]) / 3.6, vm, side="right")
+    ratio = np.array([3.5, 2.0, 1.3, 1.0, 0.8])[gear] * 4.0
+    w = vm * ratio / 0.3
+    w_idle = 800 * TWO_PI / 60
+    engaged = w >= w_idle
+    idle_rate = 0.7 * FUELS["diesel"].density_kg_per_l / 3600
+    lhv = FUELS["diesel"].lhv_j_per_kg
+    # clutch open below idle speed: idle fuel; engaged: nothing (cut-off) or the
+    # zero-load Willans fuel P_0(ω)/(e·H_l)
+    engaged_rate = 0.0 if cutoff else 120e3 * 1.6e-3 * w / (4 * math.pi) / 0.38 / lhv
+    expected = np.sum(np.where(engaged, engaged_rate, idle_rate))
+    assert 0 < np.sum(engaged) < len(w)
+    r = pt.consume(v, d)
+    assert r.fuel_kg == pytest.approx(expected, rel=1e-12)
+
+
+def test_efficient_rule_uses_the_lowest_fuel_feasible_gear(tmp_path):
+    v = write_vehicle(tmp_path, map_pt(shift_rule="efficient", upshift_speeds_kmh=None,
+                                       full_load={"speed_rpm": [800, 2000, 4000, 6000],
+                                                  "torque_nm": [120, 200, 200, 150]}))
+    pt = v.powertrain
+    prof = resolve_profile("wltc3b")
+    d = vehicle_wheel_demand(v, prof)
+    op = pt.operation(d.force_n, d.intervals.speed_ms)
+    moving = d.intervals.speed_ms > 0
+    # brute force over gears, one single-gear powertrain at a time
+    w_idle, w_max = 800 * TWO_PI / 60, 6000 * TWO_PI / 60
+    best = np.full(d.force_n.shape, np.inf)
+    for k, ratio in enumerate(pt.gearing.gear_ratios):
+        one = dataclasses.replace(pt, gearing=Gearing((ratio,), 4.0, 0.3, 0.95))
+        o = one.operation(d.force_n, d.intervals.speed_ms)
+        w = d.intervals.speed_ms * ratio * 4.0 / 0.3
+        feasible = (w <= w_max) & ((w >= w_idle) | (k == 0)) & ~o["over_limit"]
+        best = np.where(feasible, np.minimum(best, o["fuel_kg_s"]), best)
+    has = moving & np.isfinite(best)
+    assert has.sum() > 0.9 * moving.sum()
+    assert np.all(op["fuel_kg_s"][has] <= best[has] * (1 + 1e-12))
+    assert np.all(op["fuel_kg_s"][has] >= best[has] * (1 - 1e-12))
+
+
+def test_engine_limit_is_flagged(tmp_path):
+    v = write_vehicle(tmp_path, willans_pt(full_load={"speed_rpm": [800, 6000],
+                                                      "torque_nm": [40, 40]}))
+    # 150 km/h needs ≈ (120 + 0.03·150²) N × 41.7 m/s ≈ 33 kW; 40 N·m at 3980 rpm is 16.7 kW
+    prof = constant_speed(150 / 3.6, 30.0)
+    r = v.powertrain.consume(v, vehicle_wheel_demand(v, prof), prof)
+    assert r.engine_limit_exceeded_s == pytest.approx(30.0)
+
+
+def test_vehicle_axis_gives_one_result_per_vehicle(tmp_path):
+    v = write_vehicle(tmp_path, map_pt(shift_rule="efficient", upshift_speeds_kmh=None))
+    prof = resolve_profile("udds")
+    masses = np.array([1200.0, 1500.0, 1800.0, 2100.0])
+    rl = v.resistance()
+    d = wheel_demand(rl, masses, masses * 1.03, prof.time_s, prof.speed_ms, prof.grade_fraction)
+    r = v.powertrain.consume(v, d, prof)
+    assert np.shape(r.fuel_kg) == (4,) and np.shape(r.co2_g_per_km) == (4,)
+    for i, m in enumerate(masses):
+        di = wheel_demand(rl, m, m * 1.03, prof.time_s, prof.speed_ms, prof.grade_fraction)
+        assert r.fuel_kg[i] == pytest.approx(v.powertrain.consume(v, di, prof).fuel_kg,
+                                             rel=1e-12)
+    assert np.all(np.diff(r.fuel_kg) > 0)
+    assert len(r.to_dict()["fuel_l_per_100km"]) == 4
+
+
+# -- units of the results ------------------------------------------------------------
+
+def test_mpg_and_litres_per_100km_are_exact_reciprocals(tmp_path):
+    # mpg × L/100 km = 100 × gal[L] / mile[km]: 235.2146 (US), 282.4809 (UK)
+    v = write_vehicle(tmp_path, willans_pt(fuel="gasoline"))
+    prof = resolve_profile("hwfet")
+    r = v.powertrain.consume(v, vehicle_wheel_demand(v, prof), prof)
+    assert r.mpg_us * r.fuel_l_per_100km == pytest.approx(100 * GAL_L / MILE_KM, rel=1e-12)
+    assert r.mpg_uk * r.fuel_l_per_100km == pytest.approx(100 * UK_GAL_L / MILE_KM, rel=1e-12)
+    assert 100 * GAL_L / MILE_KM == pytest.approx(235.2146, abs=1e-4)
+    # US EPA label arithmetic for gasoline: CO2 [g/mile] = 8887 / mpg
+    assert r.co2_g_per_km * MILE_KM == pytest.approx(8887 / r.mpg_us, rel=1e-12)
+    # tank range = tank / fuel per km
+    assert r.range_km == pytest.approx(60 / (r.fuel_l / r.distance_km), rel=1e-12)
+
+
+def test_cng_reports_mass_not_volume(tmp_path):
+    v = write_vehicle(tmp_path, willans_pt(fuel="cng", tank_l=None, tank_kg=18))
+    prof = resolve_profile("udds")
+    r = v.powertrain.consume(v, vehicle_wheel_demand(v, prof), prof)
+    out = r.to_dict()
+    assert out["fuel_l"] is None and out["mpg_us"] is None
+    assert out["range_km"] == pytest.approx(18 / (r.fuel_kg / r.distance_km), rel=1e-12)
+    curve = range_curve(v, [50, 100])
+    assert "fuel_kg_per_100km" in curve.columns
+
+
+def _result_with_mpg(mpg, miles):
+    d = FUELS["gasoline"].density_kg_per_l
+    litres = miles / mpg * GAL_L
+    return CombustionResult(profile=f"{mpg}", fuel=FUELS["gasoline"],
+                            distance_km=miles * MILE_KM, duration_s=1.0,
+                            fuel_kg=litres * d, idle_fuel_kg=0.0, tank_l=50.0, tank_kg=None,
+                            positive_wheel_energy_kwh=1.0, engine_limit_exceeded_s=0.0)
+
+
+def test_combined_fuel_economy_matches_40_cfr_600_worked_example():
+    # 40 CFR 600 Appendix II: city 27.7 mpg, highway 36.9 mpg, 55/45 → 31.2 mpg
+    mix = mix_results([_result_with_mpg(27.7, 11.04), _result_with_mpg(36.9, 10.26)],
+                      [0.55, 0.45])
+    assert round(mix.to_dict()["mpg_us"], 1) == 31.2
+
+
+def test_distance_weighted_harmonic_mean_matches_epa_report_example():
+    # EPA420-R-09-014 App. A: 704 mi at 16 mpg and 216 mi at 24 mpg → 17.4 mpg
+    mix = mix_results([_result_with_mpg(16, 704), _result_with_mpg(24, 216)],
+                      [704 / 920, 216 / 920])
+    assert round(mix.to_dict()["mpg_us"], 1) == 17.4
+
+
+def test_combustion_range_curve_matches_steady_consumption(tmp_path):
+    v = write_vehicle(tmp_path, willans_pt())
+    curve = range_curve(v, [30, 72, 110])
+    prof = constant_speed(20.0, 600.0)
+    r = v.powertrain.consume(v, vehicle_wheel_demand(v, prof), prof)
+    assert curve.columns["fuel_l_per_100km"][1] == pytest.approx(r.fuel_l_per_100km,
+                                                                 rel=1e-12)
+    assert curve.range_km[1] == pytest.approx(r.range_km, rel=1e-12)
+    assert curve.columns["gear"].tolist() == [2, 4, 5]
+
+
+# -- one-line errors -------------------------------------------------------------------
+
+@pytest.mark.parametrize("over, field, words", [
+    ({"fuel": "kerosene"}, "powertrain.fuel", "gasoline, e10, diesel, lpg, cng"),
+    ({"fuel": "cng"}, "powertrain.tank_l", "tank_kg"),
+    ({"tank_l": None}, "powertrain", "tank_l"),
+    ({"rev_limit_rpm": None}, "powertrain.rev_limit_rpm", "missing"),
+    ({"rev_limit_rpm": 700}, "powertrain.rev_limit_rpm", "above idle"),
+    ({"upshift_speeds_kmh": [20, 40, 60]}, "powertrain.upshift_speeds_kmh", "one speed per"),
+    ({"gear_ratios": [3.5, 3.6]}, "powertrain.gear_ratios", "fall"),
+    ({"transmission_efficiency": 1.5}, "powertrain.transmission_efficiency", "at most 1"),
+    ({"willans": {"marginal_efficiency": 0.4}}, "powertrain.willans", "friction"),
+    ({"willans": {"marginal_efficiency": 0.4, "friction_power_kw": 3}},
+     "powertrain.idle_fuel_l_per_h", "idle"),
+    ({"willans": {"marginal_efficiency": 0.4, "friction_mep_kpa": 100, "displacement_l": 1.6,
+                  "displacment_l": 2}}, "powertrain.willans.displacment_l", "did you mean"),
+    ({"willans": None}, "powertrain", "engine model"),
+    ({"willans": None, "bsfc_map": {"speed_rpm": [1000, 2000], "torque_nm": [10, 50],
+                                    "bsfc_g_per_kwh": [[300, 280]]}},
+     "powertrain.bsfc_map.bsfc_g_per_kwh", "2 rows"),
+    ({"willans": None, "bsfc_map": {"speed_rpm": [1000, 2000], "torque_nm": [0, 50],
+                                    "bsfc_g_per_kwh": [[300, 280], [250, 240]]}},
+     "powertrain.bsfc_map.torque_nm", "above 0"),
+])
+def test_wrong_or_missing_value_gives_one_line_error(tmp_path, over, field, words):
+    pt = willans_pt(**over)
+    pt = {k: v for k, v in pt.items() if v is not None}
+    path = tmp_path / "bad.yaml"
+    path.write_text(yaml.safe_dump({"name": "x", "mass_kg": 1400,
+                                    "road_load": {"f0_n": 100, "f2_n_per_kmh2": 0.03},
+                                    "powertrain": pt}, sort_keys=False))
+    with pytest.raises(InputError) as exc:
+        load_vehicle(path)
+    msg = str(exc.value)
+    assert "\n" not in msg and msg.startswith(f"{path}:")
+    assert f"{field}:" in msg
+    assert words in msg
