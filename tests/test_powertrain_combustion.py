@@ -360,3 +360,24 @@ def test_wrong_or_missing_value_gives_one_line_error(tmp_path, over, field, word
     assert "\n" not in msg and msg.startswith(f"{path}:")
     assert f"{field}:" in msg
     assert words in msg
+
+
+def test_parameters_per_vehicle_match_one_run_each(tmp_path):
+    # Monte Carlo over engine parameters: arrays of shape (N,) give (N,) results equal to
+    # N separate runs, with or without a vehicle axis on the demand
+    v = write_vehicle(tmp_path, willans_pt(shift_rule="efficient", upshift_speeds_kmh=None,
+                                           idle_fuel_l_per_h=0.7))
+    pt = v.powertrain
+    prof = resolve_profile("wltc3b")
+    d = vehicle_wheel_demand(v, prof)
+    e = np.array([0.34, 0.38, 0.42])
+    fmep = np.array([100e3, 130e3, 160e3])
+    idle = np.array([1e-4, 1.5e-4, 2e-4])
+    ptn = dataclasses.replace(pt, idle_fuel_kg_s=idle, engine=dataclasses.replace(
+        pt.engine, marginal_efficiency=e, friction_mep_pa=fmep))
+    r = ptn.consume(v, d, prof)
+    assert np.shape(r.fuel_kg) == (3,)
+    for i in range(3):
+        one = dataclasses.replace(pt, idle_fuel_kg_s=idle[i], engine=dataclasses.replace(
+            pt.engine, marginal_efficiency=e[i], friction_mep_pa=fmep[i]))
+        assert r.fuel_kg[i] == pytest.approx(one.consume(v, d, prof).fuel_kg, rel=1e-12)

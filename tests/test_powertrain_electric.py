@@ -372,3 +372,36 @@ def test_wrong_or_missing_value_gives_one_line_error(tmp_path, body, field, word
     assert msg.startswith(f"{path}:")
     assert f"{field}:" in msg
     assert words in msg
+
+
+def test_parameters_per_vehicle_match_one_run_each(tmp_path):
+    # Monte Carlo over powertrain parameters: arrays of shape (N,) give (N,) results equal
+    # to N separate runs
+    import dataclasses
+
+    v = vehicle(tmp_path, """
+        kind: electric
+        battery_usable_kwh: 55
+        drive_efficiency: 0.9
+        regen: {efficiency: 0.7, fade_below_kmh: 10, recoverable_share: 0.65, max_power_kw: 40}
+        auxiliary_power_kw: 0.6
+        charger_efficiency: 0.9
+        """)
+    pt = v.powertrain
+    prof = resolve_profile("udds")
+    d = vehicle_wheel_demand(v, prof)
+    eff = np.array([0.82, 0.88, 0.93])
+    aux = np.array([300.0, 600.0, 2000.0])
+    fade = np.array([0.0, 2.0, 4.0])
+    ptn = dataclasses.replace(pt, drive_efficiency=eff, auxiliary_power_w=aux,
+                              battery_usable_kwh=np.array([50.0, 55.0, 60.0]),
+                              regen=dataclasses.replace(pt.regen, fade_below_ms=fade))
+    r = ptn.consume(v, d, prof)
+    assert np.shape(r.battery_energy_kwh) == (3,) and np.shape(r.range_km) == (3,)
+    for i in range(3):
+        one = dataclasses.replace(pt, drive_efficiency=eff[i], auxiliary_power_w=aux[i],
+                                  battery_usable_kwh=[50.0, 55.0, 60.0][i],
+                                  regen=dataclasses.replace(pt.regen, fade_below_ms=fade[i]))
+        ri = one.consume(v, d, prof)
+        assert r.battery_energy_kwh[i] == pytest.approx(ri.battery_energy_kwh, rel=1e-12)
+        assert r.range_km[i] == pytest.approx(ri.range_km, rel=1e-12)

@@ -355,7 +355,7 @@ class CombustionPowertrain:
     def idle_fuel_rate_kg_s(self):
         """Fuel rate at idle with the clutch open [kg/s]."""
         if self.idle_fuel_kg_s is not None:
-            return np.asarray(self.idle_fuel_kg_s, float)
+            return col(self.idle_fuel_kg_s)
         return self.engine.fuel_rate_kg_s(self.idle_speed_rpm * RPM_RADS, 0.0)
 
     def operation(self, force_n, speed_ms) -> dict:
@@ -376,6 +376,15 @@ class CombustionPowertrain:
         engine's full load or rev limit).
         """
         f, v = np.broadcast_arrays(np.asarray(force_n, float), np.asarray(speed_ms, float))
+        # parameters given per vehicle (N,) add a vehicle axis even to a plain demand
+        params = [self.gearing.efficiency, self.idle_fuel_kg_s,
+                  getattr(self.engine, "marginal_efficiency", None),
+                  getattr(self.engine, "friction_mep_pa", None),
+                  getattr(self.engine, "friction_power_w", None)]
+        pshape = np.broadcast_shapes(*(np.shape(col(x)) for x in params if x is not None))
+        if pshape:
+            shape = np.broadcast_shapes(f.shape, pshape)
+            f, v = np.broadcast_to(f, shape), np.broadcast_to(v, shape)
         gr = self.gearing
         n_g = gr.n_gears
         ratios = gr.overall_ratios.reshape((n_g,) + (1,) * f.ndim)
@@ -488,7 +497,7 @@ class CombustionPowertrain:
                "shift_rule": self.shift_rule,
                "upshift_speeds_kmh": [s / KMH_MS for s in self.upshift_speeds_ms] or None,
                "fuel_cutoff": self.fuel_cutoff, "engine_off_at_rest": self.engine_off_at_rest,
-               "idle_fuel_kg_per_h": plain(self.idle_fuel_rate_kg_s() * 3600.0),
+               "idle_fuel_kg_per_h": plain(np.squeeze(self.idle_fuel_rate_kg_s()) * 3600.0),
                "full_load": None if self.full_load is None else self.full_load.to_dict()}
         out.update(self.gearing.to_dict())
         out["transmission_efficiency"] = out.pop("driveline_efficiency")

@@ -266,10 +266,10 @@ class ElectricPowertrain:
         regen = np.zeros(p.shape)
         if self.regen is not None:
             rg = self.regen
-            if rg.fade_below_ms > 0:
-                fade = np.clip(v / rg.fade_below_ms, 0.0, 1.0)
-            else:
-                fade = np.where(v > STANDSTILL_MS, 1.0, 0.0)
+            vf = col(rg.fade_below_ms)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                fade = np.where(vf > 0, np.clip(v / np.where(vf > 0, vf, 1.0), 0.0, 1.0),
+                                np.where(v > STANDSTILL_MS, 1.0, 0.0))
             recoverable = col(rg.recoverable_share) * fade * braking
             if self.motor is not None and motor_w is not None:
                 # the motor cannot absorb more than its peak envelope

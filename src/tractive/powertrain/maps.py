@@ -42,19 +42,46 @@ def bilinear(x_grid, y_grid, table, x, y):
     """
     xg = np.asarray(x_grid, float)
     yg = np.asarray(y_grid, float)
-    z = np.asarray(table, float)
+    zf = np.ascontiguousarray(table, dtype=float).ravel()
+    nx, ny = len(xg), len(yg)
     x, y = np.broadcast_arrays(np.asarray(x, float), np.asarray(y, float))
-    xc = np.clip(x, xg[0], xg[-1])
-    yc = np.clip(y, yg[0], yg[-1])
-    i = np.clip(np.searchsorted(xg, xc, side="right") - 1, 0, len(xg) - 2)
-    j = np.clip(np.searchsorted(yg, yc, side="right") - 1, 0, len(yg) - 2)
-    tx = (xc - xg[i]) / (xg[i + 1] - xg[i])
-    ty = (yc - yg[j]) / (yg[j + 1] - yg[j])
-    z00 = z[j, i]
-    z01 = z[j, i + 1]
-    z10 = z[j + 1, i]
-    z11 = z[j + 1, i + 1]
-    return ((1 - ty) * ((1 - tx) * z00 + tx * z01) + ty * ((1 - tx) * z10 + tx * z11))
+    shape = x.shape
+    x, y = x.reshape(-1), y.reshape(-1)
+    xc = np.minimum(np.maximum(x, xg[0]), xg[-1])
+    yc = np.minimum(np.maximum(y, yg[0]), yg[-1])
+    # cell indices: 0 ≤ i ≤ nx-2, 0 ≤ j ≤ ny-2 (the clamped value never lies below the grid)
+    i = _cell(xg, xc)
+    j = _cell(yg, yc)
+    tx = xc - xg.take(i)
+    tx /= np.diff(xg).take(i)
+    ty = yc - yg.take(j)
+    ty /= np.diff(yg).take(j)
+    k = j * nx
+    k += i
+    lower = zf.take(k)                   # z[j, i]
+    lower += tx * (zf.take(k + 1) - lower)
+    k += nx
+    upper = zf.take(k)                   # z[j + 1, i]
+    upper += tx * (zf.take(k + 1) - upper)
+    upper -= lower
+    upper *= ty
+    upper += lower
+    return upper.reshape(shape)
+
+
+def _cell(grid, values):
+    """Index k of the cell grid[k] ≤ value < grid[k+1] (0 ≤ k ≤ len(grid) - 2) for
+    values already clamped to the grid."""
+    if len(grid) <= 32:
+        # a few vector comparisons are faster than a binary search for short grids
+        k = np.zeros(values.shape, dtype=np.intp)
+        for g in grid[1:-1]:
+            k += values >= g
+        return k
+    k = np.searchsorted(grid, values, side="right")
+    k -= 1
+    np.minimum(k, len(grid) - 2, out=k)
+    return k
 
 
 @dataclass(frozen=True)
