@@ -34,16 +34,18 @@ modifications:
   - name: ballast
     changes: {{mass_kg: +100}}
 driving:
-  profiles: ["steady:90kmh:600s", udds]
+  profiles: {profiles}
 uncertainty:
   draws: {draws}
   seed: {seed}
 """
 
 
-def _run(tmp_path: Path, extra="", draws=2000, seed=11):
+def _run(tmp_path: Path, extra="", draws=2000, seed=11,
+         profiles='["steady:90kmh:600s", udds]'):
     (tmp_path / "car.yaml").write_text(CAR.format(extra=extra))
-    (tmp_path / "study.yaml").write_text(STUDY.format(draws=draws, seed=seed))
+    (tmp_path / "study.yaml").write_text(STUDY.format(draws=draws, seed=seed,
+                                                      profiles=profiles))
     return run_study(tmp_path / "study.yaml")
 
 
@@ -67,7 +69,8 @@ def test_linear_sensitivity_reproduces_the_analytic_standard_deviation(tmp_path)
     # output is mean -/+ 1.959964 sd (scipy.stats.norm.ppf(0.975)).
     sd_crr = 0.0008
     n = 20000
-    res = _run(tmp_path, extra=f"  crr_std: {sd_crr}\n", draws=n)
+    res = _run(tmp_path, extra=f"  crr_std: {sd_crr}\n", draws=n,
+               profiles='["steady:90kmh:600s"]')
     row = res.row("baseline", "steady:90kmh:600s")
     d = 90 * KMH_MS * 600
     sd_kwh = 1500 * STANDARD_GRAVITY_MS2 * d * sd_crr / 3.6e6
@@ -89,7 +92,8 @@ def test_common_random_numbers_cancel_shared_uncertainty(tmp_path):
     # ballast changes mass only; at constant speed the change (dm g Crr d) depends on Crr:
     # sd(change) = dm g d sd(Crr) while the metric carries m g d sd(Crr)
     sd_crr = 0.0008
-    res = _run(tmp_path, extra=f"  crr_std: {sd_crr}\n", draws=20000)
+    res = _run(tmp_path, extra=f"  crr_std: {sd_crr}\n", draws=20000,
+               profiles='["steady:90kmh:600s"]')
     row = res.row("ballast", "steady:90kmh:600s")
     d = 90 * KMH_MS * 600
     z = stats.norm.ppf(0.975)
@@ -113,7 +117,8 @@ road_load:
   covariance:
 {rows}
 """)
-    (tmp_path / "study.yaml").write_text(STUDY.format(draws=20000, seed=3))
+    (tmp_path / "study.yaml").write_text(STUDY.format(draws=20000, seed=3,
+                                                      profiles='["steady:90kmh:600s"]'))
     res = run_study(tmp_path / "study.yaml")
     row = res.row("baseline", "steady:90kmh:600s")
     g = np.array([1.0, 90.0, 90.0 ** 2])
