@@ -264,6 +264,10 @@ def load_study(path: str | os.PathLike) -> StudySpec:
                                  field=f"{m.field}.cost", line=m.line)
     draws, seed, conf = _read_uncertainty(sec, rd)
     sec.finish()
+    if rho is not None:
+        rd.inputs = [InputItem(i.section, i.key, i.value, i.unit, i.source,
+                               "not used: the study's ambient air applies")
+                     if i.key == "road_load.air_density_kg_m3" else i for i in rd.inputs]
     return StudySpec(name=name, file=str(path), units=units, currency=currency,
                      baseline=baseline, baseline_changes=base_changes, baseline_raw=base_raw,
                      modifications=tuple(modifications), combinations=tuple(combinations),
@@ -331,7 +335,7 @@ def _vehicle_from(sec: Section, key: str, rd: _Reader) -> Vehicle:
 def _read_baseline(sec: Section, rd: _Reader):
     veh, src, raw = _vehicle_from(sec, "vehicle", rd)
     rd.echo("baseline", "vehicle", veh.name, "", src)
-    _echo_vehicle(rd, "baseline", veh, src)
+    _echo_vehicle(rd, "baseline", veh, src, raw)
     changes = ()
     if sec.has("changes"):
         changes = _read_changes(sec.section("changes"), rd, "baseline")
@@ -339,7 +343,29 @@ def _read_baseline(sec: Section, rd: _Reader):
     return veh, changes, raw
 
 
-def _echo_vehicle(rd: _Reader, section: str, veh: Vehicle, src: str):
+def _unit_of_key(key: str) -> str:
+    """Unit text from a key's suffix (``battery_usable_kwh`` → ``kWh``)."""
+    suffixes = (("_m2", "m^2"), ("_kg_m3", "kg/m^3"), ("_kwh", "kWh"), ("_kw", "kW"), ("_kg", "kg"), ("_kmh", "km/h"), ("_rpm", "rpm"),
+                ("_nm", "N m"), ("_m", "m"), ("_l", "L"), ("_c", "°C"), ("_s", "s"),
+                ("_pct", "%"), ("_kpa", "kPa"), ("_per_h", "1/h"))
+    for suffix, unit in suffixes:
+        if key.endswith(suffix):
+            return unit
+    return ""
+
+
+def _echo_block(rd: _Reader, section: str, prefix: str, data, src: str):
+    if isinstance(data, dict):
+        for k, v in data.items():
+            _echo_block(rd, section, f"{prefix}.{k}", v, src)
+    else:
+        value = data if isinstance(data, (int, float, str, bool)) or data is None else str(
+            [float(x) if isinstance(x, (int, float)) else x for x in data]
+            if isinstance(data, list) else data)
+        rd.echo(section, prefix, value, _unit_of_key(prefix.rsplit(".", 1)[-1]), src)
+
+
+def _echo_vehicle(rd: _Reader, section: str, veh: Vehicle, src: str, raw=None):
     rd.echo(section, "mass_kg", veh.mass_kg, "kg", src)
     rd.echo(section, "rotating_mass_fraction", veh.rotating_mass_fraction, "", src)
     units = {"cda_m2": "m^2", "crr": "", "crr_per_kmh": "1/(km/h)", "cla_m2": "m^2",
@@ -356,6 +382,9 @@ def _echo_vehicle(rd: _Reader, section: str, veh: Vehicle, src: str):
         rd.echo(section, f"road_load.{k}", v, units.get(k, ""), src)
     if veh.extras.get("mass_std_kg"):
         rd.echo(section, "mass_std_kg", veh.extras["mass_std_kg"], "kg", src)
+    for block in ("powertrain", "performance"):
+        if isinstance(raw, dict) and isinstance(raw.get(block), dict):
+            _echo_block(rd, section, block, raw[block], src)
 
 
 def _read_modifications(sec: Section, rd: _Reader) -> list:
@@ -374,7 +403,7 @@ def _read_modifications(sec: Section, rd: _Reader) -> list:
         if m.has("vehicle"):
             vehicle, src, raw = _vehicle_from(m, "vehicle", rd)
             rd.echo(f"modification {name}", "vehicle", vehicle.name, "", src)
-            _echo_vehicle(rd, f"modification {name}", vehicle, src)
+            _echo_vehicle(rd, f"modification {name}", vehicle, src, raw)
         changes = ()
         if m.has("changes"):
             changes = _read_changes(m.section("changes"), rd, f"modification {name}")
@@ -453,7 +482,8 @@ def _read_changes(sec: Section, rd: _Reader, section: str) -> tuple:
         if mode == "scale" and val < 0:
             raise sec.error(f"a change of {text} would make the value negative", key)
         out.append(Change(key, mode, val, 0.0, text, sec.file, fld, line))
-        rd.echo(section, key, text, "", rd.src(sec, key))
+        rd.echo(section, key, text, _unit_of_key(key) if mode != "scale" else "%",
+                rd.src(sec, key))
     # attach standard uncertainties to their changes
     final = []
     for ch in out:
@@ -461,7 +491,7 @@ def _read_changes(sec: Section, rd: _Reader, section: str) -> tuple:
         if std_key and std_key in stds:
             ch = Change(ch.key, ch.mode, ch.value, stds.pop(std_key), ch.text, ch.file,
                         ch.field, ch.line)
-            rd.echo(section, std_key, ch.std, "", rd.src(sec, std_key))
+            rd.echo(section, std_key, ch.std, _unit_of_key(std_key), rd.src(sec, std_key))
         final.append(ch)
     for std_key, v in stds.items():
         target = STD_KEYS[std_key]
@@ -470,7 +500,7 @@ def _read_changes(sec: Section, rd: _Reader, section: str) -> tuple:
             # the vehicle's own value
             final.append(Change(target, "add", 0.0, v, f"± {v:g}", sec.file,
                                 sec.field(std_key), sec.line_of(std_key)))
-            rd.echo(section, std_key, v, "", rd.src(sec, std_key))
+            rd.echo(section, std_key, v, _unit_of_key(std_key), rd.src(sec, std_key))
             continue
         raise sec.error(f"{std_key} needs a change of {target} in the same modification",
                         std_key)
