@@ -18,7 +18,6 @@ from tractive.cli import main
 from tractive.errors import InputError
 from tractive.report.common import (atomic_write, csv_text, is_formula_like, set_cell,
                                     set_text_cell, write_text_atomic)
-from tractive.study.engine import run_study
 
 CAR = """\
 name: "=HYPERLINK(\\"http://x\\")"
