@@ -27,7 +27,8 @@ def energy_command(vehicle_file, cycles, dt_s, mix_shares, as_json):
 
     Positive energy is what the wheels deliver; negative energy is what braking
     must absorb (a positive number). The positive energy is split into rolling,
-    aero, inertia and grade parts that add up to it.
+    aero, inertia and grade parts that add up to it. With a powertrain block,
+    battery or fuel use, CO2 and range follow in a second table.
     """
     if dt_s <= 0:
         raise click.BadParameter("must be positive", param_hint="--dt-s")
