@@ -45,8 +45,8 @@ powertrain:
 #: variant and profile names a spreadsheet would take for formulas
 HYPER = '=HYPERLINK("http://example.invalid","open")'
 FORMULA_NAMES = (HYPER, "+roof", "-mass", "@tyres", "=1+1")
-LONG_A = "city [urban]: a name much longer than thirty-one characters"
-LONG_B = "city [urban]: a name much longer than thirty-one characters, again"
+LONG_A = "driver's city [urban]: a name much longer than thirty-one characters"
+LONG_B = "driver's city [urban]: a name much longer than thirty-one characters, again"
 
 STUDY = f"""\
 name: workbook study
@@ -430,7 +430,7 @@ def test_sheet_names_are_valid_and_unique(case):
     assert len({n.casefold() for n in names}) == len(names)
     assert names[:4] == ["Summary", "Attribution", "Energy parts", "Range vs speed"]
     assert names[-3:] == ["All results", "Study", "Inputs"]
-    long_sheets = [n for n in names if n.startswith("Profile city")]
+    long_sheets = [n for n in names if n.startswith("Profile driver's city")]
     assert len(long_sheets) == 2 and long_sheets[0] != long_sheets[1]
 
 
@@ -471,6 +471,13 @@ def test_charts_on_the_expected_sheets(case):
                 col = re.search(r"!\$([A-Z]+)\$3:", ref).group(1)
                 assert ws[f"{col}2"].value.startswith(quantity)
         assert len(charts[1].series) == len(case["result"].variants)
+    # every series of every chart reads its own sheet (quoted name, ECMA-376 18.17.2.2)
+    for ws in wb:
+        for ch in ws._charts:
+            for s in ch.series:
+                ref = (s.yVal or s.val).numRef.f
+                sheet = ref.rsplit("!", 1)[0]
+                assert sheet == "'" + ws.title.replace("'", "''") + "'"
 
 
 def test_frozen_header_rows_and_units_in_formats(case):

@@ -221,6 +221,7 @@ class _Styles:
         self.base_fill = PatternFill("solid", fgColor="F2F2F2")
         self.wrap = Alignment(wrap_text=True, vertical="top")
         self.left = Alignment(horizontal="left")
+        self.top = Alignment(vertical="top")
         self.center = Alignment(horizontal="center", vertical="center", wrap_text=True)
         self.better = Font(color="006100")
         self.worse = Font(color="9C0006")
@@ -886,17 +887,18 @@ def _study_sheet(wb, result, st, notes):
         _header(ws, row, j, h, st)
     row += 1
     for v in result.variants:
-        _put(ws, row, 1, v.name)
-        _put(ws, row, 2, v.role)
-        _put(ws, row, 3, v.cost, number_format(result.currency, money=True))
+        texts = [", ".join(map(str, v.groups)), ", ".join(map(str, v.members))]
         text = "; ".join(map(str, v.changes))
+        _put(ws, row, 1, v.name, align=st.top)
+        _put(ws, row, 2, v.role, align=st.top)
+        _put(ws, row, 3, v.cost, number_format(result.currency, money=True), align=st.top)
         _put(ws, row, 4, text, align=st.wrap)
-        lines = max(1, math.ceil(len(text) / 50))
+        _put(ws, row, 5, texts[0], align=st.wrap)
+        _put(ws, row, 6, texts[1], align=st.wrap)
+        _put(ws, row, 7, v.vehicle_name, align=st.top)
+        lines = max(1, math.ceil(len(text) / 46), *(math.ceil(len(t) / 20) for t in texts))
         if lines > 1:
             ws.row_dimensions[row].height = 15.0 * lines
-        _put(ws, row, 5, ", ".join(map(str, v.groups)))
-        _put(ws, row, 6, ", ".join(map(str, v.members)))
-        _put(ws, row, 7, v.vehicle_name)
         row += 1
     # profiles
     row += 1
@@ -1080,6 +1082,9 @@ def variant_range_curves(result, speeds_kmh=None) -> tuple:
     except ImportError:
         return {}, "range against speed not drawn: the powertrain module is not available"
     speeds = _sweep_kmh(result) if speeds_kmh is None else np.asarray(speeds_kmh, float)
+    if not any(k in r.metrics for r in result.rows
+               for k in ("battery_wh_per_km", "battery_wh_per_mi")):
+        return {}, ""                 # no electric variant: nothing to sweep
     try:
         spec, sets = _nominal_variant_sets(result)
     except _Stale as exc:
@@ -1121,7 +1126,7 @@ def _range_sheet(wb, result, st, curves: dict):
         c = curves[n]
         _group_header(ws, h1, col, col + 1, n, st)
         _header(ws, h2, col, f"range [{r_unit}]", st)
-        _header(ws, h2, col + 1, f"battery energy per distance [{c_unit}]", st)
+        _header(ws, h2, col + 1, f"battery energy [{c_unit}]", st)
         sp = np.asarray(c.speed_kmh, float)
         feasible = np.asarray(c.feasible if c.feasible is not None else np.ones(sp.size, bool),
                               bool)
