@@ -55,7 +55,7 @@ from ..units import KMH_MS, KWH_J, MILE_M, UK_GALLON_L, US_GALLON_L
 from ._common import STANDSTILL_MS, col, plain, range_from, safe_divide
 from .drive import (RPM_RADS, FullLoadCurve, Gearing, parse_full_load, parse_gear_ratios,
                     rads_to_rpm)
-from .fuels import FUELS, Fuel, get_fuel
+from .fuels import Fuel, get_fuel
 from .maps import SpeedTorqueMap, parse_speed_torque_map
 
 
@@ -612,4 +612,4 @@ def _parse_willans(sec: Section, fuel: Fuel) -> WillansEngine:
 
 
 __all__ = ["CombustionPowertrain", "CombustionResult", "WillansEngine", "BsfcEngine",
-           "willans_fuel_rate_kg_s", "willans_friction_power_w", "parse_combustion", "FUELS"]
+           "willans_fuel_rate_kg_s", "willans_friction_power_w", "parse_combustion"]

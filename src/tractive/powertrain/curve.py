@@ -24,7 +24,6 @@ import numpy as np
 
 from ..errors import InputError
 from ..units import KMH_MS
-from ._common import plain
 
 #: default swept speeds [km/h]
 DEFAULT_SPEEDS_KMH = tuple(range(20, 161, 10))
@@ -159,4 +158,4 @@ def range_curve(vehicle, speeds_kmh=DEFAULT_SPEEDS_KMH, *, ambient_temperature_c
                       best_range_km=best_r, best_at_edge=bool(at_edge))
 
 
-__all__ = ["RangeCurve", "range_curve", "DEFAULT_SPEEDS_KMH", "plain"]
+__all__ = ["RangeCurve", "range_curve", "DEFAULT_SPEEDS_KMH"]
