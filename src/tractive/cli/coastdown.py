@@ -1,0 +1,229 @@
+"""``tractive coastdown`` and ``tractive coastdown-quick``: road load from coast-down tests."""
+
+from __future__ import annotations
+
+import click
+import numpy as np
+
+from ..coastdown import (analyze_coastdown, plot_coastdown, two_interval_estimate,
+                         write_road_load_yaml)
+from ..coastdown.corrections import REFERENCES
+from ..coastdown.fitting import COMBINES, METHODS
+from ..report.common import check_target
+from . import cli
+from ._output import emit_json, fmt, table
+
+SAFETY = """\b
+SAFETY: run coast-down tests only on closed roads or proving grounds where
+the law allows them, with no other traffic and in safe weather. Coasting in
+neutral changes how the vehicle brakes and steers (no engine braking; with
+the engine off, possibly no brake or steering assistance). Follow local law
+and the track's rules."""
+
+
+def _check_outputs(paths, logs):
+    """Refuse output names that are input logs before any work is done."""
+    for p in paths:
+        if p is not None:
+            check_target(p, logs)
+
+
+@cli.command("coastdown", help=f"""Road-load coefficients f0, f1, f2 (with covariance) from
+coast-down logs.
+
+\b
+LOG is a CSV (time_s or an ISO timestamp; speed_kmh, speed_mph or speed_ms;
+optional heading_deg, direction, run, wind_speed_ms, wind_direction_deg,
+air_temperature_c, air_pressure_pa, elevation_m) or a GPX track. Coasting
+runs are found automatically; acceleration, brake events, dropouts and speed
+spikes are rejected with the reason shown. Runs in opposite directions are
+combined so that a steady wind and the road slope cancel.
+
+\b
+Methods: speed-time (default) fits the closed-form speed-time solution to the
+measured speeds; deceleration regresses the smoothed deceleration on speed
+(SAE J2263 practice). Coefficients are corrected to reference conditions
+(UN GTR No. 15 by default) and reported with standard uncertainties; -o
+writes a road_load block with its covariance for a vehicle or study file.
+
+{SAFETY}
+""")
+@click.argument("logs", nargs=-1, required=True, metavar="LOG [LOG ...]")
+@click.option("--mass-kg", type=float, required=True, help="Vehicle test mass [kg].")
+@click.option("--rotating-mass-fraction", type=float, default=0.03, show_default=True,
+              help="Rotating-mass allowance [-]; inertial mass = mass × (1 + fraction).")
+@click.option("--mass-std-kg", type=float, default=0.0, show_default=True,
+              help="Standard uncertainty of the test mass [kg].")
+@click.option("--frontal-area-m2", type=float, default=None,
+              help="Frontal area [m²]; gives Cd from CdA.")
+@click.option("--method", type=click.Choice(METHODS), default="speed-time", show_default=True,
+              help="Fitting method.")
+@click.option("--combine", type=click.Choice(COMBINES), default="joint", show_default=True,
+              help="joint: all runs with a steady wind and slope term; pairs: average "
+                   "opposite-direction pairs; none: one direction, no wind or slope terms.")
+@click.option("--terms", type=click.Choice(["3", "2"]), default="3", show_default=True,
+              help="3: f0 + f1·v + f2·v²; 2: f1 fixed at zero.")
+@click.option("--speed-window-kmh", type=float, nargs=2, default=(15.0, 115.0),
+              show_default=True, metavar="LOW HIGH", help="Speeds fitted [km/h].")
+@click.option("--min-span-kmh", type=float, default=20.0, show_default=True,
+              help="Least speed drop a run must cover in the window [km/h].")
+@click.option("--max-gap-s", type=float, default=None,
+              help="Longest gap allowed inside a run [s] (default max(2 s, 2.5 samples)).")
+@click.option("--keep", type=int, multiple=True, metavar="N",
+              help="Use run N despite its rejection (repeatable).")
+@click.option("--drop", type=int, multiple=True, metavar="N",
+              help="Leave run N out (repeatable).")
+@click.option("--reference", type=click.Choice(REFERENCES), default="gtr15", show_default=True,
+              help="Reference conditions: gtr15 (20 °C, 100 kPa, K0 8.6e-3/K; values from "
+                   "memory), j2263 (20 °C, 98.21 kPa, air only) or none.")
+@click.option("--air-temperature-c", type=float, default=None,
+              help="Test air temperature [°C] for logs without that column.")
+@click.option("--air-pressure-pa", type=float, default=None,
+              help="Test air pressure [Pa] for logs without that column.")
+@click.option("--rolling-factor-per-k", type=float, default=None,
+              help="Rolling-resistance temperature factor K0 [1/K] (overrides the standard's).")
+@click.option("--grade-from-elevation", is_flag=True,
+              help="Remove each run's mean grade, from its elevation_m column.")
+@click.option("--smoothing-s", type=float, default=5.0, show_default=True,
+              help="Savitzky-Golay window of the deceleration method [s].")
+@click.option("--speed-column", type=click.Choice(["speed_kmh", "speed_mph", "speed_ms"]),
+              default=None, help="Speed column to use when a CSV has several.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
+@click.option("-o", "--output", "output", default=None, metavar="FILE.yaml",
+              help="Write the road_load block (coefficients and covariance) to this file.")
+@click.option("--plot", "plot", default=None, metavar="FILE.png",
+              help="Write a figure of the fitted speed-time curves and deceleration.")
+def coastdown_command(logs, mass_kg, rotating_mass_fraction, mass_std_kg, frontal_area_m2,
+                      method, combine, terms, speed_window_kmh, min_span_kmh, max_gap_s, keep,
+                      drop, reference, air_temperature_c, air_pressure_pa,
+                      rolling_factor_per_k, grade_from_elevation, smoothing_s, speed_column,
+                      as_json, output, plot):
+    _check_outputs([output, plot], logs)
+    result = analyze_coastdown(
+        list(logs), mass_kg=mass_kg, rotating_mass_fraction=rotating_mass_fraction,
+        frontal_area_m2=frontal_area_m2, method=method, combine=combine, terms=int(terms),
+        speed_window_kmh=tuple(speed_window_kmh), min_span_kmh=min_span_kmh,
+        max_gap_s=max_gap_s, keep=keep, drop=drop, reference=reference,
+        air_temperature_c=air_temperature_c, air_pressure_pa=air_pressure_pa,
+        rolling_factor_per_k=rolling_factor_per_k, grade_from_elevation=grade_from_elevation,
+        mass_std_kg=mass_std_kg, smoothing_s=smoothing_s, speed_column=speed_column)
+    written = []
+    if output:
+        written.append(str(write_road_load_yaml(result, output, inputs=logs)))
+    if plot:
+        written.append(str(plot_coastdown(result, plot, inputs=logs)))
+    data = result.to_dict()
+    if as_json:
+        if written:
+            data["written"] = written
+        emit_json(data)
+        return
+    _print_text(result, data)
+    for w in written:
+        click.echo(f"wrote {w}")
+
+
+def _print_text(result, data):
+    used = data["runs_used"]
+    fit = result.fit
+    click.echo(f"Coast-down: {used} of {len(result.runs)} runs used ({result.method} fit, "
+               f"combine {result.combine}, {result.terms} terms, "
+               f"{result.speed_window_kmh[0]:g}-{result.speed_window_kmh[1]:g} km/h)")
+    corr = result.corrections
+    if corr.get("standard") and corr.get("applied"):
+        head = f"at reference conditions of {corr['standard']} ({corr['basis']})"
+    else:
+        head = "at test conditions (not corrected)"
+    click.echo(f"road load {head}:")
+    std = result.std
+    click.echo(f"  f0   {result.f0_n:10.2f} ± {std[0]:.2f} N")
+    click.echo(f"  f1   {result.f1_n_per_kmh:10.4f} ± {std[1]:.4f} N/(km/h)")
+    click.echo(f"  f2   {result.f2_n_per_kmh2:10.5f} ± {std[2]:.5f} N/(km/h)^2")
+    line = (f"  CdA  {result.cda_m2:10.3f} ± {result.cda_std_m2:.3f} m^2 "
+            f"(air {result.air_density_for_cda_kg_m3:.4f} kg/m^3)")
+    if result.cd is not None:
+        line += f"   Cd {result.cd:.3f} ± {result.cd_std:.3f}"
+    click.echo(line)
+    click.echo(f"  Crr  {result.crr:10.5f} ± {result.crr_std:.5f}  (f0 / (m g), test mass)")
+    click.echo("  (± one standard uncertainty; 95 % interval about ± 1.96 times it)")
+    m = data["as_measured"]
+    click.echo(f"as measured: f0 {m['f0_n']:.2f} N, f1 {m['f1_n_per_kmh']:.4f} N/(km/h), "
+               f"f2 {m['f2_n_per_kmh2']:.5f} N/(km/h)^2")
+    for text in corr.get("applied", []):
+        click.echo(f"  corrected: {text}")
+    if fit.wind_ms is not None:
+        dir_a = next((r.run.direction for r in result.runs if r.run.group == "A"), "A")
+        click.echo(f"steady wind along the road {fit.wind_ms:.2f} ± {fit.wind_std_ms:.2f} m/s "
+                   f"against direction {dir_a}; slope {100 * fit.grade:.3f} ± "
+                   f"{100 * fit.grade_std:.3f} % uphill in direction {dir_a}")
+    rms = (f"{fit.residual_rms / (1 / 3.6):.3f} km/h" if result.method == "speed-time"
+           else f"{fit.residual_rms:.1f} N")
+    click.echo(f"fit: R² {fit.r_squared:.6f}, residual rms {rms}")
+    click.echo(f"agreement of runs within their noise: chi2 {fit.homogeneity_chi2:.1f} with "
+               f"{fit.homogeneity_dof} dof (p = {fit.homogeneity_p:.2g})")
+    if fit.between_dof is not None and np.any(np.isfinite(fit.effective_dof)):
+        dofs = ", ".join("-" if not np.isfinite(x) else f"{x:.1f}" for x in fit.effective_dof)
+        click.echo(f"uncertainty includes run-to-run variation ({fit.between_dof:.1f} dof); "
+                   f"effective dof of f0, f1, f2: {dofs} (Student-t 95 % intervals)")
+    click.echo("")
+    rows = []
+    for r in data["runs"]:
+        why = r["reason"]
+        if r.get("flag"):
+            why = (why + "; " if why else "") + r["flag"]
+        if r["notes"]:
+            why = (why + "; " if why else "") + "; ".join(r["notes"])
+        rows.append({**r, "used_text": "yes" if r["used"] else "no", "why": why})
+    click.echo(table(rows, [("run", "run", ".0f"), ("log", "log", ""),
+                            ("direction", "direction", ""), ("start_s", "start s", ".1f"),
+                            ("end_s", "end s", ".1f"), ("speed_start_kmh", "from km/h", ".1f"),
+                            ("speed_end_kmh", "to km/h", ".1f"), ("used_text", "used", ""),
+                            ("f0_n", "f0 N", ".1f"), ("f1_n_per_kmh", "f1", ".3f"),
+                            ("f2_n_per_kmh2", "f2", ".5f"),
+                            ("deviation_n", "off N", "+.1f"), ("why", "reason / notes", "")]))
+    if data["notes"]:
+        click.echo("\nnotes:")
+        for n in data["notes"]:
+            click.echo(f"  - {n}")
+
+
+@cli.command("coastdown-quick", help=f"""Quick road-load estimate from two timed speed drops.
+
+\b
+Time the coast from a high speed to a lower one (--high START END SECONDS)
+and over a low-speed interval (--low START END SECONDS), speeds in km/h.
+The two-term model F = f0 + f2·v² (White and Korst, SAE 720099) is solved
+exactly for both times. Assumes a level road and no wind (time both
+directions and average), rolling resistance independent of speed, and the
+vehicle in neutral. For uncertainties and corrections use 'tractive
+coastdown' with logged speeds.
+
+{SAFETY}
+""")
+@click.option("--mass-kg", type=float, required=True, help="Vehicle test mass [kg].")
+@click.option("--rotating-mass-fraction", type=float, default=0.03, show_default=True,
+              help="Rotating-mass allowance [-].")
+@click.option("--high", "high", type=float, nargs=3, required=True,
+              metavar="START_KMH END_KMH SECONDS", help="High-speed interval and its time.")
+@click.option("--low", "low", type=float, nargs=3, required=True,
+              metavar="START_KMH END_KMH SECONDS", help="Low-speed interval and its time.")
+@click.option("--air-density-kg-m3", type=float, default=None,
+              help="Air density [kg/m³] for CdA.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
+def coastdown_quick_command(mass_kg, rotating_mass_fraction, high, low, air_density_kg_m3,
+                            as_json):
+    est = two_interval_estimate(mass_kg=mass_kg, rotating_mass_fraction=rotating_mass_fraction,
+                                high_kmh=high[:2], high_time_s=high[2], low_kmh=low[:2],
+                                low_time_s=low[2], air_density_kg_m3=air_density_kg_m3)
+    data = est.to_dict()
+    if as_json:
+        emit_json(data)
+        return
+    click.echo(f"two-interval estimate (inertial mass {est.inertial_mass_kg:g} kg):")
+    click.echo(f"  f0  {est.f0_n:.2f} N          (mean-deceleration shortcut "
+               f"{est.mean_decel_f0_n:.2f} N)")
+    click.echo(f"  f2  {est.f2_n_per_kmh2:.5f} N/(km/h)^2   (shortcut "
+               f"{est.mean_decel_f2_n_per_kmh2:.5f})")
+    click.echo(f"  Crr {est.crr:.5f}" + (f"   CdA {fmt(est.cda_m2, '.3f')} m^2"
+                                           if est.cda_m2 is not None else ""))
+    click.echo("assumes: " + "; ".join(est.assumptions))

@@ -1,0 +1,116 @@
+"""Outputs of a coast-down analysis: the road-load YAML block and a figure.
+
+The YAML block holds exactly the keys a vehicle file's ``road_load:``
+accepts (``f0_n``, ``f1_n_per_kmh``, ``f2_n_per_kmh2``, ``covariance``); the
+rest of the result (method, runs, corrections) is written as comments above
+it. A vehicle file can include it with ``road_load: {from_coastdown: FILE}``
+or have it pasted under ``road_load:``. Files are written atomically and never
+over an input.
+"""
+
+from __future__ import annotations
+
+from typing import Iterable
+
+import numpy as np
+
+from ..report.common import atomic_write, write_text_atomic
+from ..units import KMH_MS
+
+
+def _num(x: float) -> str:
+    return repr(float(x))
+
+
+def road_load_yaml(result, *, inputs: Iterable = ()) -> str:
+    """The road-load block of a :class:`~tractive.coastdown.CoastdownResult` as YAML text."""
+    block = result.road_load_block()
+    std = result.std
+    corr = result.corrections
+    used = [r for r in result.runs if r.run.used]
+    lines = [
+        "# Road load from a coast-down analysis (tractive coastdown).",
+        "# Use it in a vehicle file as   road_load: {from_coastdown: THIS_FILE}",
+        "# or paste the keys below under road_load:.",
+        f"# logs: {', '.join(str(x) for x in inputs) or '-'}",
+        f"# method {result.method}, combine {result.combine}, {result.terms} terms, "
+        f"speed window {result.speed_window_kmh[0]:g}-{result.speed_window_kmh[1]:g} km/h, "
+        f"{len(used)} runs used",
+        f"# test mass {result.mass_kg:g} kg, inertial mass {result.inertial_mass_kg:g} kg",
+        f"# standard uncertainties: f0 {std[0]:.3g} N, f1 {std[1]:.3g} N/(km/h), "
+        f"f2 {std[2]:.3g} N/(km/h)^2",
+    ]
+    if corr.get("standard"):
+        lines.append(f"# corrected to reference conditions of {corr['standard']}: "
+                     f"{corr.get('basis', '')}")
+    else:
+        lines.append("# not corrected: coefficients at test conditions")
+    for text in corr.get("not_applied", []):
+        lines.append(f"# note: {text}")
+    lines.append("# covariance of (f0, f1, f2) in N^2, N^2/(km/h), N^2/(km/h)^2 ...")
+    lines += [f"f0_n: {_num(block['f0_n'])}",
+              f"f1_n_per_kmh: {_num(block['f1_n_per_kmh'])}",
+              f"f2_n_per_kmh2: {_num(block['f2_n_per_kmh2'])}",
+              "covariance:"]
+    for row in block["covariance"]:
+        lines.append("  - [" + ", ".join(_num(x) for x in row) + "]")
+    return "\n".join(lines) + "\n"
+
+
+def write_road_load_yaml(result, path, *, inputs: Iterable = ()):
+    """Write the road-load block atomically; refuses to overwrite an input file."""
+    inputs = [str(x) for x in inputs]
+    return write_text_atomic(path, road_load_yaml(result, inputs=inputs), inputs=inputs)
+
+
+def plot_coastdown(result, path, *, inputs: Iterable = ()):
+    """Figure: measured and fitted speed against time, deceleration against speed.
+
+    Written atomically as PNG (or the format of the file suffix) with
+    matplotlib's Agg backend.
+    """
+    import matplotlib
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    fit = result.fit
+    fig, (ax1, ax2) = plt.subplots(1, 2, figsize=(12, 4.8))
+    colors = {1.0: "tab:blue", -1.0: "tab:orange", 0.0: "tab:green"}
+    m = result.inertial_mass_kg
+    directions = {r.run.run_id: r.run.direction for r in result.runs}
+    for s in fit.series:
+        col = colors.get(float(s.sign), "tab:green")
+        ax1.plot(s.time_s, s.speed_ms / KMH_MS, ".", ms=2, color=col, alpha=0.4)
+        ax1.plot(s.time_s, s.speed_fit_ms / KMH_MS, "-", lw=1, color="k")
+        ax2.plot(s.decel_speed_ms / KMH_MS, s.decel_ms2, ".", ms=2, color=col, alpha=0.3)
+    seen = set()
+    for s in fit.series:
+        key = (float(s.sign), round(s.headwind_ms, 3))
+        if key in seen:
+            continue
+        seen.add(key)
+        a, b, c = s.apparent_coef
+        vv = np.linspace(result.speed_window_kmh[0], result.speed_window_kmh[1], 100) * KMH_MS
+        force = a + b * vv + c * (vv + s.headwind_ms) ** 2
+        ax2.plot(vv / KMH_MS, force / m, "-", lw=1.5, color=colors.get(float(s.sign), "k"),
+                 label=f"fit, direction {directions.get(s.run_id, '?')}")
+    ax1.set_xlabel("time since run start [s]")
+    ax1.set_ylabel("speed [km/h]")
+    ax1.set_title("measured (dots) and fitted (lines) speed")
+    ax2.set_xlabel("speed [km/h]")
+    ax2.set_ylabel("deceleration [m/s²]")
+    ax2.set_title("deceleration (smoothed derivative) and fitted road load / mass")
+    ax2.legend(fontsize=8)
+    fig.suptitle(f"f0 {result.f0_n:.1f} N, f1 {result.f1_n_per_kmh:.4f} N/(km/h), "
+                 f"f2 {result.f2_n_per_kmh2:.5f} N/(km/h)²  ({result.method}, "
+                 f"{result.combine})", fontsize=10)
+    fig.tight_layout()
+    suffix = str(path).rsplit(".", 1)[-1].lower() if "." in str(path) else "png"
+
+    def _write(tmp):
+        fig.savefig(tmp, format=suffix if suffix in ("png", "pdf", "svg") else "png", dpi=120)
+
+    try:
+        return atomic_write(path, _write, inputs=[str(x) for x in inputs])
+    finally:
+        plt.close(fig)
