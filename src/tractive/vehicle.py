@@ -127,6 +127,8 @@ def vehicle_from_section(sec: Section, *, name_default: str | None = None) -> Ve
 
 def parse_road_load(sec: Section, *, mass_kg: float | None = None):
     """Parse a ``road_load`` block in exactly one of its three forms."""
+    if sec.has("from_coastdown"):
+        return _parse_from_coastdown(sec)
     form = sec.only_one_of(COEFFICIENT_KEYS, DYNO_KEYS, PHYSICAL_KEYS + ("cla_m2",),
                            what="road-load form (f0/f1/f2, A/B/C, or physical CdA and Crr)")
     if form is None:
@@ -137,6 +139,30 @@ def parse_road_load(sec: Section, *, mass_kg: float | None = None):
     if form == 1:
         return _parse_dyno(sec)
     return _parse_physical(sec)
+
+
+def _parse_from_coastdown(sec: Section) -> CoefficientRoadLoad:
+    """``road_load: {from_coastdown: FILE}``: coefficients and covariance from the file
+    written by ``tractive coastdown -o`` (or its saved ``--json`` output, whose
+    ``road_load`` entry is used), relative to this file."""
+    others = [k for k in sec.keys() if k != "from_coastdown"]
+    if others:
+        raise sec.error("from_coastdown gives the whole road load; remove the other keys",
+                        str(others[0]))
+    path = sec.path("from_coastdown")
+    sec.finish()
+    line = sec.line_of("from_coastdown")
+    origin = f"{sec.file}:{line}" if sec.file and line else (sec.file or "the vehicle")
+    try:
+        inner = load_section(path)
+        if inner.has("road_load"):
+            inner = inner.section("road_load")
+        rl = _parse_coefficients(inner)
+    except InputError as exc:
+        raise InputError(f"{exc.message} (file named by {sec.field('from_coastdown')} in "
+                         f"{origin})", file=exc.file or str(path), field=exc.field,
+                         line=exc.line) from None
+    return replace(rl, given={**rl.given, "from_coastdown": str(path)})
 
 
 def _parse_coefficients(sec: Section) -> CoefficientRoadLoad:

@@ -58,3 +58,4 @@ from . import energy as _energy  # noqa: E402,F401
 from . import compare as _compare  # noqa: E402,F401
 from . import performance as _performance  # noqa: E402,F401
 from . import range_curve as _range_curve  # noqa: E402,F401
+from . import coastdown as _coastdown  # noqa: E402,F401
