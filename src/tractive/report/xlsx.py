@@ -1200,7 +1200,8 @@ def build_workbook(result, *, range_curves=None):
         if note:
             notes.append(note)
     else:
-        curves = _curve_map(range_curves)
+        curves = {k: c for k, c in _curve_map(range_curves).items()
+                  if getattr(c, "kind", "electric") == "electric"}
     taken = list(_FIXED_SHEETS)
     _summary_sheet(wb, result, st)
     _attribution_sheet(wb, result, st)
