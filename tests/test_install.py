@@ -22,9 +22,16 @@ import pytest
 REPO = Path(__file__).resolve().parents[1]
 CYCLES = ["udds", "ftp75", "hwfet", "us06", "nycc", "wltc3b", "wltc2lmh"]
 
+SUBPACKAGES = sorted(
+    ".".join(("tractive",) + p.parent.relative_to(REPO / "src" / "tractive").parts)
+    for p in (REPO / "src" / "tractive").rglob("__init__.py"))
+
 CHECK = """
-import json, tractive
+import importlib, json, sys, tractive
 from importlib import resources
+for name in sys.argv[1:]:
+    importlib.import_module(name)
+import tractive.cli
 from tractive.profiles import list_cycles, load_cycle
 data = resources.files("tractive.drive_cycles")
 print(json.dumps({
@@ -72,7 +79,12 @@ def test_non_editable_install_finds_bundled_cycles(tmp_path):
     env["PIP_NO_INPUT"] = "1"
     _run([str(py), "-m", "pip", "install", "--no-deps", "--no-build-isolation", "--no-index",
           str(copy)], env, tmp_path)
-    out = json.loads(_run([str(py), "-c", CHECK], env, tmp_path).strip().splitlines()[-1])
+    out = json.loads(_run([str(py), "-c", CHECK, *SUBPACKAGES], env,
+                          tmp_path).strip().splitlines()[-1])
+    # the console script of the fresh install runs a command on bundled data
+    script = venv / ("Scripts/tractive.exe" if os.name == "nt" else "bin/tractive")
+    cycles = json.loads(_run([str(script), "cycles", "--json"], env, tmp_path))
+    assert [c["name"] for c in cycles["cycles"]] == CYCLES
 
     venv_root = venv.resolve()
     assert Path(out["tractive"]).resolve().is_relative_to(venv_root)
