@@ -60,7 +60,8 @@ writes a road_load block with its covariance for a vehicle or study file.
               help="Fitting method.")
 @click.option("--combine", type=click.Choice(COMBINES), default="joint", show_default=True,
               help="joint: all runs with a steady wind and slope term; pairs: average "
-                   "opposite-direction pairs; none: one direction, no wind or slope terms.")
+                   "opposite-direction pairs; none: no wind or slope terms (for runs in "
+                   "one direction).")
 @click.option("--terms", type=click.Choice(["3", "2"]), default="3", show_default=True,
               help="3: f0 + f1·v + f2·v²; 2: f1 fixed at zero.")
 @click.option("--speed-window-kmh", type=float, nargs=2, default=(15.0, 115.0),
