@@ -14,8 +14,7 @@ References
 
 from __future__ import annotations
 
-import os
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 from typing import Sequence
 
 import numpy as np
@@ -25,8 +24,8 @@ from ..units import KMH_MS, STANDARD_GRAVITY_MS2
 from .corrections import REFERENCES, correction_factors
 from .fitting import COMBINES, METHODS, FitOutcome, FitRun, fit_runs
 from .logs import CoastdownLog, read_coastdown_log
-from .runs import (DetectionSettings, LogScan, Run, apply_user_choice, assign_directions,
-                   find_runs, grade_force_n, pair_runs, run_grade)
+from .runs import (DetectionSettings, Run, apply_user_choice, assign_directions, find_runs,
+                   grade_force_n, pair_runs, run_grade)
 
 #: SI → GTR 15 units for (f0, f1, f2): N, N/(km/h), N/(km/h)² (exact)
 TO_GTR_UNITS = np.array([1.0, KMH_MS, KMH_MS ** 2])
@@ -414,7 +413,7 @@ def analyze_coastdown(logs: Sequence, *, mass_kg: float,
         notes.append("measured wind used: the drag term uses air speed (ground speed plus "
                      "the measured headwind component)")
     fit = fit_runs(fit_runs_in, mass_kg=inertial, method=method, combine=combine, terms=terms,
-                   window_s=smoothing_s)
+                   window_s=smoothing_s, test_mass_kg=mass_kg)
     notes += fit.notes
     if fit.homogeneity_p < 0.01:
         notes.append(f"the runs scatter more than their noise explains (chi2 "

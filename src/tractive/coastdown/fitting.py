@@ -86,6 +86,7 @@ from scipy import stats
 from scipy.optimize import least_squares
 
 from ..errors import InputError
+from ..units import STANDARD_GRAVITY_MS2
 from .motion import (coast_speed_gradient, coast_speed_ms, interpolation_operator, odd_window,
                      savgol_operator)
 
@@ -474,7 +475,7 @@ def _fit_speed_time(runs, names, mass_kg, window_s):
 # ---------------------------------------------------------------------------
 
 def fit_runs(runs, *, mass_kg, method="speed-time", combine="joint", terms=3,
-             window_s=5.0) -> FitOutcome:
+             window_s=5.0, test_mass_kg=None) -> FitOutcome:
     """Fit road-load coefficients to prepared runs.
 
     Parameters
@@ -490,6 +491,9 @@ def fit_runs(runs, *, mass_kg, method="speed-time", combine="joint", terms=3,
     window_s : float
         Savitzky-Golay window [s] for the deceleration method (and the start
         values of the speed-time fit).
+    test_mass_kg : float, optional
+        Test mass [kg] on which the road slope acts (default ``mass_kg``);
+        only used to express the fitted slope force as a grade.
 
     References
     ----------
@@ -534,10 +538,10 @@ def fit_runs(runs, *, mass_kg, method="speed-time", combine="joint", terms=3,
     series = _series(runs, names, theta, v0s, preps, mass_kg)
     grade = grade_std = None
     if grade_force is not None:
-        from ..units import STANDARD_GRAVITY_MS2
-        _, cov_tot, _, gf_tot = _physical(names, theta, cov + comb["cov_between"])
-        grade = grade_force[0] / (mass_kg * STANDARD_GRAVITY_MS2)
-        grade_std = gf_tot[1] / (mass_kg * STANDARD_GRAVITY_MS2)
+        weight_n = (test_mass_kg or mass_kg) * STANDARD_GRAVITY_MS2
+        _, _, _, gf_tot = _physical(names, theta, cov + comb["cov_between"])
+        grade = grade_force[0] / weight_n          # sin θ ≈ tan θ for a road
+        grade_std = gf_tot[1] / weight_n
     wind_std = None
     if wind is not None:
         wind_std = float(np.hypot(wind[1], wind_b[1]))
@@ -681,16 +685,6 @@ def _widen(cov_within, cov_between, nu_between):
     factor = np.where(np.isfinite(nu_eff), stats.t.ppf(0.975, np.where(
         np.isfinite(nu_eff), nu_eff, 1.0)) / _Z95, 1.0)
     return total * np.outer(factor, factor), nu_eff, factor
-
-
-def _mahalanobis(delta, cov):
-    """χ² = δᵀ C⁻¹ δ (3 dof) and its upper-tail p-value."""
-    try:
-        chi2 = float(delta @ np.linalg.solve(cov, delta))
-    except np.linalg.LinAlgError:
-        chi2 = float(delta @ np.linalg.pinv(cov) @ delta)
-    chi2 = max(chi2, 0.0)
-    return chi2, float(stats.chi2.sf(chi2, len(delta)))
 
 
 def _series(runs, names, theta, v0s, preps, mass_kg):

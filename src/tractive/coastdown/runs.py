@@ -13,7 +13,9 @@ Steps, per log:
    derivative taken with a Savitzky-Golay filter over ``detect_window_s``;
    a segment is a stretch where the vehicle decelerates by more than
    ``decel_min_ms2`` (holes shorter than 1 s closed). Acceleration ends a
-   segment; so does a change of the ``run`` or ``direction`` label.
+   segment; so does a change of the ``run`` or ``direction`` label. Half the
+   detection window plus 1 s is dropped at each end of a segment, where the
+   filter blurs the change from driving to coasting.
 4. **Speed window**: only the part of a segment between the window's speeds
    (smoothed speed) is kept.
 5. **Brake events**: deceleration on a short window (``brake_window_s``) is
@@ -270,8 +272,12 @@ def find_runs(logs, settings: DetectionSettings):
             for a, b in _true_runs(mask):
                 if (tg[b - 1] - tg[a]) < 3.0 or (vs[a] - vs[b - 1]) < 5.0 * KMH_MS:
                     continue
+                # the detection derivative blurs the segment ends by half its window:
+                # drop that and 1 s more where the coast itself begins or ends (the
+                # shift into neutral, the first touch of the throttle)
+                trim = det_n // 2 + int(np.ceil(1.0 / dt0))
+                sub = np.arange(a + trim, b - trim)
                 # restrict to the speed window
-                sub = np.arange(a, b)
                 inside = sub[(vs[sub] <= hi) & (vs[sub] >= lo)]
                 if inside.size == 0 or vs[inside[0]] - vs[inside[-1]] < 5.0 * KMH_MS:
                     continue
