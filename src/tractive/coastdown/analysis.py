@@ -371,9 +371,16 @@ def analyze_coastdown(logs: Sequence, *, mass_kg: float,
         groups = {r.group for r in runs if r.used}
         if len(groups) < 2:
             only = next((r.direction for r in runs if r.used), "?")
+            other = [r for r in runs if not r.used and r.group is not None
+                     and r.group not in groups]
+            hint = ""
+            if other:
+                hint = (f" (opposite run{'s' if len(other) > 1 else ''} "
+                        f"{', '.join(str(r.run_id) for r in other)} rejected: "
+                        f"{other[0].reason}; see keep)")
             raise InputError(f"combine '{combine}' needs runs in both directions, but all used "
-                             f"runs go one way ({only}); add the opposite runs, or use combine "
-                             "'none' (wind and slope then stay in the result)",
+                             f"runs go one way ({only}){hint}; add the opposite runs, or use "
+                             "combine 'none' (wind and slope then stay in the result)",
                              field="combine")
     if combine == "pairs":
         runs = pair_runs(runs)

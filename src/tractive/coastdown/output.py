@@ -64,7 +64,8 @@ def write_road_load_yaml(result, path, *, inputs: Iterable = ()):
 
 
 def plot_coastdown(result, path, *, inputs: Iterable = ()):
-    """Figure: measured and fitted speed against time, deceleration against speed.
+    """Figure: measured and fitted speed against time, deceleration against speed,
+    and the speed residuals.
 
     Written atomically as PNG (or the format of the file suffix) with
     matplotlib's Agg backend.
@@ -74,7 +75,11 @@ def plot_coastdown(result, path, *, inputs: Iterable = ()):
     import matplotlib.pyplot as plt
 
     fit = result.fit
-    fig, (ax1, ax2) = plt.subplots(1, 2, figsize=(12, 4.8))
+    fig = plt.figure(figsize=(12, 7.2))
+    grid = fig.add_gridspec(3, 2, height_ratios=[1.0, 1.0, 0.8])
+    ax1 = fig.add_subplot(grid[0:2, 0])
+    ax2 = fig.add_subplot(grid[0:2, 1])
+    ax3 = fig.add_subplot(grid[2, :])
     colors = {1.0: "tab:blue", -1.0: "tab:orange", 0.0: "tab:green"}
     m = result.inertial_mass_kg
     directions = {r.run.run_id: r.run.direction for r in result.runs}
@@ -83,6 +88,8 @@ def plot_coastdown(result, path, *, inputs: Iterable = ()):
         ax1.plot(s.time_s, s.speed_ms / KMH_MS, ".", ms=2, color=col, alpha=0.4)
         ax1.plot(s.time_s, s.speed_fit_ms / KMH_MS, "-", lw=1, color="k")
         ax2.plot(s.decel_speed_ms / KMH_MS, s.decel_ms2, ".", ms=2, color=col, alpha=0.3)
+        ax3.plot(s.time_s, (s.speed_ms - s.speed_fit_ms) / KMH_MS, ".", ms=1.5, color=col,
+                 alpha=0.5)
     seen = set()
     for s in fit.series:
         key = (float(s.sign), round(s.headwind_ms, 3))
@@ -101,6 +108,10 @@ def plot_coastdown(result, path, *, inputs: Iterable = ()):
     ax2.set_ylabel("deceleration [m/s²]")
     ax2.set_title("deceleration (smoothed derivative) and fitted road load / mass")
     ax2.legend(fontsize=8)
+    ax3.axhline(0.0, color="k", lw=0.8)
+    ax3.set_xlabel("time since run start [s]")
+    ax3.set_ylabel("measured − fitted [km/h]")
+    ax3.set_title("speed residuals of the used runs", fontsize=10)
     fig.suptitle(f"f0 {result.f0_n:.1f} N, f1 {result.f1_n_per_kmh:.4f} N/(km/h), "
                  f"f2 {result.f2_n_per_kmh2:.5f} N/(km/h)²  ({result.method}, "
                  f"{result.combine})", fontsize=10)
