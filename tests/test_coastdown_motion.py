@@ -152,12 +152,12 @@ def test_two_interval_estimate_refuses_impossible_times():
 
 def test_quick_command_json_matches_the_function():
     r = subprocess.run([sys.executable, "-m", "tractive", "coastdown-quick", "--mass-kg", "1400",
-                        "--high", "110", "90", "6.5", "--low", "40", "20", "19.0", "--json"],
+                        "--high", "110", "90", "17.1", "--low", "40", "20", "47.1", "--json"],
                        capture_output=True, text=True)
     assert r.returncode == 0, r.stderr
     data = json.loads(r.stdout)
-    est = two_interval_estimate(mass_kg=1400, high_kmh=(110, 90), high_time_s=6.5,
-                                low_kmh=(40, 20), low_time_s=19.0)
+    est = two_interval_estimate(mass_kg=1400, high_kmh=(110, 90), high_time_s=17.1,
+                                low_kmh=(40, 20), low_time_s=47.1)
     assert data["f0_n"] == pytest.approx(est.f0_n, rel=1e-12)
     assert data["f2_n_per_kmh2"] == pytest.approx(est.f2_n_per_kmh2, rel=1e-12)
     assert any("level road" in a for a in data["assumptions"])
