@@ -139,3 +139,18 @@ def test_bad_option_is_one_line_exit_2():
 def test_python_dash_m_and_version():
     r = run("--version")
     assert r.returncode == 0 and "tractive" in r.stdout
+
+
+def test_every_command_module_is_listed_for_lazy_loading():
+    # commands load lazily by name; a command module missing from the table would vanish
+    import importlib
+    import pkgutil
+
+    import tractive.cli as cli_pkg
+
+    for mod in pkgutil.iter_modules(cli_pkg.__path__):
+        if not mod.name.startswith("_"):
+            importlib.import_module(f"tractive.cli.{mod.name}")
+    assert set(cli_pkg.cli.commands) == set(cli_pkg.COMMAND_MODULES)
+    for name, module in cli_pkg.COMMAND_MODULES.items():
+        assert cli_pkg.cli.commands[name].callback.__module__ == f"tractive.cli.{module}"

@@ -7,6 +7,7 @@ line on stderr and exit with status 2, with no traceback.
 
 from __future__ import annotations
 
+import importlib
 import sys
 
 import click
@@ -14,7 +15,29 @@ import click
 from ..errors import InputError
 
 
+#: command name → module of this package that defines it. Modules are imported
+#: only when their command is used (or help lists them), so a quick command does
+#: not pay for the imports of a heavy one.
+COMMAND_MODULES = {
+    "cycles": "cycles",
+    "energy": "energy",
+    "performance": "performance",
+    "range-curve": "range_curve",
+    "compare": "compare",
+    "coastdown": "coastdown",
+    "coastdown-quick": "coastdown",
+}
+
+
 class _Group(click.Group):
+    def list_commands(self, ctx):
+        return sorted(set(super().list_commands(ctx)) | set(COMMAND_MODULES))
+
+    def get_command(self, ctx, name):
+        if name not in self.commands and name in COMMAND_MODULES:
+            importlib.import_module(f"{__name__}.{COMMAND_MODULES[name]}")
+        return super().get_command(ctx, name)
+
     def invoke(self, ctx):
         try:
             return super().invoke(ctx)
@@ -50,12 +73,3 @@ def main(argv=None):
         click.echo(f"tractive: error: {exc.one_line()}", err=True)
         sys.exit(2)
     sys.exit(rv if isinstance(rv, int) else 0)
-
-
-# commands register themselves on import
-from . import cycles as _cycles  # noqa: E402,F401
-from . import energy as _energy  # noqa: E402,F401
-from . import compare as _compare  # noqa: E402,F401
-from . import performance as _performance  # noqa: E402,F401
-from . import range_curve as _range_curve  # noqa: E402,F401
-from . import coastdown as _coastdown  # noqa: E402,F401
