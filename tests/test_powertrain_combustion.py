@@ -38,6 +38,7 @@ def willans_pt(**over):
           "gear_ratios": [3.5, 2.0, 1.3, 1.0, 0.8], "final_drive_ratio": 4.0,
           "tyre_radius_m": 0.3, "transmission_efficiency": 0.95, "idle_speed_rpm": 800,
           "rev_limit_rpm": 6000, "upshift_speeds_kmh": [20, 40, 60, 80],
+          "accessory_power_kw": 0.0,
           "willans": {"marginal_efficiency": 0.38, "friction_mep_kpa": 120,
                       "displacement_l": 1.6}}
     pt.update(over)
@@ -128,14 +129,16 @@ def test_bsfc_map_fuel_rate_is_specific_consumption_times_power(tmp_path):
                                                              rel=1e-12)
 
 
-@pytest.mark.parametrize("cutoff", [True, False])
-def test_bsfc_map_from_a_willans_line_reproduces_the_willans_model(tmp_path, cutoff):
+@pytest.mark.parametrize("cutoff, acc_kw", [(True, 0.0), (False, 0.0), (True, 0.8)])
+def test_bsfc_map_from_a_willans_line_reproduces_the_willans_model(tmp_path, cutoff, acc_kw):
     # A Willans fuel rate ω·(T + c)/(e·H) is bilinear in (ω, T), so bilinear interpolation
     # of the fuel rate, and the linear extension to zero torque, reproduce it exactly
     # (Press et al., Numerical Recipes §3.6: bilinear interpolation is exact for
     # a + b x + c y + d x y). Whole cycle, idle, overrun with and without cut-off.
-    vw = write_vehicle(tmp_path, willans_pt(fuel_cutoff=cutoff), name="w.yaml")
-    vm = write_vehicle(tmp_path, map_pt(fuel_cutoff=cutoff), name="m.yaml")
+    vw = write_vehicle(tmp_path, willans_pt(fuel_cutoff=cutoff, accessory_power_kw=acc_kw),
+                       name="w.yaml")
+    vm = write_vehicle(tmp_path, map_pt(fuel_cutoff=cutoff, accessory_power_kw=acc_kw),
+                       name="m.yaml")
     prof = resolve_profile("udds")
     d = vehicle_wheel_demand(vw, prof)
     op = vw.powertrain.operation(d.force_n, d.intervals.speed_ms)
@@ -157,19 +160,27 @@ def test_speed_rule_picks_the_gear_from_the_upshift_speeds(tmp_path):
     assert op["gear"].tolist() == [1, 1, 2, 3, 4, 4, 5, 5]
 
 
-def test_clutch_slips_below_idle_and_engine_idles_at_standstill(tmp_path):
-    v = write_vehicle(tmp_path, willans_pt())
+def test_clutch_slips_at_launch_and_opens_below_idle(tmp_path):
+    v = write_vehicle(tmp_path, willans_pt(min_pulling_speed_rpm=1200))
     pt = v.powertrain
-    # 1 m/s in first gear: 1 × 3.5 × 4 / 0.3 = 46.7 rad/s, below idle (83.8 rad/s):
-    # the engine holds idle speed and passes the wheel torque F·r/(i·η)
-    op = pt.operation(np.array([500.0, 0.0]), np.array([1.0, 0.0]))
-    assert op["engine_speed_rads"][0] == pytest.approx(800 * TWO_PI / 60)
+    w_idle, w_pull = 800 * TWO_PI / 60, 1200 * TWO_PI / 60
+    # 1 m/s in first gear: 1 × 3.5 × 4 / 0.3 = 46.7 rad/s, below idle (83.8 rad/s).
+    # Pulling: the clutch slips with the engine held at the lowest pulling speed, passing
+    # the wheel torque F·r/(i·η). Braking: the clutch is open and the engine idles.
+    # Standstill: idle.
+    op = pt.operation(np.array([500.0, -300.0, 0.0]), np.array([1.0, 1.0, 0.0]))
+    assert op["engine_speed_rads"].tolist() == pytest.approx([w_pull, w_idle, w_idle])
     assert op["engine_torque_nm"][0] == pytest.approx(500 * 0.3 / (3.5 * 4.0 * 0.95))
-    assert op["gear"].tolist() == [1, 0]
-    assert op["idle"].tolist() == [False, True]
+    assert op["gear"].tolist() == [1, 1, 0]
+    assert op["idle"].tolist() == [False, True, True]
     # idle fuel from the Willans line at idle: P_0(idle) / (e · H_l)
-    p0 = 120e3 * 1.6e-3 * (800 * TWO_PI / 60) / (4 * math.pi)
-    assert op["fuel_kg_s"][1] == pytest.approx(p0 / 0.38 / FUELS["diesel"].lhv_j_per_kg)
+    lhv = FUELS["diesel"].lhv_j_per_kg
+    p0 = 120e3 * 1.6e-3 * w_idle / (4 * math.pi)
+    assert op["fuel_kg_s"][1:].tolist() == pytest.approx([p0 / 0.38 / lhv] * 2, rel=1e-12)
+    # the slipping launch burns fuel at the pulling speed: (T·ω + P_0(ω)) / (e·H_l)
+    t = 500 * 0.3 / (3.5 * 4.0 * 0.95)
+    p0_pull = 120e3 * 1.6e-3 * w_pull / (4 * math.pi)
+    assert op["fuel_kg_s"][0] == pytest.approx((t * w_pull + p0_pull) / 0.38 / lhv, rel=1e-12)
 
 
 def test_standstill_uses_idle_fuel_or_nothing_with_engine_off(tmp_path):
@@ -213,28 +224,182 @@ def test_overrun_fuel_cut_off(tmp_path, cutoff):
     assert r.fuel_kg == pytest.approx(expected, rel=1e-12)
 
 
-def test_efficient_rule_uses_the_lowest_fuel_feasible_gear(tmp_path):
+@pytest.mark.parametrize("pull_rpm, acc_kw", [(800, 0.0), (1400, 0.0), (1400, 0.6)])
+def test_efficient_rule_uses_the_lowest_fuel_feasible_gear(tmp_path, pull_rpm, acc_kw):
     v = write_vehicle(tmp_path, map_pt(shift_rule="efficient", upshift_speeds_kmh=None,
+                                       min_pulling_speed_rpm=pull_rpm,
+                                       accessory_power_kw=acc_kw,
                                        full_load={"speed_rpm": [800, 2000, 4000, 6000],
                                                   "torque_nm": [120, 200, 200, 150]}))
     pt = v.powertrain
     prof = resolve_profile("wltc3b")
     d = vehicle_wheel_demand(v, prof)
-    op = pt.operation(d.force_n, d.intervals.speed_ms)
-    moving = d.intervals.speed_ms > 0
-    # brute force over gears, one single-gear powertrain at a time
+    f, vm = d.force_n, d.intervals.speed_ms
+    op = pt.operation(f, vm)
+    moving = vm > 0
+    pulling = moving & (f > 0)
+    # brute force over gears, one single-gear powertrain at a time: a gear above first is
+    # feasible within the rev limit and full load, and at or above the lowest pulling
+    # speed while pulling (at or above idle otherwise)
     w_idle, w_max = 800 * TWO_PI / 60, 6000 * TWO_PI / 60
-    best = np.full(d.force_n.shape, np.inf)
+    w_pull = pull_rpm * TWO_PI / 60
+    best = np.full(f.shape, np.inf)
+    best_gear = np.zeros(f.shape, int)
     for k, ratio in enumerate(pt.gearing.gear_ratios):
         one = dataclasses.replace(pt, gearing=Gearing((ratio,), 4.0, 0.3, 0.95))
-        o = one.operation(d.force_n, d.intervals.speed_ms)
-        w = d.intervals.speed_ms * ratio * 4.0 / 0.3
-        feasible = (w <= w_max) & ((w >= w_idle) | (k == 0)) & ~o["over_limit"]
-        best = np.where(feasible, np.minimum(best, o["fuel_kg_s"]), best)
+        o = one.operation(f, vm)
+        w = vm * ratio * 4.0 / 0.3
+        floor = np.where(pulling, w_pull, w_idle)
+        feasible = (w <= w_max) & ((w >= floor) | (k == 0)) & ~o["over_limit"]
+        better = feasible & (o["fuel_kg_s"] < best)
+        best_gear = np.where(better, k + 1, best_gear)
+        best = np.where(better, o["fuel_kg_s"], best)
     has = moving & np.isfinite(best)
     assert has.sum() > 0.9 * moving.sum()
     assert np.all(op["fuel_kg_s"][has] <= best[has] * (1 + 1e-12))
     assert np.all(op["fuel_kg_s"][has] >= best[has] * (1 - 1e-12))
+    # the lugging limit: above first gear, no pulling interval runs below it
+    ratio_sel = np.array([3.5, 2.0, 1.3, 1.0, 0.8])[op["gear"][pulling] - 1] * 4.0
+    w_sel = vm[pulling] * ratio_sel / 0.3
+    up = op["gear"][pulling] > 1
+    assert np.all(w_sel[up] >= w_pull * (1 - 1e-12))
+    if pull_rpm == 800:
+        # without a margin the lowest-fuel gear lugs below 1400 rpm somewhere on the cycle,
+        # so the 1400 rpm cases above test a binding limit
+        assert np.any(w_sel[up] < 1400 * TWO_PI / 60)
+
+
+def test_speed_rule_downshifts_instead_of_lugging(tmp_path):
+    # upshift speeds that would pull at 900-1100 rpm; lowest pulling speed 1300 rpm
+    v = write_vehicle(tmp_path, willans_pt(upshift_speeds_kmh=[10, 20, 30, 40],
+                                           min_pulling_speed_rpm=1300))
+    pt = v.powertrain
+    prof = resolve_profile("udds")
+    d = vehicle_wheel_demand(v, prof)
+    f, vm = d.force_n, d.intervals.speed_ms
+    op = pt.operation(f, vm)
+    ratios = np.array([3.5, 2.0, 1.3, 1.0, 0.8]) * 4.0
+    scheduled = 1 + np.searchsorted(np.array([10, 20, 30, 40]) / 3.6, vm, side="right")
+    # brute force: the highest gear at or above 1300 rpm, at most the scheduled gear
+    w = vm[:, None] * ratios[None, :] / 0.3
+    ok = w >= 1300 * TWO_PI / 60
+    highest_ok = np.array([np.max(np.nonzero(row)[0]) + 1 if row.any() else 1 for row in ok])
+    moving = vm > 0
+    pulling = moving & (f > 0)
+    expected = np.where(pulling, np.minimum(scheduled, highest_ok), scheduled)
+    assert np.array_equal(op["gear"][moving], expected[moving])
+    assert np.any(expected[pulling] < scheduled[pulling])       # the limit binds
+    # coasting and braking keep the scheduled gear even below the pulling floor
+    coast_low = moving & ~pulling & ~ok[np.arange(len(vm)), scheduled - 1] & \
+        (w[np.arange(len(vm)), scheduled - 1] >= 800 * TWO_PI / 60)
+    assert np.any(coast_low) and np.array_equal(op["gear"][coast_low], scheduled[coast_low])
+
+
+# -- accessory load -------------------------------------------------------------------
+
+def _constant_friction_pt(acc_kw, **over):
+    pt = willans_pt(accessory_power_kw=acc_kw, idle_fuel_l_per_h=0.8, **over)
+    pt["willans"] = {"marginal_efficiency": 0.38, "friction_power_kw": 3.0}
+    return pt
+
+
+@pytest.mark.parametrize("form, off_at_rest", [("constant", False), ("mep", False),
+                                               ("mep", True)])
+def test_accessory_power_adds_exactly_its_work_over_e_times_lhv(tmp_path, form, off_at_rest):
+    # Willans line (Guzzella & Sciarretta §3.2): ṁ = (P_e + P_0) / (e·H_l). The accessories
+    # add P_acc to the brake power whenever the engine runs, so the fuel rate rises by
+    # exactly P_acc / (e·H_l) and the fuel by P_acc·t / (e·H_l) (no cut-off, so the engine
+    # is fuelled in every interval; stopped at rest, the engine charges the standstill
+    # share back while it runs)
+    make = _constant_friction_pt if form == "constant" else (
+        lambda acc, **o: willans_pt(accessory_power_kw=acc, **o))
+    prof = resolve_profile("udds")
+    res = []
+    for acc, name in ((0.0, "a.yaml"), (0.75, "b.yaml")):
+        v = write_vehicle(tmp_path, make(acc, fuel_cutoff=False,
+                                         engine_off_at_rest=off_at_rest), name=name)
+        res.append(v.powertrain.consume(v, vehicle_wheel_demand(v, prof), prof))
+    duration = 1369.0                       # UDDS duration (40 CFR 86 App. I)
+    lhv = FUELS["diesel"].lhv_j_per_kg
+    assert res[1].fuel_kg - res[0].fuel_kg == pytest.approx(750.0 * duration / (0.38 * lhv),
+                                                            rel=1e-9)
+    assert res[1].accessory_energy_kwh == pytest.approx(0.75 * duration / 3600, rel=1e-12)
+    assert res[0].accessory_energy_kwh == 0.0
+
+
+def test_accessory_power_at_idle_and_per_vehicle(tmp_path):
+    # at standstill: the given idle rate plus P_acc/(e·H_l) (Willans line at idle speed);
+    # an (N,) accessory power gives (N,) results equal to N separate runs
+    prof = constant_speed(0.0, 600.0)
+    v = write_vehicle(tmp_path, _constant_friction_pt(0.5))
+    pt = v.powertrain
+    d = vehicle_wheel_demand(v, prof)
+    lhv, rho = FUELS["diesel"].lhv_j_per_kg, FUELS["diesel"].density_kg_per_l
+    r = pt.consume(v, d, prof)
+    assert r.fuel_kg == pytest.approx((0.8 * rho / 3600 + 500 / (0.38 * lhv)) * 600, rel=1e-12)
+    acc = np.array([0.0, 300.0, 900.0])
+    many = dataclasses.replace(pt, accessory_power_w=acc)
+    prof = resolve_profile("wltc3b")
+    d = vehicle_wheel_demand(v, prof)
+    rm = many.consume(v, d, prof)
+    assert np.shape(rm.fuel_kg) == (3,)
+    for i in range(3):
+        one = dataclasses.replace(pt, accessory_power_w=acc[i])
+        assert rm.fuel_kg[i] == pytest.approx(one.consume(v, d, prof).fuel_kg, rel=1e-12)
+
+
+def test_lowest_pulling_speed_per_vehicle_matches_one_run_each(tmp_path):
+    # an (N,) lowest pulling speed gives (N,) results equal to N separate runs; a higher
+    # floor cannot lower the fuel of the lowest-fuel gear choice (it only removes gears)
+    v = write_vehicle(tmp_path, map_pt(shift_rule="efficient", upshift_speeds_kmh=None,
+                                       accessory_power_kw=0.4))
+    pt = v.powertrain
+    prof = resolve_profile("udds")
+    d = vehicle_wheel_demand(v, prof)
+    floors = np.array([800.0, 1200.0, 1600.0, 2000.0])
+    r = dataclasses.replace(pt, min_pulling_speed_rpm=floors).consume(v, d, prof)
+    assert np.shape(r.fuel_kg) == (4,)
+    for i, n in enumerate(floors):
+        one = dataclasses.replace(pt, min_pulling_speed_rpm=n).consume(v, d, prof)
+        assert r.fuel_kg[i] == pytest.approx(one.fuel_kg, rel=1e-12)
+    assert np.all(np.diff(r.fuel_kg) > 0)
+
+
+@pytest.mark.parametrize("cutoff", [True, False])
+def test_overrun_fuel_follows_the_willans_line_below_zero_load(tmp_path, cutoff):
+    # 72 km/h in 4th gear (ω = 20 × 4 / 0.3 = 266.67 rad/s), P_0 = 3 kW, P_acc = 1 kW,
+    # e = 0.38. Braking power reaching the engine: F·v·η.
+    #   F = −50 N:   −950 W covers neither friction nor accessories: with cut-off the engine
+    #                still needs (−950 + 1000 + 3000) / (e·H_l)
+    #   F = −5000 N: −95 kW covers both: no fuel with cut-off
+    #   without cut-off: the zero-load rate with accessories, (1000 + 3000) / (e·H_l)
+    v = write_vehicle(tmp_path, _constant_friction_pt(1.0, fuel_cutoff=cutoff))
+    op = v.powertrain.operation(np.array([-50.0, -5000.0]), np.array([20.0, 20.0]))
+    lhv = FUELS["diesel"].lhv_j_per_kg
+    assert op["gear"].tolist() == [4, 4]
+    if cutoff:
+        expected = [(-50 * 20 * 0.95 + 1000 + 3000) / (0.38 * lhv), 0.0]
+    else:
+        expected = [4000 / (0.38 * lhv)] * 2
+    assert op["fuel_kg_s"].tolist() == pytest.approx(expected, rel=1e-12, abs=0.0)
+    # brake torque: the motoring torque F·r·η/i plus the accessory torque P_acc/ω
+    w = 20 * 4.0 / 0.3
+    assert op["engine_torque_nm"][0] == pytest.approx(-50 * 0.3 * 0.95 / 4.0 + 1000 / w)
+
+
+def test_bsfc_map_below_zero_torque_continues_the_willans_line(tmp_path):
+    # a map built from a Willans line, read at negative torque, gives the line continued
+    # (Guzzella & Sciarretta §3.2) and no fuel below the motoring torque −P_0/ω
+    v = write_vehicle(tmp_path, map_pt())
+    eng = v.powertrain.engine
+    lhv = FUELS["diesel"].lhv_j_per_kg
+    w = np.array([1000.0, 2200.0, 5000.0]) * TWO_PI / 60
+    p0 = 120e3 * 1.6e-3 * w / (4 * math.pi)
+    t_motoring = -p0 / w
+    for frac in (0.3, 0.9, 1.5, 4.0):
+        t = frac * t_motoring
+        expected = np.maximum(t * w + p0, 0.0) / (0.38 * lhv)
+        assert eng.fuel_rate_kg_s(w, t) == pytest.approx(expected, rel=1e-9, abs=1e-15)
 
 
 def test_engine_limit_is_flagged(tmp_path):
@@ -340,6 +505,10 @@ def test_combustion_range_curve_matches_steady_consumption(tmp_path):
     ({"willans": {"marginal_efficiency": 0.4, "friction_mep_kpa": 100, "displacement_l": 1.6,
                   "displacment_l": 2}}, "powertrain.willans.displacment_l", "did you mean"),
     ({"willans": None}, "powertrain", "engine model"),
+    ({"min_pulling_speed_rpm": 700}, "powertrain.min_pulling_speed_rpm", "idle_speed_rpm"),
+    ({"min_pulling_speed_rpm": 6000}, "powertrain.min_pulling_speed_rpm", "rev_limit_rpm"),
+    ({"accessory_power_kw": -0.2}, "powertrain.accessory_power_kw", "at least 0"),
+    ({"accessory_power_kw": "half"}, "powertrain.accessory_power_kw", "number"),
     ({"willans": None, "bsfc_map": {"speed_rpm": [1000, 2000], "torque_nm": [10, 50],
                                     "bsfc_g_per_kwh": [[300, 280]]}},
      "powertrain.bsfc_map.bsfc_g_per_kwh", "2 rows"),

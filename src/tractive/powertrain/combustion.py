@@ -2,34 +2,50 @@
 
 For every interval of a profile (wheel force F [N] at mean speed v [m/s]) and
 for every gear g at once (a leading gear axis), the engine speed is
-ω_g = v·i_g·i_fd / r and, while pulling, the engine torque is
-T_g = F·r / (i_g·i_fd·η_t). Below idle speed the clutch slips: the engine
-runs at idle speed and passes the same torque. The gear used is chosen by the
-shift rule:
+ω_g = v·i_g·i_fd / r. The engine's brake torque is the wheel side plus the
+accessories, which take P_acc [W] from the crankshaft whenever the engine runs:
+
+* pulling (F > 0): T_g = F·r / (i_g·i_fd·η_t) + P_acc/ω. In first gear below
+  the lowest pulling speed the clutch slips: the engine holds that speed and
+  passes the same torque (a launch). A higher gear below it lugs the engine;
+* overrun (F ≤ 0, clutch engaged): the vehicle drives the engine,
+  T_g = F·r·η_t / (i_g·i_fd) + P_acc/ω;
+* clutch open (standstill, or not pulling below idle speed): idle speed,
+  torque P_acc/ω_idle.
+
+The gear used is chosen by the shift rule:
 
 * ``speeds``: upshift at fixed vehicle speeds (gear = number of upshift
-  speeds at or below v, plus one);
+  speeds at or below v, plus one); while pulling, a gear that would lug the
+  engine is replaced by the highest gear that does not (first gear slipping
+  when none does);
 * ``efficient``: the gear with the lowest fuel rate among those that keep the
-  engine between idle and rev limit and (with a full-load curve) can deliver
-  the torque; when no gear can, the gear that comes closest.
+  engine at or above the lowest pulling speed while pulling (idle otherwise),
+  below the rev limit and (with a full-load curve) can deliver the torque;
+  when no gear can, the gear that comes closest.
 
 Fuel rate, two engine models:
 
 * **Willans line**: the brake mean effective pressure is a linear function of
   the fuel mean effective pressure, p_me = e·p_mf − p_me0; in power form
   P_e = e·ṁ_f·H_l − P_0 with P_0 = p_me0·V_d·ω/(4π) for a four-stroke engine
-  (or a constant friction power), so ṁ_f = (P_e + P_0) / (e·H_l).
+  (or a constant friction power), so ṁ_f = (P_e + P_0) / (e·H_l), zero for
+  P_e ≤ −P_0 (the engine motored).
 * **BSFC map**: brake-specific fuel consumption b [g/kWh] over engine speed
   and torque, turned into a fuel-rate table ṁ = b·T·ω on the map's grid and
   interpolated bilinearly (fuel rate, unlike b, stays finite and nearly linear
   in torque). Below the lowest mapped torque the fuel rate is extended
-  linearly in torque to zero torque (the Willans line at that speed, from the
-  two lowest rows); above the highest torque the top row's b is used.
+  linearly in torque (the Willans line at that speed, from the two lowest
+  rows) to zero torque and on below it, clipped at zero fuel; above the
+  highest torque the top row's b is used.
 
-Overrun (wheel force ≤ 0 while moving, clutch engaged): no fuel with fuel
-cut-off, else the zero-torque fuel rate at that engine speed. Clutch open
-(standstill, or braking below the speed where first gear reaches idle): the
-idle fuel rate, or nothing at standstill with ``engine_off_at_rest``.
+Overrun with fuel cut-off: the engine model at the (negative) overrun torque,
+so no fuel where the braking power at the crankshaft covers friction and
+accessories, and the Willans-line fuel where it does not; without cut-off at
+least the zero-load rate with the accessories, ṁ(ω, P_acc/ω). Clutch open:
+the idle fuel rate (a given idle rate plus the accessories' cost at idle from
+the engine model), or nothing at standstill with ``engine_off_at_rest`` (the
+engine then charges the standstill accessory energy back while it runs).
 
 References
 ----------
@@ -56,7 +72,14 @@ from ._common import STANDSTILL_MS, col, plain, range_from, safe_divide
 from .drive import (RPM_RADS, FullLoadCurve, Gearing, parse_full_load, parse_gear_ratios,
                     rads_to_rpm)
 from .fuels import Fuel, get_fuel
-from .maps import SpeedTorqueMap, parse_speed_torque_map
+from .maps import SpeedTorqueMap, bilinear, parse_speed_torque_map
+
+#: default lowest engine speed while pulling in gear, as a multiple of idle speed [-]
+#: (common practice: drivers and shift programs keep clear of lugging)
+MIN_PULLING_SPEED_IDLE_FACTOR = 1.5
+#: default accessory power at the crankshaft [W] (common practice: about 0.25 kW of
+#: electrical load through an alternator of about 60 % efficiency, no air conditioning)
+DEFAULT_ACCESSORY_POWER_W = 400.0
 
 
 # ---------------------------------------------------------------------------
@@ -129,9 +152,13 @@ class WillansEngine:
                                         speed_rads)
 
     def fuel_rate_kg_s(self, speed_rads, torque_nm):
-        """Fuel rate [kg/s] at engine speed [rad/s] and torque [N m] (torque ≥ 0)."""
+        """Fuel rate [kg/s] at engine speed [rad/s] and brake torque [N m].
+
+        A negative torque (the engine motored by the vehicle) follows the same
+        line, ṁ = (T·ω + P_0) / (e·H_l), down to zero fuel at T·ω = −P_0.
+        """
         w = np.asarray(speed_rads, float)
-        p = np.maximum(np.asarray(torque_nm, float), 0.0) * w
+        p = np.asarray(torque_nm, float) * w
         return willans_fuel_rate_kg_s(p, self.friction_power(w), col(self.marginal_efficiency),
                                       self.lhv_j_per_kg)
 
@@ -175,19 +202,22 @@ class BsfcEngine:
         return cls(bsfc, np.concatenate([[0.0], t]), np.vstack([zero_row, rate]))
 
     def fuel_rate_kg_s(self, speed_rads, torque_nm):
-        """Fuel rate [kg/s] at engine speed [rad/s] and torque [N m] (torque ≥ 0).
+        """Fuel rate [kg/s] at engine speed [rad/s] and brake torque [N m].
 
         Speeds outside the map are held at its edge; torque above the top row
-        uses the top row's specific consumption.
+        uses the top row's specific consumption. Below zero torque (the engine
+        motored by the vehicle) the line through the zero-torque row and the
+        lowest mapped row is continued, clipped at zero fuel.
         """
-        from .maps import bilinear
-
         n = rads_to_rpm(speed_rads)
-        t = np.maximum(np.asarray(torque_nm, float), 0.0)
+        t = np.asarray(torque_nm, float)
         t_top = self.torque_grid_nm[-1]
         base = bilinear(self.bsfc.speed_rpm, self.torque_grid_nm, self.fuel_rate_grid_kg_s, n,
-                        np.minimum(t, t_top))
-        return np.where(t > t_top, base * t / t_top, base)
+                        np.clip(t, 0.0, t_top))
+        grid = self.fuel_rate_grid_kg_s
+        slope = (grid[1] - grid[0]) / self.torque_grid_nm[1]          # kg/s per N m, (S,)
+        below = base + np.interp(n, self.bsfc.speed_rpm, slope) * np.minimum(t, 0.0)
+        return np.where(t > t_top, base * t / t_top, np.maximum(below, 0.0))
 
     def to_dict(self) -> dict:
         out = {"model": self.model}
@@ -204,7 +234,10 @@ class CombustionResult:
     """Fuel, CO2 and tank range of a combustion vehicle on one profile.
 
     Values are floats, or arrays of shape (N,) for a vehicle axis. Volume
-    results are None for a fuel sold by mass (CNG).
+    results are None for a fuel sold by mass (CNG). ``accessory_energy_kwh``
+    is the work the accessories took from the crankshaft [kWh] (accessory
+    power × profile duration; with the engine stopped at rest the engine
+    charges the standstill share back while it runs).
     """
 
     profile: str
@@ -217,6 +250,7 @@ class CombustionResult:
     tank_kg: float | None
     positive_wheel_energy_kwh: object
     engine_limit_exceeded_s: object
+    accessory_energy_kwh: object = None
 
     kind = "combustion"
 
@@ -299,6 +333,7 @@ class CombustionResult:
             "range_km": plain(self.range_km),
             "tank_to_wheel_efficiency": plain(self.tank_to_wheel_efficiency),
             "engine_limit_exceeded_s": plain(self.engine_limit_exceeded_s),
+            "accessory_energy_kwh": plain(self.accessory_energy_kwh),
         }
 
 
@@ -329,11 +364,18 @@ class CombustionPowertrain:
     engine_off_at_rest : bool
         Engine stops at standstill (stop-start).
     idle_fuel_kg_s : float or None
-        Idle fuel rate [kg/s]; None to take it from the engine model at idle.
+        Idle fuel rate [kg/s] without accessory load; None to take it from the
+        engine model at idle speed and zero torque.
     full_load : FullLoadCurve or None
         Full-load torque (gear feasibility, performance).
     tank_l, tank_kg : float or None
         Tank size [L] (liquid fuels) or [kg] (CNG).
+    min_pulling_speed_rpm : float, (N,) array or None
+        Lowest engine speed while the engine pulls in gear [rpm]; None for
+        :data:`MIN_PULLING_SPEED_IDLE_FACTOR` × idle speed.
+    accessory_power_w : float or (N,) array
+        Mechanical power the accessories take from the crankshaft while the
+        engine runs [W].
     """
 
     fuel: Fuel
@@ -349,16 +391,40 @@ class CombustionPowertrain:
     full_load: FullLoadCurve | None = None
     tank_l: float | None = None
     tank_kg: float | None = None
+    min_pulling_speed_rpm: object = None
+    accessory_power_w: object = DEFAULT_ACCESSORY_POWER_W
 
     kind = "combustion"
 
-    def idle_fuel_rate_kg_s(self):
-        """Fuel rate at idle with the clutch open [kg/s]."""
-        if self.idle_fuel_kg_s is not None:
-            return col(self.idle_fuel_kg_s)
-        return self.engine.fuel_rate_kg_s(self.idle_speed_rpm * RPM_RADS, 0.0)
+    @property
+    def pulling_speed_floor_rpm(self):
+        """Lowest engine speed while pulling in gear [rpm] (default resolved)."""
+        if self.min_pulling_speed_rpm is not None:
+            return np.asarray(self.min_pulling_speed_rpm, float)
+        return np.asarray(min(MIN_PULLING_SPEED_IDLE_FACTOR * self.idle_speed_rpm,
+                              self.rev_limit_rpm), float)
 
-    def operation(self, force_n, speed_ms) -> dict:
+    def idle_fuel_rate_kg_s(self, accessory_power_w=None):
+        """Fuel rate at idle with the clutch open [kg/s], accessories included.
+
+        With a given idle fuel rate the accessories add what the engine model
+        says they cost at idle speed, ṁ(ω_idle, P_acc/ω_idle) − ṁ(ω_idle, 0).
+
+        Parameters
+        ----------
+        accessory_power_w : float or array, optional
+            Accessory power [W], already shaped to broadcast with the result
+            (``(N, 1)`` per vehicle); default ``self.accessory_power_w``.
+        """
+        w_idle = self.idle_speed_rpm * RPM_RADS
+        p_acc = (col(self.accessory_power_w) if accessory_power_w is None
+                 else np.asarray(accessory_power_w, float))
+        with_acc = self.engine.fuel_rate_kg_s(w_idle, p_acc / w_idle)
+        if self.idle_fuel_kg_s is None:
+            return with_acc
+        return col(self.idle_fuel_kg_s) + with_acc - self.engine.fuel_rate_kg_s(w_idle, 0.0)
+
+    def operation(self, force_n, speed_ms, *, accessory_scale=1.0) -> dict:
         """Gear, engine speed and torque, and fuel rate per interval.
 
         Parameters
@@ -367,17 +433,22 @@ class CombustionPowertrain:
             Wheel force [N].
         speed_ms : array (T,)
             Mean speed [m/s].
+        accessory_scale : float, optional
+            Factor on the accessory power while the engine runs [-] (used to
+            recharge, while running, what the accessories drew with the engine
+            stopped).
 
         Returns
         -------
         dict of arrays shaped like the broadcast of the inputs: ``gear``
-        (1-based, 0 at standstill), ``engine_speed_rads``, ``engine_torque_nm``,
-        ``fuel_kg_s``, ``idle`` (clutch open), ``over_limit`` (demand beyond the
-        engine's full load or rev limit).
+        (1-based, 0 at standstill), ``engine_speed_rads``, ``engine_torque_nm``
+        (brake torque, accessories included), ``fuel_kg_s``, ``idle`` (clutch
+        open), ``over_limit`` (demand beyond the engine's full load or rev limit).
         """
         f, v = np.broadcast_arrays(np.asarray(force_n, float), np.asarray(speed_ms, float))
         # parameters given per vehicle (N,) add a vehicle axis even to a plain demand
-        params = [self.gearing.efficiency, self.idle_fuel_kg_s,
+        params = [self.gearing.efficiency, self.idle_fuel_kg_s, self.min_pulling_speed_rpm,
+                  self.accessory_power_w, accessory_scale,
                   getattr(self.engine, "marginal_efficiency", None),
                   getattr(self.engine, "friction_mep_pa", None),
                   getattr(self.engine, "friction_power_w", None)]
@@ -387,23 +458,38 @@ class CombustionPowertrain:
             f, v = np.broadcast_to(f, shape), np.broadcast_to(v, shape)
         gr = self.gearing
         n_g = gr.n_gears
-        ratios = gr.overall_ratios.reshape((n_g,) + (1,) * f.ndim)
+        gear_axis = (n_g,) + (1,) * f.ndim
+        ratios = gr.overall_ratios.reshape(gear_axis)
+        first = (np.arange(n_g) == 0).reshape(gear_axis)
         eta = col(gr.efficiency)
-        w_gear = v * ratios / gr.tyre_radius_m                     # (G, ...)
+        r = gr.tyre_radius_m
+        w_gear = v * ratios / r                                    # (G, ...)
         w_idle = self.idle_speed_rpm * RPM_RADS
         w_max = self.rev_limit_rpm * RPM_RADS
+        w_pull_min = col(self.pulling_speed_floor_rpm) * RPM_RADS
+        p_acc = col(self.accessory_power_w) * col(accessory_scale)
         moving = v > STANDSTILL_MS
         pulling = moving & (f > 0)
-        slip = w_gear < w_idle
-        w_eng = np.maximum(w_gear, w_idle)
-        t_pull = np.maximum(f, 0.0) * gr.tyre_radius_m / (ratios * eta)
-        idle_rate = self.idle_fuel_rate_kg_s()
-        fuel_pull = self.engine.fuel_rate_kg_s(w_eng, t_pull)
-        if self.fuel_cutoff:
-            fuel_over = np.where(slip, idle_rate, 0.0)
-        else:
-            fuel_over = np.where(slip, idle_rate, self.engine.fuel_rate_kg_s(w_eng, 0.0))
-        fuel_g = np.where(pulling, fuel_pull, fuel_over)
+        # pulling: first gear slips the clutch below the lowest pulling speed (the engine
+        # holds that speed); a higher gear below it lugs (not feasible) and slips only
+        # below idle. Not pulling: the clutch opens below idle and the engine idles.
+        w_pull = np.where(first, np.maximum(w_gear, w_pull_min), np.maximum(w_gear, w_idle))
+        w_over = np.maximum(w_gear, w_idle)
+        slip_over = w_gear < w_idle
+        w_eng = np.where(pulling, w_pull, w_over)
+        t_wheel = f * r / ratios
+        t_acc_over = p_acc / w_over
+        t_pull = np.maximum(t_wheel, 0.0) / eta + p_acc / w_pull
+        t_over = np.minimum(t_wheel, 0.0) * eta + t_acc_over   # motored: wheel power × η
+        idle_rate = self.idle_fuel_rate_kg_s(p_acc)
+        # overrun in gear: with cut-off, fuel only where the overrun power does not cover
+        # friction and accessories (the engine line continued below zero torque, clipped at
+        # zero); without cut-off at least the zero-load rate with the accessories
+        t_fuel = np.where(pulling, t_pull, t_over if self.fuel_cutoff else t_acc_over)
+        fuel_engaged = self.engine.fuel_rate_kg_s(w_eng, t_fuel)
+        fuel_g = np.where(~pulling & slip_over, idle_rate, fuel_engaged)
+        t_idle = p_acc / w_idle                           # clutch open: accessories only
+        t_eng = np.where(pulling, t_pull, np.where(slip_over, t_idle, t_over))
         if self.full_load is not None:
             t_max = self.full_load.max_torque_nm(w_eng)
             torque_ok = ~pulling | (t_pull <= t_max * (1 + 1e-9))
@@ -413,16 +499,21 @@ class CombustionPowertrain:
             torque_ok = np.ones(w_gear.shape, bool)
             torque_excess = np.zeros(w_gear.shape)
         rev_ok = w_gear <= w_max * (1 + 1e-12)
-        first = (np.arange(n_g) == 0).reshape((n_g,) + (1,) * f.ndim)
-        low_ok = ~slip | first
+        # lowest engine speed in gear: the pulling floor while pulling, idle otherwise
+        w_floor = np.where(pulling, w_pull_min, w_idle)
+        low_ok = first | (w_gear >= w_floor * (1 - 1e-12))
         over_g = ~(rev_ok & torque_ok)
         if self.shift_rule == "speeds":
             g = np.searchsorted(np.asarray(self.upshift_speeds_ms, float), v, side="right")
             g = np.minimum(g, n_g - 1)
+            # while pulling, never below the pulling floor: the highest gear that keeps the
+            # engine at or above it (first gear slips the clutch when none does)
+            n_ok = np.sum(w_gear >= w_pull_min * (1 - 1e-12), axis=0)
+            g = np.where(pulling, np.minimum(g, np.maximum(n_ok - 1, 0)), g)
         else:
             feasible = rev_ok & low_ok & torque_ok
             penalty = (np.maximum(w_gear / w_max - 1.0, 0.0)
-                       + np.where(first, 0.0, np.maximum(1.0 - w_gear / w_idle, 0.0))
+                       + np.where(first, 0.0, np.maximum(1.0 - w_gear / w_floor, 0.0))
                        + torque_excess)
             # ties (e.g. fuel cut-off in every gear) go to the lowest engine speed
             cost = np.where(feasible, fuel_g, 1.0e6 + penalty) + 1e-15 * w_eng
@@ -434,14 +525,12 @@ class CombustionPowertrain:
 
         fuel = pick(fuel_g)
         w_sel = pick(w_eng)
-        t_sel = np.where(pulling, pick(t_pull),
-                         f * gr.tyre_radius_m * eta / pick(np.broadcast_to(ratios,
-                                                                           w_gear.shape)))
-        idle = ~moving | (pick(slip) & ~pulling)
+        t_sel = pick(t_eng)
+        idle = ~moving | (pick(slip_over) & ~pulling)
         rest_rate = 0.0 if self.engine_off_at_rest else idle_rate
         fuel = np.where(moving, fuel, rest_rate)
         w_sel = np.where(moving, w_sel, 0.0 if self.engine_off_at_rest else w_idle)
-        t_sel = np.where(moving, t_sel, 0.0)
+        t_sel = np.where(moving, t_sel, 0.0 if self.engine_off_at_rest else t_idle)
         over = moving & pick(over_g)
         gear = np.where(moving, g + 1, 0)
         return {"gear": gear, "engine_speed_rads": w_sel, "engine_torque_nm": t_sel,
@@ -451,17 +540,27 @@ class CombustionPowertrain:
         """Fuel, CO2 and tank range on one profile (demand of shape (T-1,) or (N, T-1))."""
         iv = demand.intervals
         dt = np.asarray(iv.dt_s, float)
-        op = self.operation(demand.force_n, iv.speed_ms)
+        duration = float(np.sum(dt))
+        running_s = duration
+        if self.engine_off_at_rest:
+            # with the engine stopped the accessories run from the battery; the engine
+            # charges that energy back while it runs (charging losses not modelled)
+            running_s = float(np.sum(np.where(np.asarray(iv.speed_ms) > STANDSTILL_MS, dt,
+                                              0.0)))
+        scale = duration / running_s if running_s > 0 else 1.0
+        op = self.operation(demand.force_n, iv.speed_ms, accessory_scale=scale)
         fuel_kg = np.sum(op["fuel_kg_s"] * dt, axis=-1)
+        acc_kwh = np.asarray(self.accessory_power_w, float) * (
+            duration if running_s > 0 else 0.0) / KWH_J
         idle_kg = np.sum(np.where(op["idle"], op["fuel_kg_s"], 0.0) * dt, axis=-1)
         over_s = np.sum(np.where(op["over_limit"], dt, 0.0), axis=-1)
         name = getattr(profile, "name", None) or demand.profile
         return CombustionResult(
             profile=name, fuel=self.fuel, distance_km=demand.distance_m / 1000.0,
-            duration_s=float(np.sum(dt)), fuel_kg=fuel_kg, idle_fuel_kg=idle_kg,
+            duration_s=duration, fuel_kg=fuel_kg, idle_fuel_kg=idle_kg,
             tank_l=self.tank_l, tank_kg=self.tank_kg,
             positive_wheel_energy_kwh=np.asarray(demand.positive_energy_j) / KWH_J,
-            engine_limit_exceeded_s=over_s)
+            engine_limit_exceeded_s=over_s, accessory_energy_kwh=acc_kwh)
 
     def steady(self, vehicle, speed_ms, **_) -> dict:
         """Consumption at constant speeds on a level road, no wind.
@@ -498,6 +597,8 @@ class CombustionPowertrain:
                "upshift_speeds_kmh": [s / KMH_MS for s in self.upshift_speeds_ms] or None,
                "fuel_cutoff": self.fuel_cutoff, "engine_off_at_rest": self.engine_off_at_rest,
                "idle_fuel_kg_per_h": plain(np.squeeze(self.idle_fuel_rate_kg_s()) * 3600.0),
+               "min_pulling_speed_rpm": plain(self.pulling_speed_floor_rpm),
+               "accessory_power_kw": plain(np.asarray(self.accessory_power_w, float) / 1000.0),
                "full_load": None if self.full_load is None else self.full_load.to_dict()}
         out.update(self.gearing.to_dict())
         out["transmission_efficiency"] = out.pop("driveline_efficiency")
@@ -539,6 +640,18 @@ def parse_combustion(sec: Section) -> CombustionPowertrain:
     if full_load is not None and full_load.speed_rpm[0] > idle + 1e-9:
         raise sec.error(f"full_load must start at or below idle_speed_rpm ({idle:g} rpm); "
                         f"it starts at {full_load.speed_rpm[0]:g} rpm", "full_load")
+    pull_default = min(MIN_PULLING_SPEED_IDLE_FACTOR * idle, rev)
+    pull_min = sec.number("min_pulling_speed_rpm", required=False, default=pull_default,
+                          min=0.0, unit="rpm")
+    if pull_min < idle:
+        raise sec.error(f"must be at least idle_speed_rpm ({idle:g} rpm), got {pull_min:g}",
+                        "min_pulling_speed_rpm")
+    if sec.has("min_pulling_speed_rpm") and pull_min >= rev:
+        raise sec.error(f"must be below rev_limit_rpm ({rev:g} rpm), got {pull_min:g}",
+                        "min_pulling_speed_rpm")
+    acc_w = 1000.0 * sec.number("accessory_power_kw", required=False,
+                                default=DEFAULT_ACCESSORY_POWER_W / 1000.0, min=0.0, max=50.0,
+                                unit="kW")
     # shift rule
     rule = sec.string("shift_rule", required=False, choices=("efficient", "speeds"),
                       default="speeds" if sec.has("upshift_speeds_kmh") else "efficient")
@@ -592,7 +705,8 @@ def parse_combustion(sec: Section) -> CombustionPowertrain:
         fuel=fuel, engine=engine, gearing=gearing, idle_speed_rpm=idle, rev_limit_rpm=rev,
         shift_rule=rule, upshift_speeds_ms=upshift, fuel_cutoff=cutoff,
         engine_off_at_rest=off_at_rest, idle_fuel_kg_s=idle_kg_s, full_load=full_load,
-        tank_l=tank_l, tank_kg=tank_kg)
+        tank_l=tank_l, tank_kg=tank_kg, min_pulling_speed_rpm=pull_min,
+        accessory_power_w=acc_w)
 
 
 def _parse_willans(sec: Section, fuel: Fuel) -> WillansEngine:

@@ -43,7 +43,7 @@ def bilinear(x_grid, y_grid, table, x, y):
     xg = np.asarray(x_grid, float)
     yg = np.asarray(y_grid, float)
     zf = np.ascontiguousarray(table, dtype=float).ravel()
-    nx, ny = len(xg), len(yg)
+    nx = len(xg)
     x, y = np.broadcast_arrays(np.asarray(x, float), np.asarray(y, float))
     shape = x.shape
     x, y = x.reshape(-1), y.reshape(-1)
