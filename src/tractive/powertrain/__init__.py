@@ -6,8 +6,8 @@ A vehicle file's ``powertrain:`` block chooses a model with ``kind``:
   (battery, drive efficiency or motor map, regenerative braking, auxiliaries,
   charging);
 * ``combustion`` — :class:`~tractive.powertrain.combustion.CombustionPowertrain`
-  (fuel table, Willans line or BSFC map, gears and shift rule, idle, fuel
-  cut-off).
+  (fuel table, Willans line or BSFC map, gears and shift rule with a lowest
+  pulling speed, accessory load, idle, fuel cut-off).
 
 Both have ``consume(vehicle, demand, profile)`` returning a result with
 ``to_dict()``, ``steady(vehicle, speed_ms)`` for constant-speed consumption,
