@@ -213,7 +213,7 @@ def test_stored_doubles_keep_every_digit(tmp_path):
                       change={key: var_v - base_v}, change_pct={key: 100 * (var_v - base_v) /
                                                                 base_v}))
     res = StudyResult("s", "s.yaml", "metric", "EUR", rows)
-    out = write_workbook(res, tmp_path / "r.xlsx", range_curves={})
+    out = write_workbook(res, tmp_path / "r.xlsx")
     ws = openpyxl.load_workbook(out)["All results"]
     values = {(r[1].value, r[16].value): (r[4].value, r[5].value)
               for r in ws.iter_rows(min_row=2)}
@@ -254,7 +254,7 @@ def test_attribution_parts_add_up_and_equal_the_change(case):
 
 
 def test_time_series_equal_json_and_power_is_force_times_speed(case):
-    result, wb = case["result"], case["wb"]
+    wb = case["wb"]
     series = {(s["variant"], s["profile"]): s for s in case["json"]["series"]}
     sheet_of = {"udds": "Profile udds", "=1+1": "Profile =1+1"}
     for profile, title in sheet_of.items():
@@ -364,18 +364,88 @@ def test_range_sheet_in_us_units(tmp_path):
     assert any("no time series" in n for n in notes)
 
 
-def test_range_chart_left_out_when_the_files_changed_after_the_run(tmp_path):
+def test_range_sheet_comes_from_the_result_alone(tmp_path):
+    # the workbook draws what the study computed: changing or removing the input files
+    # after the run changes nothing in it
     study = _study(tmp_path)
     res = run_study(study, draws=0, series=False)
+    before = _range_columns(build_workbook(res)["Range vs speed"])
     (tmp_path / "ev.yaml").write_text(EV.replace("mass_kg: 1800", "mass_kg: 1900"),
                                       encoding="utf-8")
-    wb = build_workbook(res)
-    assert "Range vs speed" not in wb.sheetnames
-    notes = [c.value for c in wb["Study"]["A"] if isinstance(c.value, str)]
-    assert any(n.startswith("range against speed not drawn") for n in notes)
+    study.unlink()
+    after = _range_columns(build_workbook(res)["Range vs speed"])
+    assert before[0] == after[0]
+    np.testing.assert_array_equal(before[1], after[1])
+    for name, (rng, per) in before[2].items():
+        np.testing.assert_array_equal(after[2][name][0], rng)
+        np.testing.assert_array_equal(after[2][name][1], per)
+    # and the sheet holds exactly the result's range curves (JSON numbers)
+    data = json.loads(json.dumps(res.to_dict()))
+    for curve in data["range_curves"]:
+        rng, per = before[2][curve["variant"]]
+        ok = np.array(curve["feasible"])
+        np.testing.assert_array_equal(rng[ok], np.array(curve["range_km"])[ok])
+        np.testing.assert_array_equal(per[ok], np.array(curve["battery_wh_per_km"])[ok])
+        assert np.all(np.isnan(rng[~ok]))
 
 
-def test_no_range_sheet_without_an_electric_powertrain(tmp_path):
+DIESEL = """\
+name: small diesel
+mass_kg: 1500
+road_load:
+  cda_m2: 0.65
+  crr: 0.009
+powertrain:
+  kind: combustion
+  fuel: diesel
+  tank_l: 50
+  gear_ratios: [3.8, 2.1, 1.3, 0.95, 0.75]
+  final_drive_ratio: 3.7
+  tyre_radius_m: 0.31
+  transmission_efficiency: 0.93
+  idle_speed_rpm: 800
+  rev_limit_rpm: 4500
+  upshift_speeds_kmh: [18, 32, 50, 70]
+  willans:
+    marginal_efficiency: 0.40
+    friction_mep_kpa: 120
+    displacement_l: 1.6
+  idle_fuel_l_per_h: 0.6
+"""
+
+
+def test_range_sheet_of_a_combustion_study(tmp_path):
+    # tank range = tank / fuel per km (definition): range × L/100 km / 100 = 50 L
+    from tractive.powertrain import range_curve
+
+    text = """\
+name: diesel
+baseline:
+  vehicle: ev.yaml
+modifications:
+  - name: roof box
+    changes: {cda_m2: +0.15, mass_kg: +20}
+driving:
+  profiles: [udds]
+uncertainty:
+  draws: 0
+"""
+    res = run_study(_study(tmp_path, text, DIESEL), series=False)
+    ws = build_workbook(res)["Range vs speed"]
+    heads, speed, curves = _range_columns(ws)
+    assert heads[1:3] == ["range [km]", "fuel [L/100 km]"]
+    assert set(curves) == {"baseline", "roof box"}
+    for rng, per in curves.values():
+        ok = ~np.isnan(rng)
+        assert ok.sum() > 20
+        np.testing.assert_allclose(rng[ok] * per[ok] / 100.0, 50.0, rtol=1e-12)
+    ref = range_curve(load_vehicle(tmp_path / "ev.yaml"), speed)
+    np.testing.assert_array_equal(curves["baseline"][0],
+                                  np.where(ref.feasible, ref.range_km, np.nan))
+    assert np.all(curves["roof box"][0][ok] < curves["baseline"][0][ok])
+
+
+def test_no_range_sheet_without_a_powertrain(tmp_path):
     plain = "name: plain car\nmass_kg: 1400\nroad_load:\n  cda_m2: 0.62\n  crr: 0.010\n"
     text = """\
 name: no powertrain
@@ -526,11 +596,19 @@ def test_inputs_sheet_echoes_every_input(case):
 # ---------------------------------------------------------------------------
 
 def test_written_atomically_with_usual_permissions(case, tmp_path):
-    out = write_workbook(case["result"], tmp_path / "sub" / "r.xlsx", range_curves={})
-    assert sorted(p.name for p in out.parent.iterdir()) == ["r.xlsx"]
-    mask = os.umask(0)
-    os.umask(mask)
-    assert stat.S_IMODE(out.stat().st_mode) == 0o666 & ~mask
+    # POSIX: a new file gets mode 0o666 & ~umask (what open(..., "w") gives); a replaced
+    # file keeps its own permission bits
+    old = os.umask(0o027)
+    try:
+        out = write_workbook(case["result"], tmp_path / "sub" / "r.xlsx")
+        assert sorted(p.name for p in out.parent.iterdir()) == ["r.xlsx"]
+        assert stat.S_IMODE(out.stat().st_mode) == 0o640
+        os.chmod(out, 0o604)
+        write_workbook(case["result"], out)
+        assert stat.S_IMODE(out.stat().st_mode) == 0o604
+        assert openpyxl.load_workbook(out).sheetnames[0] == "Summary"
+    finally:
+        os.umask(old)
 
 
 @pytest.mark.parametrize("exc", [OSError("disk full"), RuntimeError("broken")])
@@ -545,12 +623,12 @@ def test_failed_write_leaves_no_temp_file_and_keeps_the_old_target(case, tmp_pat
 
     monkeypatch.setattr(openpyxl.Workbook, "save", failing_save)
     with pytest.raises(InputError if isinstance(exc, OSError) else RuntimeError):
-        write_workbook(case["result"], target, range_curves={})
+        write_workbook(case["result"], target)
     assert target.read_bytes() == b"old content"
     assert [p.name for p in tmp_path.iterdir()] == ["r.xlsx"]
     fresh = tmp_path / "new.xlsx"
     with pytest.raises(InputError if isinstance(exc, OSError) else RuntimeError):
-        write_workbook(case["result"], fresh, range_curves={})
+        write_workbook(case["result"], fresh)
     assert not fresh.exists() and [p.name for p in tmp_path.iterdir()] == ["r.xlsx"]
 
 
@@ -558,7 +636,7 @@ def test_refuses_to_overwrite_an_input(case):
     study = case["study"]
     before = study.read_bytes()
     with pytest.raises(InputError) as err:
-        write_workbook(case["result"], study, inputs=[study], range_curves={})
+        write_workbook(case["result"], study, inputs=[study])
     assert "input" in err.value.message
     assert study.read_bytes() == before
     # the same file reached through a link is refused too
@@ -566,7 +644,7 @@ def test_refuses_to_overwrite_an_input(case):
     link.symlink_to(study)
     try:
         with pytest.raises(InputError):
-            write_workbook(case["result"], link, inputs=[study], range_curves={})
+            write_workbook(case["result"], link, inputs=[study])
     finally:
         link.unlink()
     assert study.read_bytes() == before

@@ -352,3 +352,251 @@ def test_whole_vehicle_modification(tmp_path):
     assert change == pytest.approx(expected, rel=1e-12)
     parts = [a for a in res.attribution if a.metric == "positive_energy_wh_per_km"][0].parts
     assert set(parts) == {"rolling", "mass"}
+
+
+# ---------------------------------------------------------------------------
+# range against constant speed, in the result
+# ---------------------------------------------------------------------------
+
+def test_range_curves_in_the_result_equal_the_powertrain_sweep(ev_result):
+    from dataclasses import replace
+
+    from tractive.powertrain import range_curve
+    from tractive.vehicle import load_vehicle
+
+    folder = Path(ev_result.source).parent
+    curves = {c.variant: c for c in ev_result.range_curves}
+    assert list(curves) == [v.name for v in ev_result.variants]
+    veh = load_vehicle(folder / "ev.yaml")
+    speeds = np.arange(10.0, 161.0, 5.0)
+    # the baseline curve is the unmodified vehicle file swept through the public API
+    ref = range_curve(veh, speeds)
+    base = curves["baseline"]
+    assert base.speed_key == "speed_kmh" and base.consumption_key == "battery_wh_per_km"
+    np.testing.assert_array_equal(base.columns["speed_kmh"], speeds)
+    np.testing.assert_array_equal(base.columns["range_km"], ref.range_km)
+    np.testing.assert_array_equal(base.columns["battery_wh_per_km"],
+                                  ref.columns["battery_wh_per_km"])
+    assert base.best["best_speed_kmh"] == ref.best_speed_kmh
+    # range = usable battery energy / consumption per km (definition of range): 60 kWh,
+    # and 60 + 15 kWh where the pack grows
+    for name, usable in (("baseline", 60.0), ("bigger pack", 75.0), ("everything", 75.0),
+                         ("rack", 60.0)):
+        c = curves[name]
+        np.testing.assert_allclose(c.columns["range_km"] * c.columns["battery_wh_per_km"]
+                                   / 1000.0, usable, rtol=1e-12)
+    # the charger efficiency 0.9 relates wall and battery energy
+    np.testing.assert_allclose(base.columns["wall_wh_per_km"] * 0.9,
+                               base.columns["battery_wh_per_km"], rtol=1e-12)
+    # a modified variant is its nominal vehicle: rack = CdA + 0.1, mass + 12 kg
+    rack = replace(veh, mass_kg=1812.0,
+                   road_load=replace(veh.road_load, cda_m2=veh.road_load.cda_m2 + 0.1))
+    np.testing.assert_allclose(curves["rack"].columns["range_km"],
+                               range_curve(rack, speeds).range_km, rtol=1e-12)
+    # in the JSON, under range_curves, with their unit keys
+    data = json.loads(json.dumps(ev_result.to_dict()))
+    j = data["range_curves"][0]
+    assert j["variant"] == "baseline" and j["powertrain"] == "electric"
+    assert j["range_km"] == ref.range_km.tolist() and j["speed_kmh"] == speeds.tolist()
+    assert j["best_range_km"] == ref.best_range_km
+
+
+def test_range_curves_in_us_units(tmp_path):
+    # exact factors: 1 mile = 1609.344 m, 1 mph = 0.44704 m/s (NIST SP 811, Appendix B)
+    from tractive.powertrain import range_curve
+    from tractive.vehicle import load_vehicle
+
+    text = EV_STUDY.replace("name: ev study", "name: us\nunits: us")
+    res = run_study(_write(tmp_path, {"ev.yaml": EV, "study.yaml": text}), draws=0,
+                    series=False)
+    c = res.range_curves[0]
+    assert list(c.columns)[:3] == ["speed_mph", "range_mi", "battery_wh_per_mi"]
+    mph = c.columns["speed_mph"]
+    np.testing.assert_allclose(mph, np.arange(5.0, 100.1, 2.5), rtol=1e-12)
+    ref = range_curve(load_vehicle(tmp_path / "ev.yaml"), mph * 0.44704 * 3.6)
+    np.testing.assert_allclose(c.columns["range_mi"], ref.range_km * 1000 / 1609.344,
+                               rtol=1e-12)
+    # mi × Wh/mi = Wh: the usable energy in any unit of distance
+    np.testing.assert_allclose(c.columns["range_mi"] * c.columns["battery_wh_per_mi"] / 1000,
+                               60.0, rtol=1e-12)
+    assert c.best["best_speed_mph"] == pytest.approx(ref.best_speed_kmh / 1.609344, rel=1e-12)
+    assert set(c.to_dict()) >= {"speed_mph", "range_mi", "best_range_mi", "feasible"}
+
+
+DIESEL = """\
+name: small diesel
+mass_kg: 1500
+road_load:
+  cda_m2: 0.65
+  crr: 0.009
+powertrain:
+  kind: combustion
+  fuel: diesel
+  tank_l: 50
+  gear_ratios: [3.8, 2.1, 1.3, 0.95, 0.75]
+  final_drive_ratio: 3.7
+  tyre_radius_m: 0.31
+  transmission_efficiency: 0.93
+  idle_speed_rpm: 800
+  rev_limit_rpm: 4500
+  upshift_speeds_kmh: [18, 32, 50, 70]
+  willans:
+    marginal_efficiency: 0.40
+    friction_mep_kpa: 120
+    displacement_l: 1.6
+  idle_fuel_l_per_h: 0.6
+"""
+
+
+def test_range_curves_of_a_combustion_vehicle(tmp_path):
+    # tank range = tank / fuel per km (definition): range × L/100 km / 100 = 50 L
+    from tractive.powertrain import range_curve
+    from tractive.vehicle import load_vehicle
+
+    res = run_study(_write(tmp_path, _steady_study(DIESEL, "{mass_kg: +100}")))
+    c = res.range_curves[0]
+    assert c.powertrain == "combustion" and c.consumption_key == "fuel_l_per_100km"
+    np.testing.assert_allclose(c.columns["range_km"] * c.columns["fuel_l_per_100km"] / 100,
+                               50.0, rtol=1e-12)
+    ref = range_curve(load_vehicle(tmp_path / "car.yaml"), c.columns["speed_kmh"])
+    np.testing.assert_array_equal(c.columns["range_km"], ref.range_km)
+    np.testing.assert_array_equal(c.feasible, ref.feasible)
+    # heavier: more rolling resistance at every speed, so less range
+    heavy = res.range_curves[1]
+    assert heavy.variant == "mod" and np.all(heavy.columns["range_km"] < c.columns["range_km"])
+
+
+def test_no_range_curves_without_a_powertrain(tmp_path):
+    res = run_study(_write(tmp_path, _steady_study(PHYS.format(mass=1500), "{crr: -5%}")))
+    assert res.range_curves == () and res.to_dict()["range_curves"] == []
+
+
+# ---------------------------------------------------------------------------
+# Monte Carlo in chunks along the vehicle axis
+# ---------------------------------------------------------------------------
+
+BSFC_CAR = """\
+name: map car
+mass_kg: 1300
+mass_std_kg: 30
+road_load:
+  cda_m2: 0.66
+  crr: 0.0095
+  crr_std: 0.0005
+powertrain:
+  kind: combustion
+  fuel: gasoline
+  tank_l: 45
+  gear_ratios: [3.5, 2.0, 1.4, 1.05, 0.85, 0.7]
+  final_drive_ratio: 3.9
+  tyre_radius_m: 0.3
+  transmission_efficiency: 0.94
+  idle_speed_rpm: 800
+  rev_limit_rpm: 6200
+  shift_rule: efficient
+  idle_fuel_l_per_h: 0.8
+  full_load:
+    speed_rpm: [800, 2000, 4000, 6200]
+    torque_nm: [90, 150, 160, 130]
+  bsfc_map:
+    speed_rpm: [1000, 2500, 4000, 6000]
+    torque_nm: [10, 50, 100, 160]
+    bsfc_g_per_kwh:
+      - [640, 660, 700, 800]
+      - [310, 300, 315, 340]
+      - [265, 255, 262, 285]
+      - [250, 245, 250, 275]
+"""
+
+MAP_EV = """\
+name: map van
+mass_kg: 2000
+road_load:
+  cda_m2: 0.9
+  crr: 0.008
+  cda_std_m2: 0.03
+powertrain:
+  kind: electric
+  battery_usable_kwh: 70
+  gear_ratio: 9.5
+  gear_efficiency: 0.97
+  tyre_radius_m: 0.33
+  efficiency_map:
+    speed_rpm: [500, 3000, 8000, 12000]
+    torque_nm: [5, 50, 150, 250]
+    efficiency:
+      - [0.60, 0.72, 0.65, 0.55]
+      - [0.86, 0.93, 0.92, 0.88]
+      - [0.84, 0.94, 0.95, 0.93]
+      - [0.80, 0.92, 0.95, 0.94]
+  regen: {fade_below_kmh: 8, recoverable_share: 0.65, max_power_kw: 50}
+  auxiliary_power_kw: 0.8
+"""
+
+
+@pytest.mark.parametrize("vehicle,extra", [
+    (BSFC_CAR, "    powertrain.idle_fuel_std_l_per_h: 0.1\n"),
+    (MAP_EV, "    powertrain.auxiliary_power_std_kw: 0.2\n"
+             "    powertrain.gear_efficiency_std: 0.01\n"),
+])
+def test_chunked_and_unchunked_monte_carlo_are_identical(tmp_path, vehicle, extra):
+    # the same draws evaluated in chunks of 7 vehicles or in one call give the same
+    # doubles everywhere (element-wise arithmetic does not depend on the batch)
+    study = f"""\
+name: chunks
+baseline:
+  vehicle: car.yaml
+  changes:
+{extra}modifications:
+  - name: lighter
+    changes: {{mass_kg: -80, crr: -10%}}
+driving:
+  profiles: [nycc, "steady:70kmh:120s"]
+  mixes:
+    - name: both
+      shares_pct: {{nycc: 50, "steady:70kmh:120s": 50}}
+uncertainty: {{draws: 60, seed: 9}}
+"""
+    path = _write(tmp_path, {"car.yaml": vehicle, "study.yaml": study})
+    whole = run_study(path, chunk_size=10 ** 6)
+    for size in (7, 1):
+        chunked = run_study(path, chunk_size=size)
+        assert chunked.to_dict(include_series=True) == whole.to_dict(include_series=True)
+    row = whole.row("baseline", "nycc")
+    key = "fuel_l" if "fuel_l" in row.metrics else "battery_energy_kwh"
+    assert row.interval_high[key] > row.interval_low[key]      # the draws do differ
+
+
+@pytest.mark.parametrize("vehicle", [BSFC_CAR, MAP_EV, PHYS.format(mass=1500)])
+def test_chunk_size_keeps_the_evaluation_within_its_memory_budget(tmp_path, vehicle):
+    # tracemalloc (Python standard library; numpy reports its buffers to it) measures the
+    # peak of one evaluation; the estimate behind the chunk size must not be lower
+    import tracemalloc
+
+    from tractive.profiles import resolve_profile
+    from tractive.spec import read_yaml
+    from tractive.study import modify
+    from tractive.study.uncertainty import UNCERTAIN_PARAMS, expand, standard_normal_draws
+    from tractive.vehicle import load_vehicle
+
+    (tmp_path / "car.yaml").write_text(vehicle)
+    veh = load_vehicle(tmp_path / "car.yaml")
+    nom, stds, cov = modify.nominal_params(veh, read_yaml(tmp_path / "car.yaml"),
+                                           air_density_kg_m3=None, cda_air_density_kg_m3=1.2)
+    rng = np.random.default_rng(0)
+    z = {k: standard_normal_draws(rng, 299) for k in UNCERTAIN_PARAMS + ("coef0", "coef1",
+                                                                           "coef2")}
+    ps, _ = expand(nom, {"mass_kg": 20.0}, cov, z, 299)
+    profiles = [("udds", resolve_profile("udds"))]
+    budget = 40 * 2 ** 20
+    n = engine.chunk_size_for(ps, profiles, budget)
+    assert 1 <= n < ps.size
+    tracemalloc.start()
+    try:
+        engine._evaluate(ps.take(slice(0, n)), profiles, [], chunk_size=n)
+        _, peak = tracemalloc.get_traced_memory()
+    finally:
+        tracemalloc.stop()
+    assert peak <= budget
+    # and the budget is used, not wasted (the estimate is within a factor 2 of the peak)
+    assert peak >= budget / 2 or vehicle.startswith("name: plain")

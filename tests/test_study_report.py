@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import csv
 import json
+import os
+import stat
 from pathlib import Path
 
 import openpyxl
@@ -147,3 +149,53 @@ def test_json_output_file_matches_stdout(formula_study, tmp_path, capsys):
     assert printed["rows"] == written["rows"]
     assert printed["study"] == "@SUM(1+1)"
     assert printed["rows"][0]["variant"] == "baseline"
+
+
+@pytest.fixture()
+def umask():
+    """Set the process umask for a test and restore it afterwards."""
+    old = os.umask(0o022)
+    os.umask(old)
+
+    def set_mask(mask):
+        os.umask(mask)
+    yield set_mask
+    os.umask(old)
+
+
+@pytest.mark.parametrize("mask", [0o022, 0o002, 0o077, 0o027])
+def test_new_files_get_the_mode_of_any_new_file(tmp_path, umask, mask):
+    # POSIX open(2)/creat(2): a new file's permission bits are mode & ~umask; a plain
+    # open(..., "w") in Python creates files with mode 0o666, the reference here
+    umask(mask)
+    plain = tmp_path / "plain.txt"
+    plain.write_text("x")
+    written = write_text_atomic(tmp_path / "out.csv", "x")
+    assert stat.S_IMODE(written.stat().st_mode) == stat.S_IMODE(plain.stat().st_mode) \
+        == 0o666 & ~mask
+
+
+@pytest.mark.parametrize("mode", [0o600, 0o640, 0o664])
+def test_replacing_a_file_keeps_its_permissions(tmp_path, umask, mode):
+    umask(0o022)
+    target = tmp_path / "out.json"
+    target.write_text("old")
+    os.chmod(target, mode)
+    write_text_atomic(target, "new")
+    assert target.read_text() == "new"
+    assert stat.S_IMODE(target.stat().st_mode) == mode
+
+
+def test_compare_outputs_are_readable_like_any_new_file(formula_study, tmp_path, umask):
+    umask(0o022)
+    outs = [tmp_path / "r.csv", tmp_path / "r.json"]
+    args = ["compare", str(formula_study), "--draws", "0"]
+    for out in outs:
+        args += ["-o", str(out)]
+    with pytest.raises(SystemExit) as e:
+        main(args)
+    assert e.value.code == 0
+    for out in outs:
+        assert stat.S_IMODE(out.stat().st_mode) == 0o644, out
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["car.yaml", "r.csv", "r.json",
+                                                          "study.yaml"]

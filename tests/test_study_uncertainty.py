@@ -156,3 +156,264 @@ def test_interval_matches_numpy_percentiles():
     assert (lo, hi) == tuple(np.percentile(x, [2.5, 97.5]))
     assert mean == pytest.approx(np.mean(x))
     assert interval(np.array([1.0, np.inf]), 95.0) == (None, None, None)
+
+
+# ---------------------------------------------------------------------------
+# powertrain coefficients with a standard uncertainty
+# ---------------------------------------------------------------------------
+
+EV_PT = """\
+name: van
+mass_kg: 1800
+road_load:
+  cda_m2: 0.60
+  crr: 0.009
+powertrain:
+  kind: electric
+  battery_usable_kwh: 60
+  drive_efficiency: 0.88
+  regen: {efficiency: 0.7, fade_below_kmh: 8, recoverable_share: 0.6}
+  auxiliary_power_kw: 0.5
+"""
+
+PT_STUDY = """\
+name: powertrain mc
+baseline:
+  vehicle: car.yaml
+  changes:
+{baseline}
+modifications:
+  - name: ballast
+    changes: {{mass_kg: +150}}
+driving:
+  profiles: [{profile}]
+uncertainty:
+  draws: {draws}
+  seed: 17
+"""
+
+
+def _trip_csv(folder: Path) -> str:
+    """A short invented stop-and-go trip: 0-50 km/h in 10 s, 20 s cruise, 10 s braking,
+    10 s standing, twice (1 s steps)."""
+    one = np.concatenate([np.linspace(0, 50, 11)[:-1], np.full(20, 50.0),
+                          np.linspace(50, 0, 11)[:-1], np.zeros(10)])
+    speed = np.concatenate([one, one, [0.0]])
+    lines = ["time_s,speed_kmh"] + [f"{i}.0,{v:.6f}" for i, v in enumerate(speed)]
+    (folder / "trip.csv").write_text("\n".join(lines) + "\n")
+    return "trip.csv"
+
+
+def _pt_study(tmp_path: Path, vehicle: str, baseline: str, draws=20000, profile="nycc"):
+    (tmp_path / "car.yaml").write_text(vehicle)
+    (tmp_path / "study.yaml").write_text(PT_STUDY.format(baseline=baseline, draws=draws,
+                                                         profile=profile))
+    return tmp_path / "study.yaml"
+
+
+def _sd_from_interval(row, key, change=False):
+    lo = (row.change_low if change else row.interval_low)[key]
+    hi = (row.change_high if change else row.interval_high)[key]
+    # a 95 % central interval of a normal output is mean -/+ 1.959964 sd
+    return (hi - lo) / (2 * stats.norm.ppf(0.975))
+
+
+def test_electric_powertrain_uncertainty_matches_the_law_of_propagation(tmp_path):
+    # battery energy E = W+/eta_d - eta_r B + P_aux t is linear in eta_r, P_aux (and nearly
+    # in eta_d for u/eta = 1 %); range R = U d / E. JCGM 100:2008 eq. (10):
+    # u_c^2 = sum (df/dx_i)^2 u^2(x_i) for independent inputs, with sensitivities from the
+    # model at the nominal point (the traction and regenerated energy of one run)
+    from tractive.demand import vehicle_wheel_demand
+    from tractive.profiles import resolve_profile
+    from tractive.vehicle import load_vehicle
+
+    u = {"eta_d": 0.01, "eta_r": 0.03, "aux_kw": 0.2, "usable_kwh": 1.5}
+    path = _pt_study(tmp_path, EV_PT, f"""\
+    powertrain.drive_efficiency_std: {u['eta_d']}
+    powertrain.regen.efficiency_std: {u['eta_r']}
+    powertrain.auxiliary_power_std_kw: {u['aux_kw']}
+    powertrain.battery_usable_std_kwh: {u['usable_kwh']}""")
+    res = run_study(path)
+    prof = resolve_profile("nycc")
+    veh = load_vehicle(tmp_path / "car.yaml")
+    r = veh.powertrain.consume(veh, vehicle_wheel_demand(veh, prof), prof)
+    e_kwh = float(r.battery_energy_kwh)
+    c = {"eta_d": -float(r.traction_energy_kwh) / 0.88,      # d(W+/eta)/d eta = -(W+/eta)/eta
+         "eta_r": -float(r.regenerated_energy_kwh) / 0.7,    # regen = eta_r * recoverable
+         "aux_kw": r.duration_s / 3600.0}                     # kWh per kW
+    sd_e = np.sqrt(sum((c[k] * u[k]) ** 2 for k in c))
+    row = res.row("baseline", "nycc")
+    assert row.metrics["battery_energy_kwh"] == pytest.approx(e_kwh, rel=1e-12)
+    assert _sd_from_interval(row, "battery_energy_kwh") == pytest.approx(sd_e, rel=0.05)
+    # range: dR/dU = d/E, dR/dE = -U d/E^2 (E itself carries sd_e)
+    d_km = r.distance_km
+    sd_r = np.sqrt((d_km / e_kwh * u["usable_kwh"]) ** 2 +
+                   (60.0 * d_km / e_kwh ** 2 * sd_e) ** 2)
+    assert _sd_from_interval(row, "range_km") == pytest.approx(sd_r, rel=0.05)
+    # the ballast changes the wheel energy only: with common random numbers its change
+    # keeps the spread of eta_d and eta_r acting on the difference, none of the auxiliaries
+    heavy = load_vehicle(tmp_path / "car.yaml")
+    from dataclasses import replace
+    heavy = replace(heavy, mass_kg=1950.0)
+    r1 = heavy.powertrain.consume(heavy, vehicle_wheel_demand(heavy, prof), prof)
+    c_change = {"eta_d": -(float(r1.traction_energy_kwh) - float(r.traction_energy_kwh)) / 0.88,
+                "eta_r": -(float(r1.regenerated_energy_kwh) -
+                           float(r.regenerated_energy_kwh)) / 0.7}
+    sd_change = np.sqrt(sum((c_change[k] * u[k]) ** 2 for k in c_change))
+    ballast = res.row("ballast", "nycc")
+    assert _sd_from_interval(ballast, "battery_energy_kwh", change=True) == \
+        pytest.approx(sd_change, rel=0.05)
+    assert sd_change < 0.5 * sd_e
+    text = " ".join(res.uncertainty["uncertain_parameters"])
+    assert "powertrain.drive_efficiency" in text and "powertrain.battery_usable_kwh" in text
+
+
+WILLANS_PT = """\
+name: small diesel
+mass_kg: 1500
+road_load:
+  cda_m2: 0.65
+  crr: 0.009
+powertrain:
+  kind: combustion
+  fuel: diesel
+  tank_l: 50
+  gear_ratios: [3.8, 2.1, 1.3, 0.95, 0.75]
+  final_drive_ratio: 3.7
+  tyre_radius_m: 0.31
+  transmission_efficiency: 0.93
+  idle_speed_rpm: 800
+  rev_limit_rpm: 4500
+  upshift_speeds_kmh: [18, 32, 50, 70]
+  fuel_cutoff: true
+  willans:
+    marginal_efficiency: 0.40
+    friction_power_kw: 2.5
+  idle_fuel_l_per_h: 0.6
+"""
+
+
+def test_combustion_powertrain_uncertainty_matches_the_law_of_propagation(tmp_path):
+    # Willans line m_f = (P_e + P_0)/(e H) with the gear set by speed: fuel is linear in the
+    # friction power P_0 and in the idle rate, so sensitivities from a finite difference of
+    # one run are exact; 1/e is linearised by a central difference (u/e = 2.5 %).
+    # JCGM 100:2008 eq. (10) for independent inputs.
+    import dataclasses
+
+    from tractive.demand import vehicle_wheel_demand
+    from tractive.profiles import resolve_profile
+    from tractive.vehicle import load_vehicle
+
+    u = {"p0_kw": 0.4, "idle_l_h": 0.1, "e": 0.01}
+    trip = _trip_csv(tmp_path)
+    path = _pt_study(tmp_path, WILLANS_PT, f"""\
+    powertrain.willans.friction_power_std_kw: {u['p0_kw']}
+    powertrain.idle_fuel_std_l_per_h: {u['idle_l_h']}
+    powertrain.willans.marginal_efficiency_std: {u['e']}""", profile=trip)
+    res = run_study(path)
+    prof = resolve_profile(trip, base_dir=tmp_path)
+    veh = load_vehicle(tmp_path / "car.yaml")
+    pt = veh.powertrain
+    demand = vehicle_wheel_demand(veh, prof)
+
+    def fuel_l(p0_kw=2.5, idle_l_h=0.6, e=0.40):
+        p = dataclasses.replace(pt, idle_fuel_kg_s=idle_l_h * pt.fuel.density_kg_per_l / 3600,
+                                engine=dataclasses.replace(pt.engine, marginal_efficiency=e,
+                                                           friction_power_w=p0_kw * 1000))
+        return float(p.consume(veh, demand, prof).fuel_l)
+
+    f0 = fuel_l()
+    c = {"p0_kw": fuel_l(p0_kw=3.5) - f0,                       # per kW (linear)
+         "idle_l_h": fuel_l(idle_l_h=1.6) - f0,                  # per L/h (linear)
+         "e": (fuel_l(e=0.401) - fuel_l(e=0.399)) / 0.002}       # central difference
+    sd = np.sqrt(sum((c[k] * u[k]) ** 2 for k in c))
+    row = res.row("baseline", trip)
+    assert row.metrics["fuel_l"] == pytest.approx(f0, rel=1e-12)
+    assert _sd_from_interval(row, "fuel_l") == pytest.approx(sd, rel=0.05)
+    # each input contributes (none of the three is negligible in this case)
+    assert min(abs(c[k] * u[k]) for k in c) > 0.2 * sd
+
+
+def test_powertrain_change_with_its_own_uncertainty(tmp_path):
+    # a modification that sets a new drive efficiency with its own standard uncertainty:
+    # the variant's spread is that of the new value alone (no baseline uncertainty)
+    (tmp_path / "car.yaml").write_text(EV_PT)
+    (tmp_path / "study.yaml").write_text("""\
+baseline: {vehicle: car.yaml}
+modifications:
+  - name: new inverter
+    changes:
+      powertrain.drive_efficiency: 0.92
+      powertrain.drive_efficiency_std: 0.01
+driving:
+  profiles: ["steady:80kmh:600s"]
+uncertainty: {draws: 20000, seed: 2}
+""")
+    res = run_study(tmp_path / "study.yaml")
+    base = res.row("baseline", "steady:80kmh:600s")
+    row = res.row("new inverter", "steady:80kmh:600s")
+    assert base.interval_high["battery_energy_kwh"] == base.interval_low["battery_energy_kwh"]
+    # at steady speed E = W/eta + P t: dE/d eta = -W/eta^2 (JCGM 100 eq. 10, one input)
+    w_kwh = row.metrics["positive_energy_kwh"]
+    assert _sd_from_interval(row, "battery_energy_kwh") == \
+        pytest.approx(w_kwh / 0.92 ** 2 * 0.01, rel=0.05)
+    assert row.change["battery_energy_kwh"] == pytest.approx(w_kwh / 0.92 - w_kwh / 0.88,
+                                                             rel=1e-12)
+
+
+def test_drawn_efficiencies_are_clipped_at_one_with_a_warning(tmp_path):
+    path = _pt_study(tmp_path, EV_PT.replace("drive_efficiency: 0.88", "drive_efficiency: 0.97"),
+                     "    powertrain.drive_efficiency_std: 0.03", draws=2000,
+                     profile='"steady:80kmh:300s"')
+    res = run_study(path)
+    notes = [w for w in res.warnings if "powertrain.drive_efficiency" in w]
+    assert notes and "clipped" in notes[0]
+    # no draw gets above 100 % efficiency: the battery energy never falls below the
+    # wheel energy plus the auxiliaries (energy conservation)
+    row = res.row("baseline", "steady:80kmh:300s")
+    floor = row.metrics["positive_energy_kwh"] + 0.5 * 300 / 3600
+    assert row.interval_low["battery_energy_kwh"] >= floor * (1 - 1e-12)
+
+
+@pytest.mark.parametrize("changes,words", [
+    ("    powertrain.motor.peak_power_std_kw: 5",
+     "cannot carry a standard uncertainty; possible: "),
+    ("    powertrain.charger_efficiency_std: 0.01", "no key 'charger_efficiency'"),
+    ("    powertrain.willans.marginal_efficiency_std: 0.01",
+     "cannot carry a standard uncertainty; possible with this electric powertrain"),
+])
+def test_powertrain_uncertainty_mistakes_name_the_field(tmp_path, changes, words):
+    from tractive.errors import InputError
+
+    path = _pt_study(tmp_path, EV_PT, changes, draws=10, profile='"steady:80kmh:60s"')
+    with pytest.raises(InputError) as err:
+        run_study(path)
+    msg = str(err.value)
+    assert msg.startswith(str(path)) and "baseline.changes" in msg and words in msg, msg
+
+
+def test_lone_powertrain_uncertainty_needs_the_baseline_or_a_vehicle(tmp_path):
+    from tractive.errors import InputError
+
+    (tmp_path / "car.yaml").write_text(EV_PT)
+    study = """\
+baseline: {{vehicle: car.yaml}}
+modifications:
+  - name: other van
+{vehicle}    changes:
+      powertrain.auxiliary_power_std_kw: 0.2
+driving:
+  profiles: ["steady:80kmh:600s"]
+uncertainty: {{draws: 4000, seed: 2}}
+"""
+    (tmp_path / "study.yaml").write_text(study.format(vehicle=""))
+    with pytest.raises(InputError) as err:
+        run_study(tmp_path / "study.yaml")
+    assert "needs a change of powertrain.auxiliary_power_kw" in str(err.value)
+    # with a vehicle file it states the uncertainty of that vehicle's own value:
+    # E = ... + P t at steady speed, so sd(E) = t sd(P) (JCGM 100 eq. 10)
+    (tmp_path / "study.yaml").write_text(study.format(vehicle="    vehicle: car.yaml\n"))
+    res = run_study(tmp_path / "study.yaml")
+    row = res.row("other van", "steady:80kmh:600s")
+    assert _sd_from_interval(row, "battery_energy_kwh") == \
+        pytest.approx(0.2 * 600 / 3600, rel=0.06)

@@ -6,6 +6,13 @@ Atomic writing
     Windows when both are on the same file system). A failure leaves no
     half-written target and removes the temporary file.
 
+Permissions
+    The temporary file is created with mode 0o666, from which the operating
+    system removes the process umask, exactly as for any new file (a umask of
+    022 gives 0o644; a default ACL of the folder applies too). When the target
+    exists, the new file takes the target's permission bits instead, so
+    replacing a report keeps who may read it.
+
 Inputs are never overwritten
     A target that is the same file as any input (same path after resolving
     links, or the same inode) is refused with an
@@ -31,7 +38,8 @@ from __future__ import annotations
 
 import contextlib
 import os
-import tempfile
+import secrets
+import stat
 from pathlib import Path
 from typing import Callable, Iterable
 
@@ -125,15 +133,10 @@ def atomic_write(path, write: Callable[[Path], None], *, inputs: Iterable = ()) 
     except OSError as exc:
         raise InputError(f"cannot create the output folder ({exc.strerror})",
                          file=str(target)) from None
-    fd, tmp_name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
-    os.close(fd)
-    tmp = Path(tmp_name)
+    tmp = _new_temp_file(folder, target)
     try:
         write(tmp)
-        # mkstemp creates the file readable by its owner only; give it the usual mode
-        mask = os.umask(0)
-        os.umask(mask)
-        os.chmod(tmp, 0o666 & ~mask)
+        _keep_target_mode(tmp, target)
         os.replace(tmp, target)
     except OSError as exc:
         with contextlib.suppress(OSError):
@@ -145,6 +148,39 @@ def atomic_write(path, write: Callable[[Path], None], *, inputs: Iterable = ()) 
             tmp.unlink()
         raise
     return target
+
+
+def _new_temp_file(folder: Path, target: Path) -> Path:
+    """Create an empty, new temporary file next to ``target`` with the usual permissions.
+
+    ``os.open`` with ``O_CREAT | O_EXCL`` and mode 0o666 lets the operating system
+    apply the umask (and a default ACL), as for any newly created file; a name
+    that exists already is never reused.
+    """
+    flags = os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_CLOEXEC", 0)
+    for _ in range(100):
+        tmp = folder / f".{target.name}.{secrets.token_hex(6)}.tmp"
+        try:
+            fd = os.open(tmp, flags, 0o666)
+        except FileExistsError:
+            continue
+        except OSError as exc:
+            raise InputError(f"cannot write in the output folder ({exc.strerror or exc})",
+                             file=str(target)) from None
+        os.close(fd)
+        return tmp
+    raise InputError("cannot create a temporary file in the output folder",
+                     file=str(target))
+
+
+def _keep_target_mode(tmp: Path, target: Path) -> None:
+    """Give the new file the permission bits of the file it replaces (if any)."""
+    try:
+        st = os.stat(target)
+    except OSError:
+        return                      # a new target: keep the mode the file was created with
+    if stat.S_ISREG(st.st_mode):
+        os.chmod(tmp, stat.S_IMODE(st.st_mode))
 
 
 def write_text_atomic(path, text: str, *, inputs: Iterable = ()) -> Path:

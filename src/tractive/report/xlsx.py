@@ -18,9 +18,11 @@ with openpyxl. Sheets, in order:
     Wheel energy per distance split into rolling, aero, inertia and grade for
     every variant, with one stacked column chart per profile or mix.
 ``Range vs speed``
-    Electric variants only: range and battery energy per distance at constant
-    speeds on a level road without wind (:func:`tractive.powertrain.range_curve`)
-    with a chart; the speed of greatest range.
+    Variants with a powertrain: range and battery energy or fuel per distance
+    at constant speeds on a level road without wind, as the study computed
+    them (:attr:`~tractive.study.results.StudyResult.range_curves`, from
+    :func:`tractive.powertrain.range_curve`), with a chart; the speed of
+    greatest range. Left out when no variant has a powertrain.
 one sheet per profile
     The nominal time series of every variant side by side (speed, wheel
     force, wheel power, cumulative traction energy) with charts of speed,
@@ -55,18 +57,15 @@ from __future__ import annotations
 import contextlib
 import json
 import math
-import os
 import re
-from collections.abc import Mapping
 from pathlib import Path
 from typing import Iterable
 
 import numpy as np
 
-from ..units import KMH_MS, MILE_M, MPH_MS
 from .common import atomic_write, check_target, set_text_cell
 
-__all__ = ["write_workbook", "build_workbook", "variant_range_curves", "sheet_title"]
+__all__ = ["write_workbook", "build_workbook", "sheet_title"]
 
 # ---------------------------------------------------------------------------
 # metric selection and formats
@@ -967,178 +966,59 @@ def _inputs_sheet(wb, result, st):
 
 
 # ---------------------------------------------------------------------------
-# range against speed (electric variants)
+# range against speed
 # ---------------------------------------------------------------------------
 
-#: swept speeds: 10 … 160 km/h every 5 km/h; 5 … 100 mph every 2.5 mph
-_SWEEP_KMH = tuple(float(v) for v in range(10, 161, 5))
-_SWEEP_MPH = tuple(5.0 + 2.5 * i for i in range(39))
+#: header text of the consumption column of a range curve, by key
+_CONSUMPTION_LABELS = {"battery_wh_per_km": ("battery energy", "Wh/km"),
+                       "battery_wh_per_mi": ("battery energy", "Wh/mi"),
+                       "fuel_l_per_100km": ("fuel", "L/100 km"),
+                       "fuel_economy_mpg": ("fuel economy", "mpg (US)"),
+                       "fuel_kg_per_100km": ("fuel", "kg/100 km")}
+#: header text of the speed and range columns, by key
+_AXIS_UNITS = {"speed_kmh": "km/h", "speed_mph": "mph", "range_km": "km", "range_mi": "mi",
+               "best_speed_kmh": "km/h", "best_speed_mph": "mph", "best_range_km": "km",
+               "best_range_mi": "mi"}
 
 
-class _Stale(Exception):
-    pass
-
-
-def _curve_map(obj) -> dict:
-    """Range curves given as a mapping (variant → curve) or a sequence of curves that
-    carry a ``variant`` attribute."""
-    if obj is None:
-        return {}
-    if isinstance(obj, Mapping):
-        return dict(obj)
-    out = {}
-    for c in obj:
-        name = getattr(c, "variant", None)
-        if name is not None:
-            out[name] = c
-    return out
-
-
-def _sweep_kmh(result) -> np.ndarray:
-    if result.units == "us":
-        return np.asarray(_SWEEP_MPH) * (MPH_MS / KMH_MS)
-    return np.asarray(_SWEEP_KMH)
-
-
-def _nominal_variant_sets(result):
-    """The nominal parameter set of every variant, rebuilt from the study file.
-
-    Follows the study engine's construction with no Monte Carlo draws, then
-    checks that each rebuilt variant reproduces the result's nominal metrics on
-    every profile; raises :class:`_Stale` when it does not (the study or a
-    vehicle file changed after the run).
-    """
-    from ..profiles import resolve_profile
-    from ..study import engine, modify
-    from ..study.spec import j2263_air_density_kg_m3, load_study
-    from ..study.uncertainty import UNCERTAIN_PARAMS, expand
-
-    spec = load_study(result.source)
-    zero = np.zeros(1)
-    z_base = {k: zero for k in UNCERTAIN_PARAMS + ("coef0", "coef1", "coef2")}
-    z_changes = {"baseline": [zero for _ in spec.baseline_changes]}
-    z_changes.update({m.name: [zero for _ in m.changes] for m in spec.modifications})
-    rho = spec.air_density_kg_m3 or j2263_air_density_kg_m3()
-    nom, stds, cov = modify.nominal_params(spec.baseline, spec.baseline_raw,
-                                           air_density_kg_m3=spec.air_density_kg_m3,
-                                           cda_air_density_kg_m3=rho)
-    base, _ = expand(nom, stds, cov, z_base, 0)
-    for ch, z in zip(spec.baseline_changes, z_changes["baseline"]):
-        base = modify.apply_change(base, ch, z)
-    sets = {"baseline": base}
-    mods = {m.name: m for m in spec.modifications}
-    for m in spec.modifications:
-        sets[m.name] = engine._build_variant(spec, [m], base, z_base, z_changes, 0, rho, [],
-                                             m.name)[0]
-    for c in spec.combinations:
-        sets[c.name] = engine._build_variant(spec, [mods[k] for k in c.members], base,
-                                             z_base, z_changes, 0, rho, [], c.name)[0]
-    if set(sets) != {v.name for v in result.variants}:
-        raise _Stale("the study file now defines other variants than the result")
-    profiles = [(p.name, resolve_profile(p.spec, base_dir=spec.base_dir, dt_s=spec.dt_s))
-                for p in result.profiles if p.kind == "profile"]
-    for name, ps in sets.items():
-        per_profile, _ = engine._evaluate(ps, profiles, [], spec.ambient_temperature_c)
-        for p, met in per_profile.items():
-            met = engine._to_units(met, spec.units)
-            row = result.row(name, p)
-            for key, arr in met.items():
-                want = row.metrics.get(key)
-                got = float(np.asarray(arr)[0])
-                if want is None or not math.isfinite(got):
-                    continue
-                if not math.isclose(got, want, rel_tol=1e-9, abs_tol=1e-12):
-                    raise _Stale(f"variant {name!r} on {p!r} gives {key} = {got:.6g} now, "
-                                 f"{want:.6g} in the result")
-    return spec, sets
-
-
-def variant_range_curves(result, speeds_kmh=None) -> tuple:
-    """Range against constant speed of every electric variant of a study result.
-
-    Uses ``result.range_curves`` when the result carries them; otherwise the
-    nominal vehicle of each variant is rebuilt from the study file (and checked
-    against the result's own numbers) and swept with
-    :func:`tractive.powertrain.range_curve`.
-
-    Parameters
-    ----------
-    result : StudyResult
-    speeds_kmh : sequence of float, optional
-        Speeds [km/h]; default 10 … 160 km/h every 5 km/h (US units: 5 … 100 mph
-        every 2.5 mph).
-
-    Returns
-    -------
-    (curves, note): ``curves`` maps variant name → RangeCurve (electric only, in
-    variant order); ``note`` says why there are none, or is empty.
-    """
-    carried = _curve_map(getattr(result, "range_curves", None))
-    if carried:
-        return ({k: c for k, c in carried.items()
-                 if getattr(c, "kind", "electric") == "electric"}, "")
-    try:
-        from ..powertrain.curve import range_curve
-    except ImportError:
-        return {}, "range against speed not drawn: the powertrain module is not available"
-    speeds = _sweep_kmh(result) if speeds_kmh is None else np.asarray(speeds_kmh, float)
-    if not any(k in r.metrics for r in result.rows
-               for k in ("battery_wh_per_km", "battery_wh_per_mi")):
-        return {}, ""                 # no electric variant: nothing to sweep
-    try:
-        spec, sets = _nominal_variant_sets(result)
-    except _Stale as exc:
-        return {}, f"range against speed not drawn: {exc}"
-    except Exception as exc:     # the study file cannot be read again here
-        return {}, f"range against speed not drawn: the study could not be rebuilt ({exc})"
-    curves = {}
-    for name in _variant_order(result):
-        ps = sets.get(name)
-        if ps is None or ps.powertrain is None or getattr(ps.powertrain, "kind", "") \
-                != "electric":
-            continue
-        curves[name] = range_curve(ps.vehicle(0), speeds,
-                                   ambient_temperature_c=spec.ambient_temperature_c)
-    return curves, ""
-
-
-def _range_sheet(wb, result, st, curves: dict):
+def _range_sheet(wb, result, st):
+    """Range and consumption against constant speed, from ``result.range_curves``."""
     from openpyxl.utils import get_column_letter
 
+    curves = list(getattr(result, "range_curves", ()) or ())
     if not curves:
         return None
     ws = wb.create_sheet("Range vs speed")
-    us = result.units == "us"
-    sp_unit, r_unit, c_unit = ("mph", "mi", "Wh/mi") if us else ("km/h", "km", "Wh/km")
-    to_speed = (KMH_MS / MPH_MS) if us else 1.0
-    to_dist = (1000.0 / MILE_M) if us else 1.0
-    per_dist = (MILE_M / 1000.0) if us else 1.0
+    vorder = {v: i for i, v in enumerate(_variant_order(result))}
+    curves.sort(key=lambda c: vorder.get(c.variant, len(vorder)))
+    first = curves[0]
+    sp_key, r_key = first.speed_key, first.range_key
+    sp_unit, r_unit = _AXIS_UNITS.get(sp_key, ""), _AXIS_UNITS.get(r_key, "")
     h1, h2, r0 = 1, 2, 3
-    names = list(curves)
-    speeds = np.unique(np.concatenate([np.asarray(curves[n].speed_kmh, float)
-                                       for n in names]))
+    speeds = np.unique(np.concatenate([np.asarray(c.columns[c.speed_key], float)
+                                       for c in curves]))
     _header(ws, h1, 1, None, st)
     _header(ws, h2, 1, f"constant speed [{sp_unit}]", st)
-    _write_column(ws, r0, 1, speeds * to_speed, number_format(sp_unit))
+    _write_column(ws, r0, 1, speeds, number_format(sp_unit))
     col = 2
     refs = []
-    for n in names:
-        c = curves[n]
-        _group_header(ws, h1, col, col + 1, n, st)
+    for c in curves:
+        c_key = c.consumption_key
+        c_label, c_unit = _CONSUMPTION_LABELS.get(c_key, (c_key.replace("_", " "), ""))
+        _group_header(ws, h1, col, col + 1, c.variant, st)
         _header(ws, h2, col, f"range [{r_unit}]", st)
-        _header(ws, h2, col + 1, f"battery energy [{c_unit}]", st)
-        sp = np.asarray(c.speed_kmh, float)
-        feasible = np.asarray(c.feasible if c.feasible is not None else np.ones(sp.size, bool),
-                              bool)
-        rng = np.asarray(c.range_km, float)
-        bat = np.asarray(c.columns.get("battery_wh_per_km", np.full(sp.size, np.nan)), float)
+        _header(ws, h2, col + 1, f"{c_label} [{c_unit}]", st)
+        sp = np.asarray(c.columns[c.speed_key], float)
+        feasible = np.asarray(c.feasible, bool)
+        rng = np.asarray(c.columns[c.range_key], float)
+        per = np.asarray(c.columns[c_key], float)
         idx = {float(v): i for i, v in enumerate(sp)}
         for i, v in enumerate(speeds):
             j = idx.get(float(v))
             ok = j is not None and feasible[j]
-            _put(ws, r0 + i, col, rng[j] * to_dist if ok else None, number_format(r_unit))
-            _put(ws, r0 + i, col + 1, bat[j] * per_dist if ok else None, number_format(c_unit))
-        refs.append((n, col))
+            _put(ws, r0 + i, col, rng[j] if ok else None, number_format(r_unit))
+            _put(ws, r0 + i, col + 1, per[j] if ok else None, number_format(c_unit))
+        refs.append((c.variant, col))
         col += 2
     last = col - 1
     r1 = r0 + len(speeds) - 1
@@ -1147,20 +1027,20 @@ def _range_sheet(wb, result, st, curves: dict):
     ws.row_dimensions[h2].height = 45
     # speed of greatest range
     tc = last + 2
+    names = [c.variant for c in curves]
     _header(ws, h2, tc, "Variant", st)
     _header(ws, h2, tc + 1, f"speed of greatest range [{sp_unit}]", st)
     _header(ws, h2, tc + 2, f"greatest range [{r_unit}]", st)
     _header(ws, h2, tc + 3, "at the end of the swept speeds", st)
-    for i, n in enumerate(names):
-        c = curves[n]
-        _put(ws, r0 + i, tc, n)
-        bs = None if c.best_speed_kmh is None else c.best_speed_kmh * to_speed
-        br = None if c.best_range_km is None else c.best_range_km * to_dist
-        _put(ws, r0 + i, tc + 1, bs, number_format(sp_unit))
-        _put(ws, r0 + i, tc + 2, br, number_format(r_unit))
+    for i, c in enumerate(curves):
+        best = list(c.best.values())
+        _put(ws, r0 + i, tc, c.variant)
+        _put(ws, r0 + i, tc + 1, best[0] if best else None, number_format(sp_unit))
+        _put(ws, r0 + i, tc + 2, best[1] if len(best) > 1 else None, number_format(r_unit))
         _put(ws, r0 + i, tc + 3, bool(c.best_at_edge), align=st.center)
     note_row = r0 + len(names) + 1
     _put(ws, note_row, tc, "Constant speed on a level road without wind, nominal vehicles; "
+                           "range = usable battery energy or tank over the consumption; "
                            "empty cells: the drive cannot hold that speed.", font=st.note)
     _widths(ws, {tc: _text_width(names + ["Variant"], 10, 30), tc + 1: 14, tc + 2: 14,
                  tc + 3: 13})
@@ -1179,15 +1059,12 @@ def _range_sheet(wb, result, st, curves: dict):
 # entry points
 # ---------------------------------------------------------------------------
 
-def build_workbook(result, *, range_curves=None):
+def build_workbook(result):
     """The study workbook as an :class:`openpyxl.Workbook` (not yet saved).
 
     Parameters
     ----------
     result : StudyResult
-    range_curves : mapping or sequence, optional
-        Range curves of electric variants (variant name → RangeCurve). Default:
-        :func:`variant_range_curves`. Pass ``{}`` to leave the range sheet out.
     """
     from openpyxl import Workbook
 
@@ -1195,18 +1072,11 @@ def build_workbook(result, *, range_curves=None):
     wb = Workbook()
     wb.remove(wb.active)
     notes = []
-    if range_curves is None:
-        curves, note = variant_range_curves(result)
-        if note:
-            notes.append(note)
-    else:
-        curves = {k: c for k, c in _curve_map(range_curves).items()
-                  if getattr(c, "kind", "electric") == "electric"}
     taken = list(_FIXED_SHEETS)
     _summary_sheet(wb, result, st)
     _attribution_sheet(wb, result, st)
     _energy_parts_sheet(wb, result, st)
-    _range_sheet(wb, result, st, curves)
+    _range_sheet(wb, result, st)
     if not result.series:
         notes.append("no time series in the result: the profile sheets are left out")
     _profile_sheets(wb, result, st, taken)
@@ -1219,7 +1089,7 @@ def build_workbook(result, *, range_curves=None):
     return wb
 
 
-def write_workbook(result, path, *, inputs: Iterable = (), range_curves=None) -> Path:
+def write_workbook(result, path, *, inputs: Iterable = ()) -> Path:
     """Write the study workbook atomically.
 
     Parameters
@@ -1230,8 +1100,6 @@ def write_workbook(result, path, *, inputs: Iterable = (), range_curves=None) ->
         Target ``.xlsx`` file.
     inputs : iterable of paths
         Files the result was computed from; the target must not be one of them.
-    range_curves : mapping, optional
-        See :func:`build_workbook`.
 
     Returns
     -------
@@ -1244,12 +1112,11 @@ def write_workbook(result, path, *, inputs: Iterable = (), range_curves=None) ->
     """
     inputs = list(inputs)
     check_target(path, inputs)
-    wb = build_workbook(result, range_curves=range_curves)
+    wb = build_workbook(result)
 
     def _write(tmp: Path):
         with _full_precision():
             wb.save(tmp)
-        _usual_mode(tmp)
 
     return atomic_write(path, _write, inputs=inputs)
 
@@ -1279,11 +1146,3 @@ def _full_precision():
         yield
     finally:
         _writer.safe_string = original
-
-
-def _usual_mode(tmp: Path) -> None:
-    """Give the temporary file (created private) the permissions of a new file."""
-    mask = os.umask(0)
-    os.umask(mask)
-    with contextlib.suppress(OSError):
-        os.chmod(tmp, 0o666 & ~mask)

@@ -6,11 +6,11 @@
 
 from __future__ import annotations
 
-from .results import (AttributionRow, InputItem, METRICS, ProfileInfo, ResultRow, StudyResult,
-                      TimeSeries, VariantInfo)
+from .results import (AttributionRow, InputItem, METRICS, ProfileInfo, RangeCurveSeries,
+                      ResultRow, StudyResult, TimeSeries, VariantInfo)
 
-__all__ = ["AttributionRow", "InputItem", "METRICS", "ProfileInfo", "ResultRow", "StudyResult",
-           "TimeSeries", "VariantInfo", "run_study", "load_study"]
+__all__ = ["AttributionRow", "InputItem", "METRICS", "ProfileInfo", "RangeCurveSeries",
+           "ResultRow", "StudyResult", "TimeSeries", "VariantInfo", "run_study", "load_study"]
 
 
 def run_study(path, **kwargs):

@@ -13,6 +13,14 @@ each:
   CO2;
 * with performance data, top speed and acceleration times (nominal only).
 
+The draws are evaluated in chunks along the vehicle axis, each chunk in one
+vectorized call, so that one call stays within a memory budget (see
+:func:`chunk_size_for`); the chunk size changes no number.
+
+For every variant with a powertrain the engine also sweeps the nominal
+vehicle over constant speeds (:func:`tractive.powertrain.range_curve`) and
+keeps the range curve in the result, in the study's units.
+
 Duty mixes
     A mix gives distance shares wᵢ (adding up to 100 %) of profiles. Every
     per-distance quantity of the mix is the share-weighted mean of the
@@ -50,14 +58,16 @@ import numpy as np
 
 from ..demand import COMPONENTS, wheel_demand
 from ..errors import InputError
-from ..units import KWH_J, MILE_M, US_GALLON_L
+from ..units import KMH_MS, KWH_J, MILE_M, MPH_MS, US_GALLON_L
 from . import modify
 from .attribution import one_at_a_time, shapley_values, subsets
 from .economics import annual_amount, net_present_value, simple_payback_years
 from .results import (BASELINE, COMBINATION, MODIFICATION, PROFILE_INDEPENDENT, AttributionRow,
-                      InputItem, ProfileInfo, ResultRow, StudyResult, TimeSeries, VariantInfo)
+                      InputItem, ProfileInfo, RangeCurveSeries, ResultRow, StudyResult,
+                      TimeSeries, VariantInfo)
 from .spec import StudySpec, j2263_air_density_kg_m3, load_study
-from .uncertainty import UNCERTAIN_PARAMS, clip, expand, interval, standard_normal_draws
+from .uncertainty import (UNCERTAIN_PARAMS, clip, clip_powertrain, expand, interval,
+                          standard_normal_draws)
 
 #: keys taken from a powertrain's consume(...).to_dict()
 POWERTRAIN_KEYS = ("battery_energy_kwh", "battery_wh_per_km", "wall_wh_per_km", "fuel_l",
@@ -74,7 +84,7 @@ COMPARATIVE = ("annual_saving", "modification_cost", "payback_years", "npv")
 
 
 def run_study(path: str | os.PathLike, *, draws: int | None = None, seed: int | None = None,
-              series: bool = True) -> StudyResult:
+              series: bool = True, chunk_size: int | None = None) -> StudyResult:
     """Read a study file and run it.
 
     Parameters
@@ -87,13 +97,17 @@ def run_study(path: str | os.PathLike, *, draws: int | None = None, seed: int | 
         Random seed (overrides the study file).
     series : bool
         Keep the nominal time series per variant and profile.
+    chunk_size : int, optional
+        Vehicles (nominal and draws) evaluated per vectorized call; default from
+        the memory budget :data:`CHUNK_MEMORY_BYTES` (see :func:`chunk_size_for`).
+        The results do not depend on it.
     """
     spec = load_study(path)
-    return run_spec(spec, draws=draws, seed=seed, series=series)
+    return run_spec(spec, draws=draws, seed=seed, series=series, chunk_size=chunk_size)
 
 
 def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = None,
-             series: bool = True) -> StudyResult:
+             series: bool = True, chunk_size: int | None = None) -> StudyResult:
     """Run a validated study (see :func:`run_study`)."""
     from ..profiles import profile_statistics, resolve_profile
 
@@ -150,7 +164,10 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
         base_mc = modify.apply_change(base_mc, ch, z)
         if ch.std:
             uncertain.append(f"baseline {ch.key} ± {ch.std:g}")
-    _note_clipped(warnings, "baseline", {**clipped, **clip(base_mc.params)})
+    base_pt = dict(base_mc.pt_values)
+    _note_clipped(warnings, "baseline", {**clipped, **clip(base_mc.params),
+                                         **clip_powertrain(base_pt)})
+    base_mc = replace(base_mc, pt_values=base_pt)
 
     mods = {m.name: m for m in spec.modifications}
     variants = [(BASELINE, BASELINE, base_mc, None, (), ())]
@@ -175,7 +192,8 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
     demands = {}
     for name, role, ps, cost, members, desc in variants:
         raw_results[name], demands[name] = _evaluate(ps, profiles, warnings,
-                                                     spec.ambient_temperature_c)
+                                                     spec.ambient_temperature_c,
+                                                     chunk_size=chunk_size)
     _check_money(spec, raw_results)
     derived = {name: _derive(spec, raw_results[name]) for name, *_ in variants}
     base_derived = derived[BASELINE]
@@ -210,6 +228,12 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
         attribution += _attribute(spec, name, groups, base_nominal, var_nominal, profiles,
                                   order, out_units, warnings)
 
+    # -- range against constant speed (nominal vehicles) ----------------------
+    curves = []
+    for name, role, ps, *_ in variants:
+        if ps.powertrain is not None:
+            curves.append(_range_curve(name, ps, spec))
+
     # -- time series --------------------------------------------------------
     series_out = []
     if series:
@@ -238,8 +262,9 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
     return StudyResult(study=spec.name, source=spec.file, units=spec.units,
                        currency=spec.currency, rows=tuple(rows),
                        attribution=tuple(attribution), series=tuple(series_out),
-                       inputs=tuple(inputs), variants=tuple(variant_infos),
-                       profiles=tuple(infos), uncertainty=unc, economics=econ,
+                       range_curves=tuple(curves), inputs=tuple(inputs),
+                       variants=tuple(variant_infos), profiles=tuple(infos),
+                       uncertainty=unc, economics=econ,
                        warnings=tuple(dict.fromkeys(warnings)))
 
 
@@ -288,36 +313,105 @@ def _build_variant(spec, members, base_mc, z_base, z_changes, n, cda_rho, warnin
             if ch.std:
                 uncertain.append(f"{m.name}: {ch.key} ± {ch.std:g}")
     p = dict(ps.params)
-    _note_clipped(warnings, label, clip(p))
-    return replace(ps, params=p), uncertain
+    pt_values = dict(ps.pt_values)
+    _note_clipped(warnings, label, {**clip(p), **clip_powertrain(pt_values)})
+    return replace(ps, params=p, pt_values=pt_values), uncertain
 
 
 def _note_clipped(warnings, label, clipped):
     for k, share in clipped.items():
         warnings.append(f"{label}: {share * 100:.2g} % of the Monte Carlo draws of {k} fell "
-                        f"below its physical limit and were clipped; the uncertainty is large "
-                        f"against the value")
+                        f"outside its physical limits and were clipped; the uncertainty is "
+                        f"large against the value")
 
 
 # ---------------------------------------------------------------------------
 # evaluation
 # ---------------------------------------------------------------------------
 
-def _evaluate(ps, profiles, warnings, ambient_temperature_c=None, every=False) -> tuple:
-    """Metric arrays (vehicle axis) per profile, and the wheel demands."""
+#: memory the Monte Carlo evaluation of one variant on one profile may take at a time [bytes]
+CHUNK_MEMORY_BYTES = 256 * 2 ** 20
+#: float64 values per time step and vehicle held at the peak of one evaluation: wheel
+#: demand with an electric powertrain (measured with tracemalloc: about 30), and per gear
+#: of a combustion powertrain, every gear being evaluated at every step (about 18 with a
+#: BSFC map); with a margin, checked by tests/test_study_engine.py and benchmarks/run.py
+_ARRAYS_PER_STEP = 40
+_ARRAYS_PER_STEP_AND_GEAR = 24
+
+
+def chunk_size_for(ps, profiles, memory_bytes: int = CHUNK_MEMORY_BYTES) -> int:
+    """Vehicles evaluated per call so that one call stays within a memory budget.
+
+    The evaluation of N vehicles on a profile of T steps holds about
+    N · T · (a + b · G) float64 values at its peak, G being the number of
+    gears of a combustion powertrain (0 otherwise); a and b are
+    :data:`_ARRAYS_PER_STEP` and :data:`_ARRAYS_PER_STEP_AND_GEAR`, measured
+    with a margin. The chunk is the largest N whose peak fits
+    ``memory_bytes`` (at least 1).
+
+    Parameters
+    ----------
+    ps : ParamSet
+        The variant (its powertrain decides G).
+    profiles : list of (name, Profile)
+    memory_bytes : int
+        Memory budget [bytes].
+    """
+    steps = max((len(prof.time_s) for _, prof in profiles), default=1)
+    gears = 0
+    pt = ps.powertrain
+    if getattr(pt, "kind", "") == "combustion":
+        gears = int(getattr(getattr(pt, "gearing", None), "n_gears", 1) or 1)
+    per_vehicle = 8 * steps * (_ARRAYS_PER_STEP + _ARRAYS_PER_STEP_AND_GEAR * gears)
+    return max(1, int(memory_bytes // per_vehicle))
+
+
+def _evaluate(ps, profiles, warnings, ambient_temperature_c=None, every=False,
+              chunk_size=None) -> tuple:
+    """Metric arrays (vehicle axis) per profile, and the wheel demands.
+
+    The vehicles are evaluated in chunks along the vehicle axis of at most
+    ``chunk_size`` vehicles (default: :func:`chunk_size_for`), each chunk in
+    one vectorized call per profile; the metric arrays are joined again. The
+    demands returned are those of the first chunk (which holds the nominal
+    vehicle, index 0).
+    """
+    size = ps.size
+    perf = _performance(ps, warnings, every)
+    step = chunk_size_for(ps, profiles) if chunk_size is None else max(1, int(chunk_size))
+    if step >= size:
+        out, demands = _evaluate_chunk(ps, profiles, ambient_temperature_c)
+    else:
+        pieces = []
+        demands = None
+        for start in range(0, size, step):
+            out_c, dem_c = _evaluate_chunk(ps.take(slice(start, start + step)), profiles,
+                                           ambient_temperature_c)
+            pieces.append(out_c)
+            if demands is None:
+                demands = dem_c
+        out = {name: {key: np.concatenate([piece[name][key] for piece in pieces])
+                      for key in pieces[0][name]} for name in pieces[0]}
+    for met in out.values():
+        met.update({k: v.copy() for k, v in perf.items()})
+    return out, demands
+
+
+def _evaluate_chunk(ps, profiles, ambient_temperature_c=None) -> tuple:
+    """Wheel energy and powertrain metrics of every vehicle of ``ps`` in one call per profile."""
     size = ps.size
     rl = ps.road_load()
     mass = ps.mass_kg()
     inertial = ps.inertial_mass_kg()
     vehicle = ps.vehicle()
+    powertrain = vehicle.powertrain
     out = {}
     demands = {}
-    perf = _performance(ps, warnings, every)
     consume_kw = {}
-    if ps.powertrain is not None and ambient_temperature_c is not None:
+    if powertrain is not None and ambient_temperature_c is not None:
         import inspect
         try:
-            if "ambient_temperature_c" in inspect.signature(ps.powertrain.consume).parameters:
+            if "ambient_temperature_c" in inspect.signature(powertrain.consume).parameters:
                 consume_kw["ambient_temperature_c"] = ambient_temperature_c
         except (TypeError, ValueError):
             pass
@@ -334,8 +428,8 @@ def _evaluate(ps, profiles, warnings, ambient_temperature_c=None, every=False) -
         met["positive_energy_wh_per_km"] = full(d.positive_energy_j / 3600.0 / km)
         for comp in COMPONENTS:
             met[f"{comp}_energy_wh_per_km"] = full(d.components_j[comp] / 3600.0 / km)
-        if ps.powertrain is not None:
-            res = ps.powertrain.consume(vehicle, d, prof, **consume_kw)
+        if powertrain is not None:
+            res = powertrain.consume(vehicle, d, prof, **consume_kw)
             data = res.to_dict() if hasattr(res, "to_dict") else dict(res)
             for key in POWERTRAIN_KEYS:
                 value = data.get(key)
@@ -345,7 +439,6 @@ def _evaluate(ps, profiles, warnings, ambient_temperature_c=None, every=False) -
                 if arr.ndim > 1 or (arr.ndim == 1 and arr.shape[0] != size):
                     continue
                 met[key] = full(arr)
-        met.update({k: v.copy() for k, v in perf.items()})
         out[name] = met
         demands[name] = d
     return out, demands
@@ -576,12 +669,14 @@ def _attribute(spec, name, groups, base_nominal, var_nominal, profiles, order, o
     batches = {}
     for s in inner:
         merged = modify.merge_groups(base_nominal, var_nominal, s)
-        key = (id(merged.powertrain), id(merged.performance))
+        key = (id(merged.powertrain), id(merged.performance), tuple(sorted(merged.pt_values)))
         batches.setdefault(key, []).append((s, merged))
     for items in batches.values():
         first = items[0][1]
         params = {k: np.concatenate([m.params[k] for _, m in items]) for k in first.params}
-        batch = replace(first, params=params)
+        pt_values = {k: np.concatenate([m.pt_values[k] for _, m in items])
+                     for k in first.pt_values}
+        batch = replace(first, params=params, pt_values=pt_values)
         per_profile, _ = _evaluate(batch, profiles, [], spec.ambient_temperature_c, every=True)
         for j, (s, _) in enumerate(items):
             one = {p: {k: v[j:j + 1] for k, v in met.items()} for p, met in per_profile.items()}
@@ -610,6 +705,54 @@ def _attributed_keys(units: str) -> tuple:
         return ATTRIBUTED
     probe = {k: np.zeros(1) + 1.0 for k in ATTRIBUTED}
     return tuple(_to_units(probe, units))
+
+
+# ---------------------------------------------------------------------------
+# range against speed
+# ---------------------------------------------------------------------------
+
+#: swept constant speeds: 10 … 160 km/h every 5 km/h (metric studies) [km/h]
+RANGE_SPEEDS_KMH = tuple(float(v) for v in range(10, 161, 5))
+#: swept constant speeds: 5 … 100 mph every 2.5 mph (US studies) [mph]
+RANGE_SPEEDS_MPH = tuple(5.0 + 2.5 * i for i in range(39))
+
+
+def _range_curve(name, ps, spec) -> RangeCurveSeries:
+    """Range and consumption of a variant's nominal vehicle at constant speeds.
+
+    Uses :func:`tractive.powertrain.range_curve` on the nominal vehicle (index 0
+    of the parameter set: every change applied, no draw) and states the result
+    in the study's output units.
+    """
+    from ..powertrain import range_curve
+
+    us = spec.units == "us"
+    speeds_kmh = np.asarray(RANGE_SPEEDS_MPH) * (MPH_MS / KMH_MS) if us \
+        else np.asarray(RANGE_SPEEDS_KMH)
+    vehicle = ps.vehicle(0)
+    curve = range_curve(vehicle, speeds_kmh, ambient_temperature_c=spec.ambient_temperature_c)
+    met = {"range_km": np.asarray(curve.range_km, float)}
+    if curve.kind == "electric":
+        wanted = ("battery_wh_per_km", "wall_wh_per_km")
+    else:
+        fuel = "fuel_l_per_100km" if curve.columns.get("fuel_l_per_100km") is not None \
+            else "fuel_kg_per_100km"
+        wanted = (fuel, "co2_g_per_km")
+    for key in wanted:
+        if curve.columns.get(key) is not None:
+            met[key] = np.asarray(curve.columns[key], float)
+    speed = np.asarray(curve.speed_kmh, float)
+    best_v, best_r = curve.best_speed_kmh, curve.best_range_km
+    if us:
+        columns = {"speed_mph": speed * (KMH_MS / MPH_MS), **_to_units(met, "us")}
+        best = {"best_speed_mph": None if best_v is None else best_v * (KMH_MS / MPH_MS),
+                "best_range_mi": None if best_r is None else best_r / _KM_PER_MI}
+    else:
+        columns = {"speed_kmh": speed, **met}
+        best = {"best_speed_kmh": best_v, "best_range_km": best_r}
+    return RangeCurveSeries(variant=name, powertrain=curve.kind, vehicle=curve.vehicle,
+                            columns=columns, feasible=np.asarray(curve.feasible, bool),
+                            best=best, best_at_edge=bool(curve.best_at_edge))
 
 
 # ---------------------------------------------------------------------------

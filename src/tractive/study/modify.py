@@ -174,6 +174,12 @@ class ParamSet:
         The vehicle the set came from (name, source, raw-block holder).
     raw : dict
         The vehicle's raw YAML mapping (for powertrain/performance changes).
+    changed_blocks : frozenset
+        Blocks (``powertrain``, ``performance``) a change has rewritten.
+    pt_values : dict of str → (N,) arrays
+        Powertrain keys that carry a standard uncertainty (see
+        :data:`POWERTRAIN_UNCERTAIN`): the value of each vehicle, in the key's
+        unit; index 0 is the nominal value of the parsed block.
     """
 
     form: str
@@ -183,6 +189,7 @@ class ParamSet:
     template: Vehicle
     raw: dict = field(default_factory=dict)
     changed_blocks: frozenset = frozenset()
+    pt_values: dict = field(default_factory=dict)
 
     @property
     def size(self) -> int:
@@ -194,7 +201,22 @@ class ParamSet:
 
     def take(self, index) -> "ParamSet":
         """The subset along the vehicle axis (an index array or slice)."""
-        return replace(self, params={k: np.asarray(v)[index] for k, v in self.params.items()})
+        return replace(self, params={k: np.asarray(v)[index] for k, v in self.params.items()},
+                       pt_values={k: np.asarray(v)[index] for k, v in self.pt_values.items()})
+
+    def effective_powertrain(self, index: int | None = None):
+        """The powertrain with its uncertain keys set per vehicle.
+
+        Parameters
+        ----------
+        index : int, optional
+            One vehicle of the set (scalar parameters); None for (N,) arrays.
+        """
+        if self.powertrain is None or not self.pt_values:
+            return self.powertrain
+        values = self.pt_values if index is None else \
+            {k: float(np.asarray(v)[index]) for k, v in self.pt_values.items()}
+        return powertrain_with(self.powertrain, values)
 
     # -- physics views ------------------------------------------------------
     def mass_kg(self):
@@ -243,7 +265,8 @@ class ParamSet:
         else:
             rl = _FixedRoadLoad(self.road_load(), self.form)
         return replace(tpl, mass_kg=p["mass_kg"], rotating_mass_fraction=p["rotating_mass_fraction"],
-                       road_load=rl, powertrain=self.powertrain, performance=self.performance)
+                       road_load=rl, powertrain=self.effective_powertrain(index),
+                       performance=self.performance)
 
 
 @dataclass(frozen=True)
@@ -356,7 +379,7 @@ def apply_change(ps: ParamSet, change, z=None) -> ParamSet:
     change_group(ps, change)
     key = change.key
     if key.startswith("powertrain.") or key.startswith("performance."):
-        return _apply_block_change(ps, change)
+        return _apply_block_change(ps, change, z)
     p = dict(ps.params)
     noise = 0.0 if (z is None or not change.std) else change.std * np.asarray(z, float)
     mode, value = change.mode, change.value
@@ -422,12 +445,13 @@ def _operate(current, mode, value):
     return current * float(value)
 
 
-def _apply_block_change(ps: ParamSet, change) -> ParamSet:
+def _apply_block_change(ps: ParamSet, change, z=None) -> ParamSet:
     block, _, path = change.key.partition(".")
     if block not in ps.raw or not isinstance(ps.raw.get(block), dict):
         raise change.error(f"the vehicle has no {block} block to change")
+    uncertain = block == "powertrain" and (change.std or path in ps.pt_values)
     if change.std:
-        raise change.error("uncertainty on powertrain changes is not supported")
+        _check_uncertain_key(ps, block, path, change)
     raw = copy.deepcopy(ps.raw)
     node = raw[block]
     parts = path.split(".")
@@ -458,7 +482,138 @@ def _apply_block_change(ps: ParamSet, change) -> ParamSet:
     except InputError as exc:
         raise change.error(f"the changed {block} block is not valid: "
                            f"{exc.field + ': ' if exc.field else ''}{exc.message}") from None
-    return replace(out, changed_blocks=out.changed_blocks | {block})
+    out = replace(out, changed_blocks=out.changed_blocks | {block})
+    if uncertain:
+        # the per-vehicle values follow the change like any parameter array: a new value
+        # replaces, an amount adds, a percentage multiplies; the change's own
+        # uncertainty adds on top
+        values = dict(out.pt_values)
+        if path in values:
+            arr = _operate(values[path], change.mode, change.value)
+        else:
+            arr = np.full(ps.size, float(node[leaf]))
+        if change.std and z is not None:
+            arr = arr + change.std * np.asarray(z, float)
+        values[path] = arr
+        out = replace(out, pt_values=values)
+    if out.pt_values:
+        try:       # the changed block still takes every uncertain key (checked early)
+            powertrain_with(out.powertrain, out.pt_values)
+        except InputError as exc:
+            raise change.error(exc.message) from None
+    return out
+
+
+# ---------------------------------------------------------------------------
+# powertrain keys with a standard uncertainty
+# ---------------------------------------------------------------------------
+
+def _set(attr, factor=1.0):
+    def setter(pt, x):
+        return replace(pt, **{attr: x * factor if factor != 1.0 else x})
+    return setter
+
+
+def _set_in(outer, attr, factor=1.0):
+    def setter(pt, x):
+        inner = getattr(pt, outer)
+        return replace(pt, **{outer: replace(inner, **{attr: x * factor if factor != 1.0
+                                                       else x})})
+    return setter
+
+
+def _set_idle_l_per_h(pt, x):
+    return replace(pt, idle_fuel_kg_s=x * pt.fuel.density_kg_per_l / 3600.0)
+
+
+def _set_idle_kg_per_h(pt, x):
+    return replace(pt, idle_fuel_kg_s=x / 3600.0)
+
+
+#: powertrain keys (paths in the ``powertrain`` block) whose value may carry a standard
+#: uncertainty, with the powertrain kind, how the value (in the key's unit) enters the
+#: model (its ``consume`` takes these as per-vehicle arrays), and the physical limits a
+#: drawn value is clipped to
+POWERTRAIN_UNCERTAIN = {
+    "battery_usable_kwh": ("electric", _set("battery_usable_kwh"), (1e-9, math.inf)),
+    "drive_efficiency": ("electric", _set("drive_efficiency"), (1e-6, 1.0)),
+    "gear_efficiency": ("electric", _set("gear_efficiency"), (1e-6, 1.0)),
+    "auxiliary_power_kw": ("electric", _set("auxiliary_power_w", 1000.0), (0.0, math.inf)),
+    "charger_efficiency": ("electric", _set("charger_efficiency"), (1e-6, 1.0)),
+    "regen.efficiency": ("electric", _set_in("regen", "efficiency"), (0.0, 1.0)),
+    "regen.recoverable_share": ("electric", _set_in("regen", "recoverable_share"),
+                                (0.0, 1.0)),
+    "transmission_efficiency": ("combustion", _set_in("gearing", "efficiency"),
+                                (1e-6, 1.0)),
+    "idle_fuel_l_per_h": ("combustion", _set_idle_l_per_h, (0.0, math.inf)),
+    "idle_fuel_kg_per_h": ("combustion", _set_idle_kg_per_h, (0.0, math.inf)),
+    "willans.marginal_efficiency": ("combustion", _set_in("engine", "marginal_efficiency"),
+                                    (1e-6, 1.0)),
+    "willans.friction_mep_kpa": ("combustion", _set_in("engine", "friction_mep_pa", 1000.0),
+                                 (0.0, math.inf)),
+    "willans.friction_power_kw": ("combustion", _set_in("engine", "friction_power_w", 1000.0),
+                                  (0.0, math.inf)),
+}
+
+
+def std_key_of(path: str) -> str:
+    """The standard-uncertainty key of a powertrain key: ``_std`` before the unit suffix.
+
+    ``auxiliary_power_kw`` → ``auxiliary_power_std_kw``, ``drive_efficiency`` →
+    ``drive_efficiency_std``, ``idle_fuel_l_per_h`` → ``idle_fuel_std_l_per_h``
+    (the vehicle files' convention: ``cda_std_m2``, ``f1_std_n_per_kmh``).
+    """
+    head, dot, leaf = path.rpartition(".")
+    for suffix in ("_l_per_h", "_kg_per_h", "_kwh", "_kpa", "_kw"):
+        if leaf.endswith(suffix):
+            leaf = leaf[:-len(suffix)] + "_std" + suffix
+            break
+    else:
+        leaf = leaf + "_std"
+    return head + dot + leaf
+
+
+#: ``powertrain.<std key>`` → ``powertrain.<key>`` for every uncertain powertrain key
+POWERTRAIN_STD_KEYS = {f"powertrain.{std_key_of(k)}": f"powertrain.{k}"
+                       for k in POWERTRAIN_UNCERTAIN}
+
+
+def _check_uncertain_key(ps: ParamSet, block: str, path: str, change) -> None:
+    entry = POWERTRAIN_UNCERTAIN.get(path) if block == "powertrain" else None
+    kind = getattr(ps.powertrain, "kind", None)
+    if entry is None or entry[0] != kind:
+        keys = [k for k, e in POWERTRAIN_UNCERTAIN.items() if e[0] == kind]
+        hint = f"; possible with this {kind} powertrain: {', '.join(keys)}" if keys else ""
+        raise change.error(f"{block}.{path} cannot carry a standard uncertainty{hint}")
+    node = ps.raw.get(block)
+    for part in path.split("."):
+        if not isinstance(node, dict) or part not in node:
+            raise change.error(f"the vehicle's {block} block has no key '{path}' whose "
+                               "uncertainty could be stated")
+        node = node[part]
+
+
+def powertrain_with(powertrain, values: dict):
+    """A powertrain with the given keys replaced by values (floats or (N,) arrays).
+
+    Parameters
+    ----------
+    powertrain : ElectricPowertrain or CombustionPowertrain
+    values : dict
+        Powertrain key (see :data:`POWERTRAIN_UNCERTAIN`) → value in the key's unit.
+    """
+    pt = powertrain
+    for path, value in values.items():
+        entry = POWERTRAIN_UNCERTAIN.get(path)
+        if entry is None or entry[0] != getattr(pt, "kind", None):
+            raise InputError(f"powertrain.{path} cannot carry a standard uncertainty with "
+                             f"this powertrain")
+        try:
+            pt = entry[1](pt, value)
+        except (AttributeError, TypeError):
+            raise InputError(f"powertrain.{path} cannot carry a standard uncertainty with "
+                             f"this powertrain model") from None
+    return pt
 
 
 def merge_groups(base: ParamSet, variant: ParamSet, groups) -> ParamSet:
@@ -472,7 +627,8 @@ def merge_groups(base: ParamSet, variant: ParamSet, groups) -> ParamSet:
         params[name] = variant.params[name] if g in groups else value
     pt = variant.powertrain if "powertrain" in groups else base.powertrain
     perf = variant.performance if "powertrain" in groups else base.performance
-    return replace(base, params=params, powertrain=pt, performance=perf)
+    pt_values = variant.pt_values if "powertrain" in groups else base.pt_values
+    return replace(base, params=params, powertrain=pt, performance=perf, pt_values=pt_values)
 
 
 def differing_groups(base: ParamSet, variant: ParamSet) -> tuple:

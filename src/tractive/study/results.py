@@ -249,6 +249,82 @@ class TimeSeries:
                 "cumulative_energy_kwh": np.asarray(self.cumulative_energy_kwh).tolist()}
 
 
+def _finite_list(values) -> list:
+    """Floats of an array as a JSON-ready list (NaN and infinity become None)."""
+    return [float(v) if np.isfinite(v) else None for v in np.asarray(values, float).tolist()]
+
+
+@dataclass(frozen=True)
+class RangeCurveSeries:
+    """Range and consumption of one variant's nominal vehicle at constant speeds.
+
+    Computed by :func:`tractive.powertrain.range_curve` (level road, no wind,
+    the study's ambient temperature for a temperature-dependent auxiliary
+    load, a set speed limit respected), for every variant with a powertrain.
+
+    Attributes
+    ----------
+    variant : str
+    powertrain : str
+        ``"electric"`` or ``"combustion"``.
+    vehicle : str
+        Name of the variant's vehicle.
+    columns : dict of str → (S,) array
+        Keyed with their unit, in the study's output units, in this order: the
+        speed (``speed_kmh``, or ``speed_mph`` in US studies), the range
+        (``range_km`` / ``range_mi``: usable battery energy or tank over the
+        consumption per distance), the consumption (electric:
+        ``battery_wh_per_km`` / ``battery_wh_per_mi``, then ``wall_wh_per_km``
+        / ``wall_wh_per_mi`` with a stated charger efficiency; combustion:
+        ``fuel_l_per_100km`` / ``fuel_economy_mpg``, or ``fuel_kg_per_100km``
+        for a fuel sold by mass, then ``co2_g_per_km`` / ``co2_g_per_mi``).
+    feasible : (S,) bool array
+        False where the drive cannot hold the speed (motor or engine limits, a
+        set speed limit); the other columns are still the steady-state values.
+    best : dict
+        ``best_speed_kmh`` and ``best_range_km`` (US: ``best_speed_mph``,
+        ``best_range_mi``): speed of greatest range within the swept span and
+        that range (None when no speed is feasible).
+    best_at_edge : bool
+        True when the best speed is an end of the span (range still rising
+        beyond it).
+    """
+
+    variant: str
+    powertrain: str
+    vehicle: str
+    columns: dict
+    feasible: np.ndarray
+    best: dict = field(default_factory=dict)
+    best_at_edge: bool = False
+
+    @property
+    def speed_key(self) -> str:
+        """Key of the speed column (``speed_kmh`` or ``speed_mph``)."""
+        return list(self.columns)[0]
+
+    @property
+    def range_key(self) -> str:
+        """Key of the range column (``range_km`` or ``range_mi``)."""
+        return list(self.columns)[1]
+
+    @property
+    def consumption_key(self) -> str:
+        """Key of the main consumption column (battery energy or fuel per distance)."""
+        return list(self.columns)[2]
+
+    def to_dict(self) -> dict:
+        out = {"variant": self.variant, "powertrain": self.powertrain,
+               "vehicle": self.vehicle}
+        for key, values in self.columns.items():
+            out[key] = _finite_list(values)
+        out["feasible"] = [bool(x) for x in np.asarray(self.feasible, bool).tolist()]
+        for key, value in self.best.items():
+            out[key] = None if value is None or not np.isfinite(value) else float(value)
+        out["best_at_edge_of_span"] = bool(self.best_at_edge)
+        return out
+
+
 @dataclass(frozen=True)
 class InputItem:
     """One input value as used, with its unit and where it came from.
@@ -324,6 +400,8 @@ class StudyResult:
         Baseline rows first, then each variant, each over all profiles and mixes.
     attribution : tuple of AttributionRow
     series : tuple of TimeSeries
+    range_curves : tuple of RangeCurveSeries
+        Range against constant speed of every variant with a powertrain.
     inputs : tuple of InputItem
     variants : tuple of VariantInfo
     profiles : tuple of ProfileInfo
@@ -341,6 +419,7 @@ class StudyResult:
     rows: tuple
     attribution: tuple = ()
     series: tuple = ()
+    range_curves: tuple = ()
     inputs: tuple = ()
     variants: tuple = ()
     profiles: tuple = ()
@@ -376,6 +455,7 @@ class StudyResult:
                "metric_units": {k: self.unit_of(k) for k in self.metric_keys()},
                "rows": [r.to_dict() for r in self.rows],
                "attribution": [a.to_dict() for a in self.attribution],
+               "range_curves": [c.to_dict() for c in self.range_curves],
                "variants": [v.to_dict() for v in self.variants],
                "profiles": [p.to_dict() for p in self.profiles],
                "uncertainty": dict(self.uncertainty),

@@ -31,6 +31,7 @@ from ..atmosphere import J2263_REFERENCE_PRESSURE_PA, J2263_REFERENCE_TEMPERATUR
 from ..errors import InputError
 from ..spec import Section, load_section, read_yaml
 from ..vehicle import Vehicle, load_vehicle, vehicle_from_section
+from .modify import POWERTRAIN_STD_KEYS
 from .results import InputItem
 
 #: Monte Carlo draws when the study does not say
@@ -76,6 +77,8 @@ class Change:
         return InputError(message, file=self.file, field=self.field, line=self.line)
 
     def describe(self) -> str:
+        if self.std and self.text.startswith("±"):
+            return f"{self.key} {self.text}"        # an uncertainty alone
         if self.std:
             return f"{self.key} {self.text} (± {self.std:g})"
         return f"{self.key} {self.text}"
@@ -338,14 +341,16 @@ def _read_baseline(sec: Section, rd: _Reader):
     _echo_vehicle(rd, "baseline", veh, src, raw)
     changes = ()
     if sec.has("changes"):
-        changes = _read_changes(sec.section("changes"), rd, "baseline")
+        changes = _read_changes(sec.section("changes"), rd, "baseline", own_values=True)
     sec.finish()
     return veh, changes, raw
 
 
 def _unit_of_key(key: str) -> str:
     """Unit text from a key's suffix (``battery_usable_kwh`` → ``kWh``)."""
-    suffixes = (("_m2", "m^2"), ("_kg_m3", "kg/m^3"), ("_kwh", "kWh"), ("_kw", "kW"), ("_kg", "kg"), ("_kmh", "km/h"), ("_rpm", "rpm"),
+    suffixes = (("_m2", "m^2"), ("_kg_m3", "kg/m^3"), ("_kwh", "kWh"), ("_kw", "kW"),
+                ("_l_per_h", "L/h"), ("_kg_per_h", "kg/h"), ("_kg", "kg"), ("_kmh", "km/h"),
+                ("_rpm", "rpm"),
                 ("_nm", "N m"), ("_m", "m"), ("_l", "L"), ("_c", "°C"), ("_s", "s"),
                 ("_pct", "%"), ("_kpa", "kPa"), ("_per_h", "1/h"))
     for suffix, unit in suffixes:
@@ -406,7 +411,8 @@ def _read_modifications(sec: Section, rd: _Reader) -> list:
             _echo_vehicle(rd, f"modification {name}", vehicle, src, raw)
         changes = ()
         if m.has("changes"):
-            changes = _read_changes(m.section("changes"), rd, f"modification {name}")
+            changes = _read_changes(m.section("changes"), rd, f"modification {name}",
+                                    own_values=vehicle is not None)
         if vehicle is None and not changes:
             raise m.error("a modification needs changes or a vehicle file", "changes")
         m.raw("notes")
@@ -418,13 +424,19 @@ def _read_modifications(sec: Section, rd: _Reader) -> list:
     return mods
 
 
-#: standard-uncertainty keys and the key each belongs to
+#: standard-uncertainty keys and the key each belongs to (powertrain keys: see
+#: :data:`tractive.study.modify.POWERTRAIN_UNCERTAIN`)
 STD_KEYS = {"mass_std_kg": "mass_kg", "crr_std": "crr", "cda_std_m2": "cda_m2",
-            "cla_std_m2": "cla_m2"}
+            "cla_std_m2": "cla_m2", **POWERTRAIN_STD_KEYS}
 
 
-def _read_changes(sec: Section, rd: _Reader, section: str) -> tuple:
-    """Parse a ``changes`` mapping into :class:`Change` objects (targets unchecked)."""
+def _read_changes(sec: Section, rd: _Reader, section: str, own_values: bool = False) -> tuple:
+    """Parse a ``changes`` mapping into :class:`Change` objects (targets unchecked).
+
+    ``own_values``: a standard uncertainty without a change of its key states the
+    uncertainty of the vehicle's own value (the baseline, or the vehicle of a
+    whole-vehicle modification); elsewhere it needs a change of its key.
+    """
     out = []
     stds = {}
     for key in sec.keys():
@@ -435,6 +447,9 @@ def _read_changes(sec: Section, rd: _Reader, section: str) -> tuple:
         if key in STD_KEYS:
             stds[key] = sec.number(key, min=0.0)
             continue
+        if key.startswith("powertrain.") and re.search(r"_std(_|$)", key.rsplit(".", 1)[-1]):
+            raise sec.error("this powertrain key cannot carry a standard uncertainty; "
+                            "possible: " + ", ".join(POWERTRAIN_STD_KEYS), key)
         if key == "tyre_label":
             text = sec.string(key)
             out.append(Change(key, "set", text, 0.0, text, sec.file, fld, line))
@@ -495,14 +510,15 @@ def _read_changes(sec: Section, rd: _Reader, section: str) -> tuple:
         final.append(ch)
     for std_key, v in stds.items():
         target = STD_KEYS[std_key]
-        if section == "baseline":
-            # on the baseline a standard uncertainty alone states the uncertainty of
-            # the vehicle's own value
+        if own_values:
+            # on the baseline (or a whole other vehicle) a standard uncertainty alone
+            # states the uncertainty of the vehicle's own value
             final.append(Change(target, "add", 0.0, v, f"± {v:g}", sec.file,
                                 sec.field(std_key), sec.line_of(std_key)))
             rd.echo(section, std_key, v, _unit_of_key(std_key), rd.src(sec, std_key))
             continue
-        raise sec.error(f"{std_key} needs a change of {target} in the same modification",
+        raise sec.error(f"{std_key} needs a change of {target} in the same modification "
+                        "(alone it is allowed on the baseline and with a vehicle file)",
                         std_key)
     if not final:
         raise sec.error("list at least one change")

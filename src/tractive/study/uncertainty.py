@@ -1,7 +1,10 @@
 """Monte Carlo propagation of standard uncertainties to every result.
 
 Each uncertain input is drawn from a normal distribution with its standard
-uncertainty (coefficients f0, f1, f2 jointly from their covariance matrix);
+uncertainty (coefficients f0, f1, f2 jointly from their covariance matrix;
+powertrain keys such as the drive efficiency or the auxiliary power as
+per-vehicle arrays of the powertrain model, see
+:data:`tractive.study.modify.POWERTRAIN_UNCERTAIN`);
 a tyre-label class contributes the rectangular distribution's standard
 deviation, width / √12 (JCGM 100:2008, 4.3.7), and is also drawn normally.
 The whole sample is one vehicle axis: one wheel-demand call per profile and
@@ -101,6 +104,26 @@ def clip(params: dict) -> dict:
             if np.any(below):
                 shares[name] = float(np.mean(below))
                 params[name] = np.where(arr < lo, lo, arr)
+    return shares
+
+
+def clip_powertrain(values: dict) -> dict:
+    """Clip drawn powertrain values at their physical limits, in place; share clipped.
+
+    Efficiencies and shares stay within [0, 1] (a draw above 1 would create
+    energy), powers, fuel rates and battery energy stay non-negative (see
+    :data:`tractive.study.modify.POWERTRAIN_UNCERTAIN` for each key's limits).
+    """
+    from .modify import POWERTRAIN_UNCERTAIN
+
+    shares = {}
+    for name, arr in values.items():
+        lo, hi = POWERTRAIN_UNCERTAIN[name][2]
+        arr = np.asarray(arr, float)
+        outside = (arr[1:] < lo) | (arr[1:] > hi)
+        if np.any(outside):
+            shares[f"powertrain.{name}"] = float(np.mean(outside))
+            values[name] = np.clip(arr, lo, hi)
     return shares
 
 
