@@ -38,6 +38,7 @@ References
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -133,8 +134,6 @@ class WheelDemand:
         Profile name.
     intervals : Intervals
         Interval kinematics.
-    force_parts_n : dict
-        Force parts [N] per interval (rolling, aero, inertia, grade).
     force_n : array
         Total wheel force [N] per interval.
     positive_energy_j, negative_energy_j : array
@@ -147,12 +146,21 @@ class WheelDemand:
 
     profile: str
     intervals: Intervals
-    force_parts_n: dict
+    road_load: RoadLoad
+    mass_kg: object
+    inertial_mass_kg: object
     force_n: np.ndarray
     positive_energy_j: np.ndarray
     negative_energy_j: np.ndarray
     components_j: dict
     distance_m: float
+
+    @cached_property
+    def force_parts_n(self) -> dict:
+        """Force parts [N] per interval (rolling, aero, inertia, grade), computed on demand."""
+        iv = self.intervals
+        return wheel_force_parts_n(self.road_load, self.mass_kg, self.inertial_mass_kg,
+                                   iv.speed_ms, iv.accel_ms2, iv.sin_grade)
 
     @property
     def power_w(self):
@@ -215,15 +223,40 @@ def wheel_demand(road_load: RoadLoad, mass_kg, inertial_mass_kg, time_s, speed_m
         Name carried into the result.
     """
     iv = interval_kinematics(time_s, speed_ms, grade_fraction)
-    parts = wheel_force_parts_n(road_load, mass_kg, inertial_mass_kg, iv.speed_ms,
-                                iv.accel_ms2, iv.sin_grade)
-    force = parts["rolling"] + parts["aero"] + parts["inertia"] + parts["grade"]
+    # Every force term is a coefficient (per vehicle) times a function of the
+    # trace (per interval): F = C @ B.T with basis B = [1, v, v², a, sin θ] and
+    # C = [f0, f1, f2, m_inertial, m·g]. Sums over the traction intervals then
+    # need one product, S = w @ B with w = d where F > 0, instead of one pass
+    # over (N, T) per part.
+    v = iv.speed_ms
+    basis = np.stack([np.ones_like(v), v, v * v, iv.accel_ms2, iv.sin_grade], axis=-1)
+    f2_rolling = np.asarray(road_load.f2_rolling_n_per_ms2, float)
+    f2_aero = np.asarray(road_load.f2_aero_n_per_ms2, float)
+    coeffs = np.broadcast_arrays(
+        np.asarray(road_load.f0_n, float), np.asarray(road_load.f1_n_per_ms, float),
+        f2_aero + f2_rolling, np.asarray(inertial_mass_kg, float),
+        np.asarray(mass_kg, float) * STANDARD_GRAVITY_MS2)
+    coeffs = np.stack(coeffs, axis=-1)                  # (..., 5)
+    # einsum's own loops (not BLAS) keep every vehicle's result independent of how
+    # many vehicles share the call, to the last bit
+    force = np.einsum("...k,tk->...t", coeffs, basis)   # (..., T-1)
     d = iv.distance_m
-    traction = force > 0.0
-    positive = np.sum(np.where(traction, force * d, 0.0), axis=-1)
-    negative = -np.sum(np.where(force < 0.0, force * d, 0.0), axis=-1)
-    components = {k: np.sum(np.where(traction, p * d, 0.0), axis=-1) for k, p in parts.items()}
-    return WheelDemand(profile=profile, intervals=iv, force_parts_n=parts, force_n=force,
+    w = np.where(force > 0.0, d, 0.0)
+    sums = np.einsum("...t,tk->...k", w, basis)         # (..., 5): Σ w·[1, v, v², a, sin θ]
+    c = [coeffs[..., k] for k in range(5)]
+    s = [sums[..., k] for k in range(5)]
+    components = {
+        "rolling": c[0] * s[0] + c[1] * s[1] + f2_rolling * s[2],
+        "aero": f2_aero * s[2],
+        "inertia": c[3] * s[3],
+        "grade": c[4] * s[4],
+    }
+    positive = components["rolling"] + components["aero"] + components["inertia"] + \
+        components["grade"]
+    braking = np.einsum("...t,tk->...k", np.where(force < 0.0, d, 0.0), basis)  # F < 0
+    negative = -np.sum(coeffs * braking, axis=-1)
+    return WheelDemand(profile=profile, intervals=iv, road_load=road_load, mass_kg=mass_kg,
+                       inertial_mass_kg=inertial_mass_kg, force_n=force,
                        positive_energy_j=positive, negative_energy_j=negative,
                        components_j=components, distance_m=float(np.sum(d)))
 
