@@ -251,6 +251,38 @@ def _widths(ws, widths: dict):
         ws.column_dimensions[get_column_letter(col)].width = w
 
 
+_FORMAT_UNIT = re.compile(r'"([^"]*)"')
+
+
+def _shown_length(value: float, fmt: str) -> int:
+    """Characters a number takes when shown with an Excel format made by
+    :func:`number_format` (or the percent format): digits with thousands
+    separators, sign, and the quoted unit text."""
+    section = fmt.split(";")[0]
+    m = re.search(r"\.(0+)", section)
+    decimals = len(m.group(1)) if m else 0
+    digits = f"{abs(value):,.{decimals}f}"
+    unit = "".join(_FORMAT_UNIT.findall(section))
+    return len(digits) + len(unit) + 1                  # + sign
+
+
+def _fit_number_columns(ws) -> None:
+    """Widen any column whose numbers would not fit (a spreadsheet shows '###')."""
+    need: dict = {}
+    for row in ws.iter_rows():
+        for cell in row:
+            if isinstance(cell.value, (int, float)) and not isinstance(cell.value, bool) \
+                    and isinstance(cell.number_format, str) and '"' in cell.number_format:
+                n = _shown_length(float(cell.value), cell.number_format)
+                col = cell.column_letter
+                need[col] = max(need.get(col, 0), n)
+    for col, n in need.items():
+        dim = ws.column_dimensions[col]
+        width = n * 1.1 + 2                              # characters → column width units
+        if (dim.width or 0) < width:
+            dim.width = width
+
+
 def _text_width(values, lo=8, hi=42) -> float:
     n = max((len(str(v)) for v in values if v is not None), default=0)
     return float(min(max(n + 2, lo), hi))
@@ -1083,6 +1115,8 @@ def build_workbook(result):
     _all_results_sheet(wb, result, st)
     _study_sheet(wb, result, st, notes)
     _inputs_sheet(wb, result, st)
+    for ws in wb.worksheets:
+        _fit_number_columns(ws)
     wb.active = 0
     wb.properties.title = _clean_text(str(result.study))[:255]
     wb.properties.creator = "tractive"
