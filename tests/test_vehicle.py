@@ -117,3 +117,11 @@ def test_covariance_is_checked(tmp_path):
     good = BASE + "  f0_std_n: 4.0\n  f2_std_n_per_kmh2: 0.001\n"
     v = load_vehicle(write(tmp_path, good, "g.yaml"))
     np.testing.assert_allclose(np.diag(v.road_load.covariance), [16.0, 0.0, 1e-6])
+
+
+def test_exponent_without_dot_is_a_number(tmp_path):
+    # YAML 1.2 core schema (yaml.org, 2009): 1e-5 is a float (YAML 1.1 read it as text)
+    v = load_vehicle(write(tmp_path, "name: P\nmass_kg: 1.2e3\nroad_load: {crr: 9e-3, "
+                           "crr_per_kmh: 1e-5, cda_m2: 0.6}\n"))
+    assert v.mass_kg == 1200.0
+    assert v.road_load.crr == 0.009 and v.road_load.crr_per_kmh == 1e-5

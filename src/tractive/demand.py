@@ -254,7 +254,7 @@ def wheel_demand(road_load: RoadLoad, mass_kg, inertial_mass_kg, time_s, speed_m
     positive = components["rolling"] + components["aero"] + components["inertia"] + \
         components["grade"]
     braking = np.einsum("...t,tk->...k", np.where(force < 0.0, d, 0.0), basis)  # F < 0
-    negative = -np.sum(coeffs * braking, axis=-1)
+    negative = 0.0 - np.sum(coeffs * braking, axis=-1)   # 0.0 - x: no negative zero
     return WheelDemand(profile=profile, intervals=iv, road_load=road_load, mass_kg=mass_kg,
                        inertial_mass_kg=inertial_mass_kg, force_n=force,
                        positive_energy_j=positive, negative_energy_j=negative,

@@ -18,6 +18,7 @@ from __future__ import annotations
 import difflib
 import math
 import os
+import re
 from pathlib import Path
 from typing import Any, Iterable
 
@@ -68,6 +69,12 @@ def _construct_sequence(loader, node, deep=False):
     return out
 
 
+# YAML 1.2 floats: PyYAML follows YAML 1.1, where 1e-5 (exponent without a dot)
+# is text. Engineering values are often written that way.
+_LineLoader.add_implicit_resolver(
+    "tag:yaml.org,2002:float",
+    re.compile(r"^[-+]?(?:[0-9][0-9_]*(?:\.[0-9_]*)?|\.[0-9][0-9_]*)[eE][-+]?[0-9]+$"),
+    list("-+0123456789."))
 _LineLoader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG, _construct_mapping)
 _LineLoader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_SEQUENCE_TAG, _construct_sequence)
 
