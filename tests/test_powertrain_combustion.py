@@ -70,23 +70,36 @@ def test_willans_fuel_rate_at_hand_computed_points():
 
 
 def test_willans_powertrain_at_constant_speed_matches_the_line(tmp_path):
-    # 72 km/h = 20 m/s, 4th gear (upshifts at 20/40/60/80 km/h):
-    # ω = 20 × 1.0 × 4.0 / 0.3 = 266.67 rad/s
-    # wheel force f0 + f2 v² = 120 + 0.03 × 72² = 275.52 N (GTR 15 units)
-    # engine power = 275.52 × 20 / 0.95 = 5800.42 W
-    # friction power = 120 kPa × 1.6 L × 266.67 / (4π) = 4074.4 W
-    # fuel = (5800.42 + 3259.5) / 0.38 / H_l(diesel) over 600 s
+    # Worked by hand, 600 s at 72 km/h = 20 m/s in 4th gear (upshifts at 20/40/60/80 km/h):
+    #   engine speed ω = v · i_gear · i_final / r = 20 × 1.0 × 4.0 / 0.3 = 266.667 rad/s
+    #   wheel force f0 + f2 v² = 120 + 0.03 × 72² = 120 + 155.52 = 275.52 N (f2 per (km/h)²)
+    #   brake power P_e = F v / η = 275.52 × 20 / 0.95 = 5510.4 / 0.95 = 5800.42 W
+    #   friction power, four-stroke (Heywood 1988 §2.7): P_0 = p_mf · V_d · ω / (4π)
+    #     = 120e3 Pa × 1.6e-3 m³ × 266.667 / 12.5664 = 51 200 / 12.5664 = 4074.37 W
+    #   Willans line (Guzzella & Sciarretta §3.2): ṁ · H_l = (P_e + P_0) / e, so the fuel
+    #     energy is (5800.42 + 4074.37) × 600 / 0.38 = 9874.79 × 600 / 0.38 = 15.5918 MJ
+    #   diesel heating value 128,488 Btu/gal (US DOE AFDC) × 1055.05585262 J/Btu
+    #     / 3.785411784 L/gal (NIST SP 811) = 35.8117 MJ/L
+    #   fuel 15.5918 / 35.8117 = 0.435382 L
+    #   CO2 (US EPA 10,180 g/gal, 40 CFR 600.113): 10.180 / 3.785411784 = 2.68927 kg/L,
+    #     0.435382 × 2.68927 = 1.17086 kg
+    # Each slip moves the fuel far beyond the tolerance: 2π for 4π in P_0 +41 %, P_0 left
+    # out −41 %, η left out −2.9 %, η applied twice +3.1 %.
     v = write_vehicle(tmp_path, willans_pt())
     prof = constant_speed(20.0, 600.0)
     r = v.powertrain.consume(v, vehicle_wheel_demand(v, prof), prof)
+    assert r.fuel_l == pytest.approx(0.435382, abs=5e-7)      # hand-worked above
+    assert r.co2_kg == pytest.approx(1.17086, abs=5e-6)       # hand-worked above
+    # the same chain unrounded, to full precision
     w = 20 * 1.0 * 4.0 / 0.3
     p_e = (120 + 0.03 * 72 ** 2) * 20 / 0.95
     p_0 = 120e3 * 1.6e-3 * w / (4 * math.pi)
-    assert p_e == pytest.approx(5800.42, abs=0.01) and p_0 == pytest.approx(4074.4, abs=0.1)
-    fuel = (p_e + p_0) / 0.38 / FUELS["diesel"].lhv_j_per_kg * 600
-    assert r.fuel_kg == pytest.approx(fuel, rel=1e-12)
-    assert r.fuel_l == pytest.approx(fuel / FUELS["diesel"].density_kg_per_l, rel=1e-12)
-    assert r.co2_kg == pytest.approx(fuel * FUELS["diesel"].co2_kg_per_kg, rel=1e-12)
+    lhv_j_per_l = 128488 * 1055.05585262 / GAL_L
+    fuel_l = (p_e + p_0) * 600 / 0.38 / lhv_j_per_l
+    assert r.fuel_l == pytest.approx(fuel_l, rel=1e-12)
+    assert r.co2_kg == pytest.approx(fuel_l * 10.180 / GAL_L, rel=1e-12)
+    # mass = volume × density (definition; the diesel density itself is from memory)
+    assert r.fuel_kg == pytest.approx(fuel_l * FUELS["diesel"].density_kg_per_l, rel=1e-12)
 
 
 # -- BSFC map -----------------------------------------------------------------------
