@@ -1,6 +1,7 @@
 """Performance: top speed, acceleration and gradeability against outside references."""
 
 import dataclasses
+import json
 import math
 from pathlib import Path
 
@@ -10,8 +11,9 @@ import yaml
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.integrate import solve_ivp
-from scipy.optimize import brentq
+from scipy.optimize import brentq, minimize_scalar
 
+from tractive import performance
 from tractive.errors import InputError
 from tractive.performance import acceleration_time_s, gradeability_pct, performance_summary, \
     top_speed
@@ -194,10 +196,10 @@ def test_single_gear_acceleration_matches_solve_ivp(tmp_path):
     t_ref = sol.t_events[0][0]
     t, shifts = acceleration_time_s(v, 0, 100)
     assert shifts == 0
-    assert t == pytest.approx(t_ref, abs=1e-3)
+    assert t == pytest.approx(t_ref, abs=1e-4)
     sol2 = solve_ivp(rhs, (0, 60), [80 / 3.6], events=reach(120 / 3.6), rtol=1e-11,
                      atol=1e-12, max_step=0.01)
-    assert acceleration_time_s(v, 80, 120)[0] == pytest.approx(sol2.t_events[0][0], abs=1e-3)
+    assert acceleration_time_s(v, 80, 120)[0] == pytest.approx(sol2.t_events[0][0], abs=1e-4)
     assert performance_summary(v).launch_traction_limited
 
 
@@ -413,3 +415,196 @@ def test_performance_reuses_powertrain_data(tmp_path):
         12000 * 2 * math.pi / 60 * 0.34 / 10.2 * 3.6, rel=1e-12)
     assert res.top_speed_limit == "governor" and res.top_speed_kmh == 130.0
     assert np.isfinite(res.gradeability_pct)
+
+
+# -- vehicle axis: N vehicles in one call ------------------------------------------------
+
+def _set(obj, path, value):
+    """``obj`` with the (dotted) field ``path`` replaced by ``value``."""
+    head, _, rest = path.partition(".")
+    inner = getattr(obj, head)
+    return dataclasses.replace(obj, **{head: _set(inner, rest, value) if rest else value})
+
+
+def _with(vehicle, values):
+    for path, value in values.items():
+        vehicle = _set(vehicle, path, value)
+    return vehicle
+
+
+def _assert_same(batch, single, where=""):
+    """Equal JSON data; numbers to a relative 1e-12."""
+    if isinstance(single, dict):
+        assert batch.keys() == single.keys(), where
+        for key in single:
+            _assert_same(batch[key], single[key], f"{where}.{key}")
+    elif isinstance(single, list):
+        assert len(batch) == len(single), where
+        for i, (b, s) in enumerate(zip(batch, single)):
+            _assert_same(b, s, f"{where}[{i}]")
+    elif isinstance(single, float):
+        assert batch == pytest.approx(single, rel=1e-12, abs=1e-12), where
+    else:
+        assert type(batch) is type(single) and batch == single, where
+
+
+def _axis_car(tmp_path):
+    # five gears, power table, launch slip, rear drive with load transfer
+    perf = {"driven_axle_load_share": 0.52, "tyre_road_friction": 1.0, "driven_axle": "rear",
+            "cg_height_m": 0.5, "wheelbase_m": 2.6,
+            "full_load": {"speed_rpm": [1000, 2500, 4000, 5500, 6500],
+                          "power_kw": [15, 50, 85, 105, 100]},
+            "launch_speed_rpm": 2500, "gear_ratios": [3.6, 2.1, 1.4, 1.0, 0.8],
+            "final_drive_ratio": 3.9, "tyre_radius_m": 0.31, "driveline_efficiency": 0.9,
+            "shift_time_s": 0.4}
+    return make(tmp_path, perf, mass=1400, road={"f0_n": 150, "f2_n_per_kmh2": 0.035},
+                name="axis.yaml")
+
+
+AXIS_VALUES = {   # six vehicles: masses, coast-down road loads, grip and driveline differ
+    "mass_kg": np.array([900.0, 1200.0, 1400.0, 1700.0, 2100.0, 2600.0]),
+    "road_load.f0_n": np.array([110.0, 140.0, 150.0, 180.0, 230.0, 300.0]),
+    "road_load.f2_n_per_kmh2": np.array([0.028, 0.03, 0.035, 0.04, 0.05, 0.07]),
+    "performance.tyre_road_friction": np.array([1.1, 0.25, 1.0, 0.9, 0.6, 0.8]),
+    "performance.driveline_efficiency": np.array([0.92, 0.9, 0.9, 0.88, 0.86, 0.85]),
+}
+
+
+@pytest.mark.parametrize("block_values", [None, 64])
+@pytest.mark.parametrize("grade_pct, wind_kmh", [(0.0, 0.0), (6.0, 20.0)])
+def test_vehicle_axis_entries_equal_one_vehicle_results(tmp_path, monkeypatch, block_values,
+                                                        grade_pct, wind_kmh):
+    # identity: the vectorized evaluation of N vehicles gives, entry by entry, the result
+    # of each vehicle alone (also with tiny evaluation blocks, which split the speed grid)
+    if block_values is not None:
+        monkeypatch.setattr(performance, "_BLOCK_VALUES", block_values)
+    v = _axis_car(tmp_path)
+    batch = performance_summary(_with(v, AXIS_VALUES), grade_pct=grade_pct, wind_kmh=wind_kmh)
+    n = len(AXIS_VALUES["mass_kg"])
+    assert batch.n_vehicles == n and batch.top_speed_kmh.shape == (n,)
+    data = batch.to_dict()
+    json.dumps(data, allow_nan=False)            # JSON-ready: NaN became null
+    for i in range(n):
+        one = _with(v, {k: float(a[i]) for k, a in AXIS_VALUES.items()})
+        single = performance_summary(one, grade_pct=grade_pct, wind_kmh=wind_kmh).to_dict()
+        _assert_same(batch.entry(i).to_dict(), single, f"vehicle {i}")
+        for key in ("top_speed_kmh", "accel_80_120_kmh_s", "top_speed_limit", "top_speed_gear"):
+            assert data[key][i] == single[key] or data[key][i] == pytest.approx(single[key])
+    # the set is varied enough to exercise the branches: several limits, and (uphill in a
+    # head wind) a vehicle that does not reach 120 km/h
+    assert len(set(batch.top_speed_limit)) >= 2
+    if grade_pct > 0:
+        assert np.isnan(batch.accel_80_120_kmh_s[-1]) and data["accel_80_120_kmh_s"][-1] is None
+
+
+def test_vehicle_axis_functions_match_summary_and_single_calls(tmp_path):
+    v = _axis_car(tmp_path)
+    vb = _with(v, AXIS_VALUES)
+    kmh, limit, gear, gears = top_speed(vb, grade_pct=3.0)
+    t, shifts = acceleration_time_s(vb, 20, 90, grade_pct=3.0)
+    grade = gradeability_pct(vb, 40.0)
+    for i in range(len(kmh)):
+        one = _with(v, {k: float(a[i]) for k, a in AXIS_VALUES.items()})
+        k1, l1, g1, gears1 = top_speed(one, grade_pct=3.0)
+        assert (kmh[i], limit[i], gear[i]) == (pytest.approx(k1, rel=1e-12), l1, g1)
+        assert [g.entry(i).to_dict() for g in gears] == [g.to_dict() for g in gears1]
+        t1, s1 = acceleration_time_s(one, 20, 90, grade_pct=3.0)
+        assert (t[i], shifts[i]) == (pytest.approx(t1, rel=1e-12), s1)
+        assert grade[i] == pytest.approx(gradeability_pct(one, 40.0), rel=1e-12)
+
+
+def test_vehicle_axis_physical_road_load_with_downforce():
+    # the track car: downforce (cla_m2) adds grip and rolling resistance, per vehicle
+    v = load_vehicle(ROOT / "examples" / "vehicles" / "track_car.yaml")
+    values = {"road_load.cla_m2": np.array([0.0, 1.2, 2.5, 4.0]),
+              "road_load.cda_m2": np.array([0.62, 0.74, 0.85, 1.0]),
+              "road_load.crr": np.array([0.010, 0.012, 0.013, 0.015]),
+              "mass_kg": np.array([1000.0, 1050.0, 1080.0, 1120.0]),
+              "performance.tyre_road_friction": np.array([0.5, 0.7, 0.9, 1.35])}
+    batch = performance_summary(_with(v, values), wind_kmh=-15.0)
+    for i in range(4):
+        single = performance_summary(_with(v, {k: float(a[i]) for k, a in values.items()}),
+                                     wind_kmh=-15.0)
+        _assert_same(batch.entry(i).to_dict(), single.to_dict(), f"vehicle {i}")
+    assert batch.launch_traction_limited.dtype == bool
+
+
+def test_vehicle_axis_powertrain_efficiency_array(tmp_path):
+    # the electric van takes motor, ratio and gear efficiency from its powertrain; a
+    # gear efficiency with a vehicle axis (a Monte Carlo draw of it) is used per vehicle
+    v = load_vehicle(ROOT / "examples" / "vehicles" / "electric_van.yaml")
+    values = {"powertrain.gear_efficiency": np.array([0.90, 0.95, 0.99]),
+              "mass_kg": np.array([2600.0, 2400.0, 3100.0])}
+    batch = performance_summary(_with(v, values), grade_pct=4.0)
+    for i in range(3):
+        single = performance_summary(_with(v, {k: float(a[i]) for k, a in values.items()}),
+                                     grade_pct=4.0)
+        _assert_same(batch.entry(i).to_dict(), single.to_dict())
+    # wheel power is the motor's peak power times the gear efficiency (F·v = T·ω·η)
+    assert batch.peak_wheel_power_kw == pytest.approx(
+        v.powertrain.motor.peak_power_w / 1000 * values["powertrain.gear_efficiency"],
+        rel=1e-12)
+
+
+def test_vehicle_axis_constant_power_top_speed_matches_brentq(tmp_path):
+    # every entry is the root of P η / v = f0 cos θ + f2 v² + m g sin θ
+    # (scipy.optimize.brentq on each vehicle's force balance)
+    v = make(tmp_path, constant_power(90.0))
+    f0 = np.array([60.0, 120.0, 180.0, 250.0, 90.0])
+    f2_kmh = np.array([0.02, 0.03, 0.045, 0.06, 0.025])
+    mass = np.array([1100.0, 1500.0, 1900.0, 2500.0, 3000.0])
+    vb = _with(v, {"road_load.f0_n": f0, "road_load.f2_n_per_kmh2": f2_kmh, "mass_kg": mass})
+    wheel_w = 90e3 * 0.9
+    for grade_pct in (0.0, 4.0):
+        th = math.atan(grade_pct / 100)
+        kmh, limit, gear, _ = top_speed(vb, grade_pct=grade_pct)
+        assert list(limit) == ["power"] * 5 and list(gear) == [1.0] * 5
+        for i in range(5):
+            f2 = f2_kmh[i] * 3.6 ** 2
+            ref = brentq(lambda x: wheel_w / x - (f0[i] * math.cos(th) + f2 * x * x
+                                                  + mass[i] * G * math.sin(th)),
+                         1.0, 500.0, xtol=1e-12)
+            assert kmh[i] / 3.6 == pytest.approx(ref, rel=1e-9)
+
+
+@settings(max_examples=15, deadline=None)
+@given(m1=st.floats(900, 1500), factors=st.lists(st.floats(1.01, 1.3), min_size=1, max_size=7))
+def test_vehicle_axis_acceleration_time_falls_as_mass_falls(tmp_path_factory, m1, factors):
+    # within one call: a lighter vehicle (same drive and road load) is quicker
+    v = _ev(tmp_path_factory.mktemp("axis"))
+    m = m1 * np.cumprod([1.0] + factors)          # rising masses
+    t100, _ = acceleration_time_s(dataclasses.replace(v, mass_kg=m), 0, 100)
+    t80, _ = acceleration_time_s(dataclasses.replace(v, mass_kg=m), 80, 120)
+    assert np.all(np.diff(t100) > 0) and np.all(np.diff(t80) > 0)
+
+
+def test_vehicle_axis_of_different_lengths_is_refused(tmp_path):
+    v = _axis_car(tmp_path)
+    bad = _with(v, {"mass_kg": np.array([1200.0, 1300.0]),
+                    "road_load.f0_n": np.array([100.0, 120.0, 140.0])})
+    with pytest.raises(InputError) as exc:
+        performance_summary(bad)
+    assert "\n" not in str(exc.value) and "different lengths" in str(exc.value)
+    with pytest.raises(InputError) as exc:      # one speed per vehicle needs a vehicle axis
+        gradeability_pct(v, np.array([10.0, 20.0]))
+    assert exc.value.field == "speed_kmh"
+
+
+def test_peak_wheel_power_at_the_vertex_of_a_torque_segment(tmp_path):
+    # torque falling linearly from 260 N m at 1000 rpm to 120 N m at 6000 rpm: T(ω)·ω is
+    # largest inside the segment; reference: scipy.optimize.minimize_scalar (bounded)
+    perf = {"driven_axle_load_share": 0.6, "tyre_road_friction": 1.0,
+            "full_load": {"speed_rpm": [1000, 6000], "torque_nm": [260, 120]},
+            "gear_ratios": [3.0, 1.5], "final_drive_ratio": 4.0, "tyre_radius_m": 0.3,
+            "driveline_efficiency": 0.9, "shift_time_s": 0.3}
+    v = make(tmp_path, perf)
+    w0, w1 = 1000 * 2 * math.pi / 60, 6000 * 2 * math.pi / 60
+
+    def minus_power(w):
+        return -(260 + (120 - 260) * (w - w0) / (w1 - w0)) * w
+
+    opt = minimize_scalar(minus_power, bounds=(w0, w1), method="bounded",
+                          options={"xatol": 1e-10})
+    assert w0 < opt.x < w1
+    res = performance_summary(v)
+    assert res.peak_wheel_power_kw == pytest.approx(-opt.fun * 0.9 / 1000, rel=1e-10)
