@@ -74,7 +74,8 @@ def test_willans_powertrain_at_constant_speed_matches_the_line(tmp_path):
     #   engine speed ω = v · i_gear · i_final / r = 20 × 1.0 × 4.0 / 0.3 = 266.667 rad/s
     #   wheel force f0 + f2 v² = 120 + 0.03 × 72² = 120 + 155.52 = 275.52 N (f2 per (km/h)²)
     #   brake power P_e = F v / η = 275.52 × 20 / 0.95 = 5510.4 / 0.95 = 5800.42 W
-    #   friction power, four-stroke (Heywood 1988 §2.7): P_0 = p_mf · V_d · ω / (4π)
+    #   friction power, four-stroke (Heywood 1988 §2.7; section numbers here from memory):
+    #     P_0 = p_mf · V_d · ω / (4π)
     #     = 120e3 Pa × 1.6e-3 m³ × 266.667 / 12.5664 = 51 200 / 12.5664 = 4074.37 W
     #   Willans line (Guzzella & Sciarretta §3.2): ṁ · H_l = (P_e + P_0) / e, so the fuel
     #     energy is (5800.42 + 4074.37) × 600 / 0.38 = 9874.79 × 600 / 0.38 = 15.5918 MJ
@@ -332,7 +333,9 @@ def test_accessory_power_adds_exactly_its_work_over_e_times_lhv(tmp_path, form, 
         v = write_vehicle(tmp_path, make(acc, fuel_cutoff=False,
                                          engine_off_at_rest=off_at_rest), name=name)
         res.append(v.powertrain.consume(v, vehicle_wheel_demand(v, prof), prof))
-    duration = 1369.0                       # UDDS duration (40 CFR 86 App. I)
+    # UDDS table duration 1369 s (drive-cycle SOURCES.md; EPA headline figure as commonly
+    # cited, not confirmed in the regulation text)
+    duration = 1369.0
     lhv = FUELS["diesel"].lhv_j_per_kg
     assert res[1].fuel_kg - res[0].fuel_kg == pytest.approx(750.0 * duration / (0.38 * lhv),
                                                             rel=1e-9)
