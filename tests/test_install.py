@@ -90,6 +90,8 @@ def test_non_editable_install_finds_bundled_cycles(tmp_path):
     assert Path(out["tractive"]).resolve().is_relative_to(venv_root)
     assert Path(out["data"]).resolve().is_relative_to(venv_root)
     assert not list(venv_root.glob("lib*/**/__editable__*"))
+    # the bundled tables: UDDS 0-1369 s at 1 Hz and the WLTC low phase 0-589 s
+    # (SOURCES.md; phase boundaries of UN GTR No. 15 Annex 1)
     assert out["udds_samples"] == 1370
     assert out["low_samples"] == 590
     assert out["cycles"] == CYCLES

@@ -27,6 +27,8 @@ road_load:
 
 
 def test_coefficient_form(tmp_path):
+    # reading check: the values written come back in GTR 15 units; inertial mass is
+    # m (1 + fraction) by its definition (GTR 15 / SAE J2263 rotating-mass allowance)
     v = load_vehicle(write(tmp_path, BASE))
     assert v.mass_kg == 1450
     assert v.inertial_mass_kg == pytest.approx(1450 * 1.03)
