@@ -28,13 +28,17 @@ def test_performance_json_keys_and_values_match_the_library():
     for key in ("top_speed_kmh", "top_speed_limit", "accel_0_100_kmh_s", "accel_80_120_kmh_s",
                 "gears", "gradeability_pct", "gradeability_speed_kmh"):
         assert key in data
+    # interface checks (JSON shape); 6 gears is the gearbox set in the example file
     assert data["top_speed_limit"] in LIMITS
     assert len(data["gears"]) == 6
     assert all(g["top_speed_limit"] in LIMITS for g in data["gears"])
+    # consistency check (CLI vs library, no outside reference): the command reports the
+    # library's figures
     lib = performance_summary(load_vehicle(VEH / "track_car.yaml")).to_dict()
     assert data["top_speed_kmh"] == pytest.approx(lib["top_speed_kmh"], rel=1e-12)
     assert data["accel_0_100_kmh_s"] == pytest.approx(lib["accel_0_100_kmh_s"], rel=1e-12)
-    # the fastest gear's top speed is the vehicle's (no governor on this car)
+    # model-definition check: the fastest gear's top speed is the vehicle's (the example
+    # file sets no governor on this car)
     assert data["top_speed_kmh"] == pytest.approx(
         max(g["top_speed_kmh"] for g in data["gears"]), rel=1e-12)
 
@@ -45,13 +49,16 @@ def test_grade_and_wind_options_change_the_figures():
                         "--json").stdout)
     head = json.loads(run("performance", VEH / "petrol_hatchback_map.yaml", "--wind-kmh",
                           "40", "--json").stdout)
-    assert up["grade_pct"] == 6 and head["wind_kmh"] == 40
+    assert up["grade_pct"] == 6 and head["wind_kmh"] == 40    # interface: options echoed
+    # physics (direction checks): a grade adds m g sin θ and a head wind raises the drag
+    # at the higher air speed, so the top speed falls and 0-100 km/h takes longer
     assert up["top_speed_kmh"] < base["top_speed_kmh"]
     assert head["top_speed_kmh"] < base["top_speed_kmh"]
     assert up["accel_0_100_kmh_s"] > base["accel_0_100_kmh_s"]
 
 
 def test_performance_text_table():
+    # interface check (text output), no outside reference
     r = run("performance", VEH / "diesel_light_truck.yaml", "--grade-speed-kmh", "20")
     assert r.returncode == 0, r.stderr
     assert "top speed" in r.stdout and "0-100 km/h" in r.stdout
@@ -65,6 +72,7 @@ def test_performance_text_table():
     (("performance", VEH / "track_car.yaml", "--grade-speed-kmh", "-5"), "--grade-speed-kmh"),
 ])
 def test_performance_errors_are_one_line_with_status_2(args, words):
+    # interface check (project rule: one stderr line, exit status 2, no traceback)
     r = run(*args)
     assert r.returncode == 2
     lines = r.stderr.strip().splitlines()

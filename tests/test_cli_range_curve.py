@@ -24,12 +24,17 @@ def test_range_curve_electric_json():
     rows = data["rows"]
     assert [x["speed_kmh"] for x in rows] == list(np.arange(20.0, 161.0, 10.0))
     for x in rows:
-        # range = usable battery energy / consumption per km (68 kWh usable)
+        # range = usable battery energy / consumption per km (definition; 68 kWh usable is
+        # the value set in the example file)
         assert x["range_km"] * x["battery_wh_per_km"] == pytest.approx(68000, rel=1e-12)
-        # wall = battery / charger efficiency (0.84 in the example file)
+        # wall = battery / charger efficiency (definition of an efficiency; 0.84 is the
+        # value set in the example file)
         assert x["wall_wh_per_km"] == pytest.approx(x["battery_wh_per_km"] / 0.84, rel=1e-12)
-    # above the 130 km/h governor and the motor speed limit the speed is not feasible
+    # model-definition check: above the 130 km/h governor set in the example file (the
+    # motor speed limit, 150.8 km/h, lies above it) the speed is not feasible
     assert [x["feasible"] for x in rows] == [s <= 130 for s in range(20, 161, 10)]
+    # consistency checks: the best speed lies in the swept range, and its range is at
+    # least every sampled one (1e-9 km for JSON rounding, common practice)
     assert 20 <= data["best_speed_kmh"] <= 160
     assert data["best_range_km"] >= max(x["range_km"] for x in rows) - 1e-9
 
@@ -41,8 +46,10 @@ def test_range_curve_combustion_text_and_json():
     rows = json.loads(r.stdout)["rows"]
     assert [x["speed_kmh"] for x in rows] == [30, 45, 60, 75, 90, 105, 120]
     for x in rows:
-        # tank range = 90 L / (L/100 km) × 100
+        # tank range = 90 L / (L/100 km) × 100 (definition; 90 L is the tank set in the
+        # example file)
         assert x["range_km"] * x["fuel_l_per_100km"] == pytest.approx(9000, rel=1e-12)
+    # interface check (text output), no outside reference
     t = run("range-curve", VEH / "diesel_light_truck.yaml")
     assert t.returncode == 0 and "L/100km" in t.stdout and "greatest range" in t.stdout
 
@@ -54,6 +61,7 @@ def test_range_curve_combustion_text_and_json():
      "--to-kmh"),
 ])
 def test_range_curve_errors_are_one_line_with_status_2(args, words):
+    # interface check (project rule: one stderr line, exit status 2, no traceback)
     r = run(*args)
     assert r.returncode == 2
     lines = r.stderr.strip().splitlines()
@@ -70,10 +78,18 @@ def test_energy_adds_battery_results_and_a_weighted_mix():
         for key in ("battery_energy_kwh", "battery_wh_per_km", "range_km",
                     "regenerated_energy_kwh", "wall_wh_per_km"):
             assert isinstance(x[key], float)
-    # mix by distance share (40 CFR 600 App. II weighting): Σ share × Wh/km
+    # 40 CFR 600 App. II combines city and highway economies 55/45 by the harmonic mean,
+    # 1/(0.55/city + 0.45/highway) (its worked example is in mpg). Consumption per distance
+    # is 1/economy, so the share-weighted arithmetic mean Σ share × Wh/km is that same
+    # harmonic mean of the economies (km/Wh)
     per_km = 0.55 * res[0]["battery_wh_per_km"] + 0.45 * res[1]["battery_wh_per_km"]
     assert data["mix"]["battery_wh_per_km"] == pytest.approx(per_km, rel=1e-12)
+    economy = [1 / x["battery_wh_per_km"] for x in res]
+    assert 1 / data["mix"]["battery_wh_per_km"] == pytest.approx(
+        1 / (0.55 / economy[0] + 0.45 / economy[1]), rel=1e-12)
+    # range = usable / consumption per km (definition; 68 kWh set in the example file)
     assert data["mix"]["range_km"] == pytest.approx(68000 / per_km, rel=1e-12)
+    # interface check (text output), no outside reference
     text = run("energy", VEH / "electric_van.yaml", "-c", "udds")
     assert "battery kWh" in text.stdout and "range km" in text.stdout
 
@@ -83,7 +99,10 @@ def test_energy_adds_fuel_results():
     assert r.returncode == 0, r.stderr
     x = json.loads(r.stdout)["results"][0]
     for key in ("fuel_l", "fuel_l_per_100km", "co2_g_per_km", "range_km", "mpg_us", "mpg_uk"):
-        assert isinstance(x[key], float)
+        assert isinstance(x[key], float)          # interface check (JSON keys)
+    # tank range = 45 L / (L/100 km) × 100 (definition; 45 L is the tank set in the
+    # example file)
     assert x["fuel_l_per_100km"] * x["range_km"] == pytest.approx(45 * 100, rel=1e-12)
+    # interface check (project rule: one stderr line, exit status 2)
     bad = run("energy", VEH / "petrol_hatchback_map.yaml", "-c", "udds", "--mix-shares", "0.5")
     assert bad.returncode == 2 and len(bad.stderr.strip().splitlines()) == 1

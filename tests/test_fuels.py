@@ -5,16 +5,19 @@ import pytest
 from tractive.errors import InputError
 from tractive.powertrain.fuels import FUELS, get_fuel
 
-# exact unit factors (NIST SP 811 App. B): US gallon, Btu (International Table)
+# exact unit factors (NIST SP 811 App. B): US gallon, Btu (International Table; the Btu
+# factor from memory), pound
 GAL_L = 3.785411784
 BTU_J = 1055.05585262
 LB_KG = 0.45359237
-# IUPAC conventional atomic weights
+# IUPAC conventional atomic weights (values from memory)
 C, H, O = 12.011, 1.008, 15.999
 CO2 = C + 2 * O
 
 
 def test_table_has_the_required_fuels():
+    # model-definition check (no outside reference): the five fuels exist and every value
+    # names its source
     assert {"gasoline", "e10", "diesel", "lpg", "cng"} <= set(FUELS)
     for fuel in FUELS.values():
         assert set(fuel.sources) == {"lhv", "density", "co2"}
@@ -35,13 +38,14 @@ def test_diesel_lhv_is_afdc_128488_btu_per_gallon():
     # US DOE AFDC (from ANL GREET): ULSD 128,488 Btu/gal = 35.81 MJ/L
     d = FUELS["diesel"]
     assert d.lhv_mj_per_l == pytest.approx(128488 * BTU_J / GAL_L / 1e6, rel=1e-12)
+    # AFDC's own MJ/L figure, to its rounding (half a unit in the last digit)
     assert d.lhv_mj_per_l == pytest.approx(35.81, abs=0.005)
 
 
 def test_gasoline_and_e10_lhv_span_the_afdc_range():
     # US DOE AFDC (from ANL GREET): gasoline/E10 112,114-116,090 Btu/gal = 31.25-32.36 MJ/L.
     # AFDC gives the range only; that its upper end is ethanol-free gasoline (E0) and its
-    # lower end E10 is from memory.
+    # lower end E10 is from memory. Tolerance: the published MJ/L rounding.
     assert FUELS["gasoline"].lhv_mj_per_l == pytest.approx(32.36, abs=0.005)
     assert FUELS["e10"].lhv_mj_per_l == pytest.approx(31.25, abs=0.005)
 
@@ -107,6 +111,7 @@ def test_cng_co2_close_to_methane_stoichiometry():
     # inert gas and heavier hydrocarbons, so agreement within 3 % (tolerance: common practice)
     methane = CO2 / (C + 4 * H)
     assert FUELS["cng"].co2_kg_per_kg == pytest.approx(methane, rel=0.03)
+    # model definition: a gas is stated per kg, not per litre
     assert not FUELS["cng"].liquid and FUELS["cng"].co2_kg_per_l is None
 
 
@@ -122,6 +127,7 @@ def test_ethanol_share_lowers_e10_co2_per_litre():
 
 
 def test_unknown_fuel_names_the_choices():
+    # interface check (project rule: one-line InputError naming the choices)
     with pytest.raises(InputError) as exc:
         get_fuel("kerosene")
     msg = str(exc.value)

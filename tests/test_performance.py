@@ -89,7 +89,9 @@ def test_top_speed_on_a_grade_and_in_wind_matches_brentq(tmp_path):
         ref = brentq(balance, 1.0, 300.0, xtol=1e-12)
         kmh, limit, _, _ = top_speed(v, grade_pct=grade_pct, wind_kmh=wind_kmh)
         assert kmh / 3.6 == pytest.approx(ref, rel=1e-9), (grade_pct, wind_kmh)
-    # head wind slows, tail wind speeds up, uphill slows
+    # direction checks from the same force balance (physics): a head wind raises the air
+    # speed and so the drag F2 (v + w)², a tail wind lowers it, and a grade adds m g sin θ;
+    # more resistance meets P η / v at a lower speed
     calm = top_speed(v)[0]
     assert top_speed(v, wind_kmh=20)[0] < calm < top_speed(v, wind_kmh=-20)[0]
     assert top_speed(v, grade_pct=2)[0] < calm
@@ -108,7 +110,7 @@ def test_power_limited_top_speed_rises_with_cube_root_of_power(tmp_path):
 
     slopes = [math.log(vmax(8 * p) / vmax(p)) / math.log(8) for p in (20.0, 500.0, 20000.0)]
     assert slopes[0] > slopes[1] > slopes[2] > 1 / 3
-    assert slopes[2] == pytest.approx(1 / 3, abs=1e-3)
+    assert slopes[2] == pytest.approx(1 / 3, abs=1e-3)     # tolerance: common practice
     assert slopes[0] > 1 / 3 + 0.01       # at car-like powers rolling still matters
 
 
@@ -120,19 +122,29 @@ def test_rev_limit_binds_with_short_gearing(tmp_path):
     v = make(tmp_path, perf)
     kmh, limit, gear, gears = top_speed(v)
     # v = ω_max · r / (i · i_fd) = 6000 rpm × 2π/60 × 0.3 / 8
+    # 150 kW × 0.9 meets f0 + f2 v² only at 247.8 km/h (P = F·v, the Cardano root), far
+    # above the 2nd-gear rev limit of 84.8 km/h, so the rev limit binds in both gears
     assert limit == "rev_limit" and gear == 2
     assert kmh == pytest.approx(6000 * 2 * math.pi / 60 * 0.3 / 8 * 3.6, rel=1e-12)
     assert [g.limit for g in gears] == ["rev_limit", "rev_limit"]
+    # same kinematics in 1st gear: i · i_fd = 3 × 4 = 12
     assert gears[0].top_speed_kmh == pytest.approx(6000 * 2 * math.pi / 60 * 0.3 / 12 * 3.6)
 
 
 def test_motor_speed_limit_and_governor(tmp_path):
     v = make(tmp_path, constant_power(150.0, max_rpm=9000))
     kmh, limit, _, _ = top_speed(v)
+    # kinematics of a rolling wheel: v = ω_max · r / i = 9000 rpm × 2π/60 × 0.3 / 8
+    # (127.2 km/h, below the power-limited 247.8 km/h: the Cardano root for 135 kW)
     assert limit == "motor_speed_limit"
     assert kmh == pytest.approx(9000 * 2 * math.pi / 60 * 0.3 / 8 * 3.6, rel=1e-12)
+    assert cardano_root(150e3 * 0.9) * 3.6 > kmh
+    # model-definition check: the governor set in the file (100 km/h), below the motor
+    # speed limit, caps the top speed and is reported as the limit
     vg = make(tmp_path, constant_power(150.0, max_rpm=9000, governor_kmh=100), name="g.yaml")
     assert top_speed(vg)[:2] == (100.0, "governor")
+    # model definition: 80-120 km/h is not reachable under a 100 km/h governor (None);
+    # 0-100 km/h is
     res = performance_summary(vg)
     assert res.accel_80_120_kmh_s is None and res.accel_0_100_kmh_s is not None
 
@@ -164,8 +176,12 @@ def test_downforce_raises_traction_limit_and_rolling_resistance(tmp_path):
                           road=_physical(c), name=f"i{c}.yaml"))[0] for c in (0.0, 1.0)]
     dry = [top_speed(make(tmp_path, constant_power(100.0), road=_physical(c),
                           name=f"d{c}.yaml"))[0] for c in (0.0, 1.0)]
-    assert ice[1] > ice[0]          # grip-limited: downforce helps
-    assert dry[1] < dry[0]          # power-limited: downforce adds rolling resistance
+    # direction checks from the force balances above (physics): grip-limited, μ s > crr
+    # makes the denominator CdA + (crr − μ s) ClA smaller with ClA > 0, so downforce helps;
+    # power-limited (P η / v against crr (m g + q ClA v²) + q CdA v²), downforce only adds
+    # rolling resistance crr q ClA v², so the top speed falls
+    assert ice[1] > ice[0]
+    assert dry[1] < dry[0]
 
 
 # -- acceleration ----------------------------------------------------------------------
@@ -200,6 +216,8 @@ def test_single_gear_acceleration_matches_solve_ivp(tmp_path):
     sol2 = solve_ivp(rhs, (0, 60), [80 / 3.6], events=reach(120 / 3.6), rtol=1e-11,
                      atol=1e-12, max_step=0.01)
     assert acceleration_time_s(v, 80, 120)[0] == pytest.approx(sol2.t_events[0][0], abs=1e-4)
+    # at launch the drive force 250 N·m × 9 × 0.95 / 0.3 = 7125 N exceeds the grip
+    # μ s m g = 0.8 × 0.55 × 1500 × 9.80665 = 6472 N (Coulomb friction), so grip limits
     assert performance_summary(v).launch_traction_limited
 
 
@@ -239,16 +257,22 @@ def test_shift_time_matches_piecewise_integration(tmp_path):
         dt, speed = run(0.0, speed, t_end=t_shift)      # drive open
         t_total += dt
     t, shifts = acceleration_time_s(v, 0, 100)
+    # 1st and 2nd gear top out at 6000 rpm × 2π/60 × 0.3 / (3 × 4) = 56.5 km/h and
+    # 94.2 km/h (kinematics), both below 100 km/h: two shifts
     assert shifts == 2
+    # scipy solve_ivp piecewise reference above (2 ms tolerance: common practice)
     assert t == pytest.approx(t_total, abs=2e-3)
+    # physics (direction check): without shifts no time is spent coasting with the drive
+    # open, and no speed is lost to resistance meanwhile, so more than 2 × 0.5 s is saved
     v0 = make(tmp_path, dict(perf, shift_time_s=0.0), name="noshift.yaml")
     assert acceleration_time_s(v0, 0, 100)[0] < t - 2 * t_shift
 
 
 @pytest.mark.parametrize("axle, sign", [("rear", 1), ("front", -1)])
 def test_traction_limited_launch_with_load_transfer_gillespie(tmp_path, axle, sign):
-    # Gillespie, Fundamentals of Vehicle Dynamics, ch. 2 (traction-limited acceleration,
-    # resistances neglected): rear drive F = μ W (b/L) / (1 − μ h/L),
+    # Gillespie, Fundamentals of Vehicle Dynamics, ch. 2 (chapter from memory;
+    # traction-limited acceleration, resistances neglected): rear drive
+    # F = μ W (b/L) / (1 − μ h/L),
     # front drive F = μ W (c/L) / (1 + μ h/L); time to 10 km/h = m v / F
     mu, share, h, wb, m = 1.0, 0.45, 0.5, 2.6, 1400.0
     perf = {"driven_axle_load_share": share, "tyre_road_friction": mu, "driven_axle": axle,
@@ -282,6 +306,8 @@ def test_acceleration_time_falls_as_power_rises(tmp_path_factory, p1, factor):
             spec, motor=MotorEnvelope(p * 1000, p * 1000 / w_base)))
         times.append(acceleration_time_s(vp, 0, 100)[0])
         assert acceleration_time_s(vp, 80, 120)[0] is not None
+    # physics (direction check): more drive force at every speed, same mass and resistance,
+    # gives a higher acceleration (a = F/m_eff) throughout, so a shorter time
     assert times[1] < times[0]
 
 
@@ -291,6 +317,8 @@ def test_acceleration_time_falls_as_mass_falls(tmp_path_factory, m1, factor):
     v = _ev(tmp_path_factory.mktemp("m"))
     light = acceleration_time_s(dataclasses.replace(v, mass_kg=m1), 0, 100)[0]
     heavy = acceleration_time_s(dataclasses.replace(v, mass_kg=m1 * factor), 0, 100)[0]
+    # physics (direction check): same drive-limited force and coast-down resistance, more
+    # mass: a = (F − R)/m_eff is lower throughout
     assert light < heavy
 
 
@@ -301,13 +329,16 @@ def test_engine_car_accelerates_faster_with_more_torque(k):
     fl = v.performance.full_load
     stronger = dataclasses.replace(v, performance=dataclasses.replace(
         v.performance, full_load=FullLoadCurve(fl.speed_rpm, fl.values * k, fl.quantity)))
+    # physics (direction check): more engine torque at every speed gives more wheel force
+    # (a = F/m_eff) in gears where grip does not limit
     assert acceleration_time_s(stronger, 80, 120)[0] < acceleration_time_s(v, 80, 120)[0]
 
 
 # -- gradeability -------------------------------------------------------------------------
 
 def test_traction_limited_gradeability_is_friction_minus_rolling(tmp_path):
-    # inclined plane (Wong, Theory of Ground Vehicles, ch. 3): all-wheel drive at standstill,
+    # inclined plane (Wong, Theory of Ground Vehicles, ch. 3, chapter from memory; the
+    # result is the force balance on an inclined plane): all-wheel drive at standstill,
     # μ m g cos θ = crr m g cos θ + m g sin θ  →  tan θ = μ − crr
     perf = constant_power(500.0, mu=0.8, share=1.0)
     v = make(tmp_path, perf, road={"cda_m2": 0.6, "crr": 0.012, "air_density_kg_m3": 1.2})
@@ -337,7 +368,7 @@ def test_example_vehicles_have_plausible_performance(name):
     d = performance_summary(v).to_dict()
     for key in ("top_speed_kmh", "top_speed_limit", "accel_0_100_kmh_s", "accel_80_120_kmh_s",
                 "gears", "gradeability_pct"):
-        assert key in d
+        assert key in d               # interface check (result keys), no outside reference
     # plausibility band for road vehicles from a van to a track car, common practice
     # (no published source): catches unit slips (m/s for km/h, ×3.6, ×10), not small errors
     assert 100 < d["top_speed_kmh"] < 320
@@ -364,6 +395,7 @@ def test_example_vehicles_have_plausible_performance(name):
      "performance.driveline_efficiency", "missing"),
 ])
 def test_missing_drive_data_gives_one_line_error(tmp_path, perf, powertrain, field, words):
+    # interface check (project rule: one-line InputError naming file and field)
     data = {"name": "x", "mass_kg": 1400, "road_load": {"f0_n": 100, "f2_n_per_kmh2": 0.03}}
     if perf is not None:
         data["performance"] = perf
@@ -394,6 +426,7 @@ def test_missing_drive_data_gives_one_line_error(tmp_path, perf, powertrain, fie
      "performance.full_load.torque_nm", "one value per speed_rpm"),
 ])
 def test_wrong_performance_value_gives_one_line_error(tmp_path, perf, field, words):
+    # interface check (project rule: one-line InputError naming file and field)
     path = tmp_path / "bad.yaml"
     path.write_text(yaml.safe_dump({"name": "x", "mass_kg": 1400,
                                     "road_load": {"f0_n": 100, "f2_n_per_kmh2": 0.03},
@@ -407,12 +440,18 @@ def test_wrong_performance_value_gives_one_line_error(tmp_path, perf, field, wor
 
 def test_performance_reuses_powertrain_data(tmp_path):
     # the electric van takes motor, ratio, radius and gear efficiency from its powertrain:
-    # the motor speed limit gives v = 12000 rpm × 2π/60 × 0.34 / 10.2
-    v = load_vehicle(ROOT / "examples" / "vehicles" / "electric_van.yaml")
+    # the motor speed limit gives v = 12000 rpm × 2π/60 × 0.34 / 10.2 = 150.8 km/h
+    # (kinematics of a rolling wheel)
+    path = ROOT / "examples" / "vehicles" / "electric_van.yaml"
+    v = load_vehicle(path)
     res = performance_summary(v)
     assert res.gears[0].limit == "motor_speed_limit"
     assert res.gears[0].top_speed_kmh == pytest.approx(
         12000 * 2 * math.pi / 60 * 0.34 / 10.2 * 3.6, rel=1e-12)
+    # model-definition check: 130 km/h is the governor set in the example file (read back
+    # from the file here), below the 150.8 km/h motor speed limit, so it caps the top speed
+    governor = yaml.safe_load(path.read_text())["performance"]["governor_kmh"]
+    assert governor == 130 and governor < res.gears[0].top_speed_kmh
     assert res.top_speed_limit == "governor" and res.top_speed_kmh == 130.0
     assert np.isfinite(res.gradeability_pct)
 
@@ -474,8 +513,9 @@ AXIS_VALUES = {   # six vehicles: masses, coast-down road loads, grip and drivel
 @pytest.mark.parametrize("grade_pct, wind_kmh", [(0.0, 0.0), (6.0, 20.0)])
 def test_vehicle_axis_entries_equal_one_vehicle_results(tmp_path, monkeypatch, block_values,
                                                         grade_pct, wind_kmh):
-    # identity: the vectorized evaluation of N vehicles gives, entry by entry, the result
-    # of each vehicle alone (also with tiny evaluation blocks, which split the speed grid)
+    # consistency check (no outside reference): the vectorized evaluation of N vehicles
+    # gives, entry by entry, the result of each vehicle alone (also with tiny evaluation
+    # blocks, which split the speed grid)
     if block_values is not None:
         monkeypatch.setattr(performance, "_BLOCK_VALUES", block_values)
     v = _axis_car(tmp_path)
@@ -490,14 +530,17 @@ def test_vehicle_axis_entries_equal_one_vehicle_results(tmp_path, monkeypatch, b
         _assert_same(batch.entry(i).to_dict(), single, f"vehicle {i}")
         for key in ("top_speed_kmh", "accel_80_120_kmh_s", "top_speed_limit", "top_speed_gear"):
             assert data[key][i] == single[key] or data[key][i] == pytest.approx(single[key])
-    # the set is varied enough to exercise the branches: several limits, and (uphill in a
-    # head wind) a vehicle that does not reach 120 km/h
+    # coverage of the test case, not a result check: the set is varied enough to exercise
+    # the branches: several limits, and (uphill in a head wind) a vehicle that does not
+    # reach 120 km/h
     assert len(set(batch.top_speed_limit)) >= 2
     if grade_pct > 0:
         assert np.isnan(batch.accel_80_120_kmh_s[-1]) and data["accel_80_120_kmh_s"][-1] is None
 
 
 def test_vehicle_axis_functions_match_summary_and_single_calls(tmp_path):
+    # consistency check (no outside reference): top speed, acceleration time and
+    # gradeability over a vehicle axis equal the one-vehicle calls
     v = _axis_car(tmp_path)
     vb = _with(v, AXIS_VALUES)
     kmh, limit, gear, gears = top_speed(vb, grade_pct=3.0)
@@ -514,7 +557,8 @@ def test_vehicle_axis_functions_match_summary_and_single_calls(tmp_path):
 
 
 def test_vehicle_axis_physical_road_load_with_downforce():
-    # the track car: downforce (cla_m2) adds grip and rolling resistance, per vehicle
+    # consistency check (no outside reference), the track car: downforce (cla_m2) adds grip
+    # and rolling resistance, per vehicle; the vectorized run equals the single runs
     v = load_vehicle(ROOT / "examples" / "vehicles" / "track_car.yaml")
     values = {"road_load.cla_m2": np.array([0.0, 1.2, 2.5, 4.0]),
               "road_load.cda_m2": np.array([0.62, 0.74, 0.85, 1.0]),
@@ -530,8 +574,9 @@ def test_vehicle_axis_physical_road_load_with_downforce():
 
 
 def test_vehicle_axis_powertrain_efficiency_array(tmp_path):
-    # the electric van takes motor, ratio and gear efficiency from its powertrain; a
-    # gear efficiency with a vehicle axis (a Monte Carlo draw of it) is used per vehicle
+    # consistency check (vectorized vs single runs): the electric van takes motor, ratio
+    # and gear efficiency from its powertrain; a gear efficiency with a vehicle axis (a
+    # Monte Carlo draw of it) is used per vehicle
     v = load_vehicle(ROOT / "examples" / "vehicles" / "electric_van.yaml")
     values = {"powertrain.gear_efficiency": np.array([0.90, 0.95, 0.99]),
               "mass_kg": np.array([2600.0, 2400.0, 3100.0])}
@@ -570,7 +615,8 @@ def test_vehicle_axis_constant_power_top_speed_matches_brentq(tmp_path):
 @settings(max_examples=15, deadline=None)
 @given(m1=st.floats(900, 1500), factors=st.lists(st.floats(1.01, 1.3), min_size=1, max_size=7))
 def test_vehicle_axis_acceleration_time_falls_as_mass_falls(tmp_path_factory, m1, factors):
-    # within one call: a lighter vehicle (same drive and road load) is quicker
+    # physics (direction check, a = (F − R)/m_eff) within one call: a lighter vehicle (same
+    # drive and road load) is quicker
     v = _ev(tmp_path_factory.mktemp("axis"))
     m = m1 * np.cumprod([1.0] + factors)          # rising masses
     t100, _ = acceleration_time_s(dataclasses.replace(v, mass_kg=m), 0, 100)
@@ -579,6 +625,7 @@ def test_vehicle_axis_acceleration_time_falls_as_mass_falls(tmp_path_factory, m1
 
 
 def test_vehicle_axis_of_different_lengths_is_refused(tmp_path):
+    # interface check (project rule: one-line InputError)
     v = _axis_car(tmp_path)
     bad = _with(v, {"mass_kg": np.array([1200.0, 1300.0]),
                     "road_load.f0_n": np.array([100.0, 120.0, 140.0])})

@@ -18,7 +18,7 @@ from tractive.vehicle import load_vehicle
 
 TWO_PI = 2 * math.pi
 GAL_L = 3.785411784        # NIST SP 811, exact
-UK_GAL_L = 4.54609         # Weights and Measures Act 1985, exact
+UK_GAL_L = 4.54609         # Weights and Measures Act 1985, exact (from memory)
 MILE_KM = 1.609344         # NIST SP 811, exact
 
 
@@ -48,14 +48,16 @@ def willans_pt(**over):
 # -- Willans line at hand-computed points ----------------------------------------
 
 def test_willans_friction_power_is_mean_effective_pressure_times_swept_volume_rate():
-    # Heywood (1988) §2.7: P = p_me · V_d · N / n_R, n_R = 2 for four-stroke.
+    # defining equation of mean effective pressure (Heywood 1988, §2.7, section number from
+    # memory): P = p_me · V_d · N / n_R, n_R = 2 for four-stroke.
     # 100 kPa, 2.0 L, 3000 rpm = 50 rev/s: 1e5 Pa × 2e-3 m³ × 50 / 2 = 5000 W
     assert willans_friction_power_w(1e5, 2e-3, 3000 * TWO_PI / 60) == pytest.approx(5000.0,
                                                                                    rel=1e-12)
 
 
 def test_willans_fuel_rate_at_hand_computed_points():
-    # Willans line (Guzzella & Sciarretta §3.2): P_e = e·ṁ·H_l − P_0.
+    # Willans line (Guzzella & Sciarretta, Vehicle Propulsion Systems, §3.2, section number
+    # from memory): P_e = e·ṁ·H_l − P_0.
     # e = 0.4, P_0 = 5 kW, H_l = 43 MJ/kg:
     #   P_e = 30 kW -> ṁ = 35 000 / 0.4 / 43e6 = 2.034 883 7e-3 kg/s (7.3256 kg/h)
     #   P_e = 0    -> ṁ = 5 000 / 0.4 / 43e6  = 2.906 976 7e-4 kg/s
@@ -77,9 +79,11 @@ def test_willans_powertrain_at_constant_speed_matches_the_line(tmp_path):
     #   friction power, four-stroke (Heywood 1988 §2.7; section numbers here from memory):
     #     P_0 = p_mf · V_d · ω / (4π)
     #     = 120e3 Pa × 1.6e-3 m³ × 266.667 / 12.5664 = 51 200 / 12.5664 = 4074.37 W
-    #   Willans line (Guzzella & Sciarretta §3.2): ṁ · H_l = (P_e + P_0) / e, so the fuel
-    #     energy is (5800.42 + 4074.37) × 600 / 0.38 = 9874.79 × 600 / 0.38 = 15.5918 MJ
+    #   Willans line (Guzzella & Sciarretta §3.2, from memory): ṁ · H_l = (P_e + P_0) / e,
+    #     so the fuel energy is (5800.42 + 4074.37) × 600 / 0.38 = 9874.79 × 600 / 0.38
+    #     = 15.5918 MJ
     #   diesel heating value 128,488 Btu/gal (US DOE AFDC) × 1055.05585262 J/Btu
+    #     (International Table Btu, NIST SP 811; factor from memory)
     #     / 3.785411784 L/gal (NIST SP 811) = 35.8117 MJ/L
     #   fuel 15.5918 / 35.8117 = 0.435382 L
     #   CO2 (US EPA 10,180 g/gal, 40 CFR 600.113): 10.180 / 3.785411784 = 2.68927 kg/L,
@@ -132,7 +136,8 @@ def map_pt(**over):
 
 
 def test_bsfc_map_fuel_rate_is_specific_consumption_times_power(tmp_path):
-    # Heywood §2.9: sfc = ṁ_f / P, so at every map node ṁ = b · T · ω
+    # definition of specific fuel consumption (Heywood 1988, §2.9, section number from
+    # memory): sfc = ṁ_f / P, so at every map node ṁ = b · T · ω
     v = write_vehicle(tmp_path, map_pt())
     eng = v.powertrain.engine
     table = np.array(_willans_bsfc_table())
@@ -147,8 +152,9 @@ def test_bsfc_map_fuel_rate_is_specific_consumption_times_power(tmp_path):
 def test_bsfc_map_from_a_willans_line_reproduces_the_willans_model(tmp_path, cutoff, acc_kw):
     # A Willans fuel rate ω·(T + c)/(e·H) is bilinear in (ω, T), so bilinear interpolation
     # of the fuel rate, and the linear extension to zero torque, reproduce it exactly
-    # (Press et al., Numerical Recipes §3.6: bilinear interpolation is exact for
-    # a + b x + c y + d x y). Whole cycle, idle, overrun with and without cut-off.
+    # (bilinear interpolation is exact for a + b x + c y + d x y: an algebraic identity of
+    # the bilinear form; Press et al., Numerical Recipes §3.6, section number from memory).
+    # Whole cycle, idle, overrun with and without cut-off.
     vw = write_vehicle(tmp_path, willans_pt(fuel_cutoff=cutoff, accessory_power_kw=acc_kw),
                        name="w.yaml")
     vm = write_vehicle(tmp_path, map_pt(fuel_cutoff=cutoff, accessory_power_kw=acc_kw),
@@ -170,7 +176,8 @@ def test_speed_rule_picks_the_gear_from_the_upshift_speeds(tmp_path):
     v = write_vehicle(tmp_path, willans_pt())
     speeds_kmh = np.array([5.0, 19.99, 20.0, 45.0, 60.0, 79.0, 80.0, 150.0])
     op = v.powertrain.operation(np.full(speeds_kmh.shape, 300.0), speeds_kmh / 3.6)
-    # upshifts at 20, 40, 60, 80 km/h: gear = 1 + number of upshift speeds ≤ v
+    # model-definition check (the speed shift rule, no outside reference): upshifts at 20,
+    # 40, 60, 80 km/h, gear = 1 + number of upshift speeds ≤ v
     assert op["gear"].tolist() == [1, 1, 2, 3, 4, 4, 5, 5]
 
 
@@ -181,7 +188,8 @@ def test_clutch_slips_at_launch_and_opens_below_idle(tmp_path):
     # 1 m/s in first gear: 1 × 3.5 × 4 / 0.3 = 46.7 rad/s, below idle (83.8 rad/s).
     # Pulling: the clutch slips with the engine held at the lowest pulling speed, passing
     # the wheel torque F·r/(i·η). Braking: the clutch is open and the engine idles.
-    # Standstill: idle.
+    # Standstill: idle. (Model-definition checks of the clutch and idle logic; the torque
+    # is the force balance through the driveline, the fuel rates the Willans line.)
     op = pt.operation(np.array([500.0, -300.0, 0.0]), np.array([1.0, 1.0, 0.0]))
     assert op["engine_speed_rads"].tolist() == pytest.approx([w_pull, w_idle, w_idle])
     assert op["engine_torque_nm"][0] == pytest.approx(500 * 0.3 / (3.5 * 4.0 * 0.95))
@@ -201,11 +209,14 @@ def test_standstill_uses_idle_fuel_or_nothing_with_engine_off(tmp_path):
     prof = constant_speed(0.0, 600.0)
     v = write_vehicle(tmp_path, willans_pt(idle_fuel_l_per_h=0.8), name="a.yaml")
     r = v.powertrain.consume(v, vehicle_wheel_demand(v, prof), prof)
+    # amount = rate × time (definition): 0.8 L/h for 600 s; all of it is idle fuel, and
+    # L/100 km is undefined (0/0) with no distance
     assert r.fuel_l == pytest.approx(0.8 * 600 / 3600, rel=1e-12)
     assert r.idle_fuel_kg == pytest.approx(r.fuel_kg, rel=1e-12)
     assert r.fuel_l_per_100km is not None and math.isnan(r.fuel_l_per_100km)
     v2 = write_vehicle(tmp_path, willans_pt(idle_fuel_l_per_h=0.8, engine_off_at_rest=True),
                        name="b.yaml")
+    # model definition: an engine switched off at rest burns nothing
     assert v2.powertrain.consume(v2, vehicle_wheel_demand(v2, prof), prof).fuel_kg == 0.0
 
 
@@ -252,7 +263,8 @@ def test_efficient_rule_uses_the_lowest_fuel_feasible_gear(tmp_path, pull_rpm, a
     op = pt.operation(f, vm)
     moving = vm > 0
     pulling = moving & (f > 0)
-    # brute force over gears, one single-gear powertrain at a time: a gear above first is
+    # consistency check (no outside reference): brute force over gears, one single-gear
+    # powertrain at a time, against the vectorized gear choice: a gear above first is
     # feasible within the rev limit and full load, and at or above the lowest pulling
     # speed while pulling (at or above idle otherwise)
     w_idle, w_max = 800 * TWO_PI / 60, 6000 * TWO_PI / 60
@@ -272,7 +284,8 @@ def test_efficient_rule_uses_the_lowest_fuel_feasible_gear(tmp_path, pull_rpm, a
     assert has.sum() > 0.9 * moving.sum()
     assert np.all(op["fuel_kg_s"][has] <= best[has] * (1 + 1e-12))
     assert np.all(op["fuel_kg_s"][has] >= best[has] * (1 - 1e-12))
-    # the lugging limit: above first gear, no pulling interval runs below it
+    # model-definition check, the lugging limit (engine speed from kinematics ω = v·i/r):
+    # above first gear, no pulling interval runs below it
     ratio_sel = np.array([3.5, 2.0, 1.3, 1.0, 0.8])[op["gear"][pulling] - 1] * 4.0
     w_sel = vm[pulling] * ratio_sel / 0.3
     up = op["gear"][pulling] > 1
@@ -294,7 +307,8 @@ def test_speed_rule_downshifts_instead_of_lugging(tmp_path):
     op = pt.operation(f, vm)
     ratios = np.array([3.5, 2.0, 1.3, 1.0, 0.8]) * 4.0
     scheduled = 1 + np.searchsorted(np.array([10, 20, 30, 40]) / 3.6, vm, side="right")
-    # brute force: the highest gear at or above 1300 rpm, at most the scheduled gear
+    # model-definition check against a brute-force reference (kinematics ω = v·i/r): the
+    # highest gear at or above 1300 rpm, at most the scheduled gear
     w = vm[:, None] * ratios[None, :] / 0.3
     ok = w >= 1300 * TWO_PI / 60
     highest_ok = np.array([np.max(np.nonzero(row)[0]) + 1 if row.any() else 1 for row in ok])
@@ -320,7 +334,8 @@ def _constant_friction_pt(acc_kw, **over):
 @pytest.mark.parametrize("form, off_at_rest", [("constant", False), ("mep", False),
                                                ("mep", True)])
 def test_accessory_power_adds_exactly_its_work_over_e_times_lhv(tmp_path, form, off_at_rest):
-    # Willans line (Guzzella & Sciarretta §3.2): ṁ = (P_e + P_0) / (e·H_l). The accessories
+    # Willans line (Guzzella & Sciarretta §3.2, section number from memory):
+    # ṁ = (P_e + P_0) / (e·H_l). The accessories
     # add P_acc to the brake power whenever the engine runs, so the fuel rate rises by
     # exactly P_acc / (e·H_l) and the fuel by P_acc·t / (e·H_l) (no cut-off, so the engine
     # is fuelled in every interval; stopped at rest, the engine charges the standstill
@@ -345,7 +360,8 @@ def test_accessory_power_adds_exactly_its_work_over_e_times_lhv(tmp_path, form, 
 
 def test_accessory_power_at_idle_and_per_vehicle(tmp_path):
     # at standstill: the given idle rate plus P_acc/(e·H_l) (Willans line at idle speed);
-    # an (N,) accessory power gives (N,) results equal to N separate runs
+    # consistency check (vectorized vs single runs): an (N,) accessory power gives (N,)
+    # results equal to N separate runs
     prof = constant_speed(0.0, 600.0)
     v = write_vehicle(tmp_path, _constant_friction_pt(0.5))
     pt = v.powertrain
@@ -365,8 +381,9 @@ def test_accessory_power_at_idle_and_per_vehicle(tmp_path):
 
 
 def test_lowest_pulling_speed_per_vehicle_matches_one_run_each(tmp_path):
-    # an (N,) lowest pulling speed gives (N,) results equal to N separate runs; a higher
-    # floor cannot lower the fuel of the lowest-fuel gear choice (it only removes gears)
+    # consistency check (vectorized vs single runs): an (N,) lowest pulling speed gives
+    # (N,) results equal to N separate runs; a higher floor cannot lower the fuel of the
+    # lowest-fuel gear choice (it only removes gears: a minimum over fewer options)
     v = write_vehicle(tmp_path, map_pt(shift_rule="efficient", upshift_speeds_kmh=None,
                                        accessory_power_kw=0.4))
     pt = v.powertrain
@@ -405,7 +422,8 @@ def test_overrun_fuel_follows_the_willans_line_below_zero_load(tmp_path, cutoff)
 
 def test_bsfc_map_below_zero_torque_continues_the_willans_line(tmp_path):
     # a map built from a Willans line, read at negative torque, gives the line continued
-    # (Guzzella & Sciarretta §3.2) and no fuel below the motoring torque −P_0/ω
+    # (Guzzella & Sciarretta §3.2, section number from memory) and no fuel below the
+    # motoring torque −P_0/ω
     v = write_vehicle(tmp_path, map_pt())
     eng = v.powertrain.engine
     lhv = FUELS["diesel"].lhv_j_per_kg
@@ -421,13 +439,17 @@ def test_bsfc_map_below_zero_torque_continues_the_willans_line(tmp_path):
 def test_engine_limit_is_flagged(tmp_path):
     v = write_vehicle(tmp_path, willans_pt(full_load={"speed_rpm": [800, 6000],
                                                       "torque_nm": [40, 40]}))
-    # 150 km/h needs ≈ (120 + 0.03·150²) N × 41.7 m/s ≈ 33 kW; 40 N·m at 3980 rpm is 16.7 kW
+    # P = F·v and P = T·ω (physics): 150 km/h needs (120 + 0.03·150²) N × 41.7 m/s = 33.1 kW
+    # at the wheels; in 5th gear the engine turns 41.7 × 3.2 / 0.3 = 444 rad/s (4244 rpm),
+    # where 40 N·m gives 17.8 kW
     prof = constant_speed(150 / 3.6, 30.0)
     r = v.powertrain.consume(v, vehicle_wheel_demand(v, prof), prof)
     assert r.engine_limit_exceeded_s == pytest.approx(30.0)
 
 
 def test_vehicle_axis_gives_one_result_per_vehicle(tmp_path):
+    # consistency check (no outside reference): the vectorized run over a vehicle axis
+    # equals one run per vehicle
     v = write_vehicle(tmp_path, map_pt(shift_rule="efficient", upshift_speeds_kmh=None))
     prof = resolve_profile("udds")
     masses = np.array([1200.0, 1500.0, 1800.0, 2100.0])
@@ -439,8 +461,9 @@ def test_vehicle_axis_gives_one_result_per_vehicle(tmp_path):
         di = wheel_demand(rl, m, m * 1.03, prof.time_s, prof.speed_ms, prof.grade_fraction)
         assert r.fuel_kg[i] == pytest.approx(v.powertrain.consume(v, di, prof).fuel_kg,
                                              rel=1e-12)
+    # physics (direction check): the inertial force m_eff·a grows with mass
     assert np.all(np.diff(r.fuel_kg) > 0)
-    assert len(r.to_dict()["fuel_l_per_100km"]) == 4
+    assert len(r.to_dict()["fuel_l_per_100km"]) == 4      # interface check (JSON shape)
 
 
 # -- units of the results ------------------------------------------------------------
@@ -455,7 +478,7 @@ def test_mpg_and_litres_per_100km_are_exact_reciprocals(tmp_path):
     assert 100 * GAL_L / MILE_KM == pytest.approx(235.2146, abs=1e-4)
     # US EPA label arithmetic for gasoline: CO2 [g/mile] = 8887 / mpg
     assert r.co2_g_per_km * MILE_KM == pytest.approx(8887 / r.mpg_us, rel=1e-12)
-    # tank range = tank / fuel per km
+    # tank range = tank / fuel per km (definition)
     assert r.range_km == pytest.approx(60 / (r.fuel_l / r.distance_km), rel=1e-12)
 
 
@@ -464,7 +487,9 @@ def test_cng_reports_mass_not_volume(tmp_path):
     prof = resolve_profile("udds")
     r = v.powertrain.consume(v, vehicle_wheel_demand(v, prof), prof)
     out = r.to_dict()
+    # model definition: a gaseous fuel has no litres or mpg
     assert out["fuel_l"] is None and out["mpg_us"] is None
+    # tank range = tank mass / fuel mass per km (definition)
     assert out["range_km"] == pytest.approx(18 / (r.fuel_kg / r.distance_km), rel=1e-12)
     curve = range_curve(v, [50, 100])
     assert "fuel_kg_per_100km" in curve.columns
@@ -494,6 +519,8 @@ def test_distance_weighted_harmonic_mean_matches_epa_report_example():
 
 
 def test_combustion_range_curve_matches_steady_consumption(tmp_path):
+    # consistency check (range curve vs a constant-speed run, no outside reference); the
+    # gears follow the speed rule (upshifts at 20/40/60/80 km/h: model definition)
     v = write_vehicle(tmp_path, willans_pt())
     curve = range_curve(v, [30, 72, 110])
     prof = constant_speed(20.0, 600.0)
@@ -533,6 +560,7 @@ def test_combustion_range_curve_matches_steady_consumption(tmp_path):
      "powertrain.bsfc_map.torque_nm", "above 0"),
 ])
 def test_wrong_or_missing_value_gives_one_line_error(tmp_path, over, field, words):
+    # interface check (project rule: one-line InputError naming file and field)
     pt = willans_pt(**over)
     pt = {k: v for k, v in pt.items() if v is not None}
     path = tmp_path / "bad.yaml"
@@ -548,8 +576,8 @@ def test_wrong_or_missing_value_gives_one_line_error(tmp_path, over, field, word
 
 
 def test_parameters_per_vehicle_match_one_run_each(tmp_path):
-    # Monte Carlo over engine parameters: arrays of shape (N,) give (N,) results equal to
-    # N separate runs, with or without a vehicle axis on the demand
+    # consistency check (vectorized vs single runs), Monte Carlo over engine parameters:
+    # arrays of shape (N,) give (N,) results equal to N separate runs
     v = write_vehicle(tmp_path, willans_pt(shift_rule="efficient", upshift_speeds_kmh=None,
                                            idle_fuel_l_per_h=0.7))
     pt = v.powertrain

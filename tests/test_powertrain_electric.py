@@ -63,7 +63,9 @@ def test_no_regeneration_uses_positive_energy_over_drive_efficiency(tmp_path):
 
 
 def test_auxiliary_load_runs_for_the_whole_profile_including_stops(tmp_path):
-    # energy = power × time: 1.5 kW over the UDDS's 1369 s (40 CFR 86 App. I duration)
+    # energy = power × time (definition): 1.5 kW over the UDDS's 1369 s. 1369 s is the
+    # UDDS table duration as listed in the drive-cycle SOURCES.md: the regulator's headline
+    # figure as commonly cited, not confirmed in the regulation text.
     v = vehicle(tmp_path, """
         kind: electric
         battery_usable_kwh: 50
@@ -74,9 +76,13 @@ def test_auxiliary_load_runs_for_the_whole_profile_including_stops(tmp_path):
     prof = resolve_profile("udds")
     d = vehicle_wheel_demand(v, prof)
     r = v.powertrain.consume(v, d, prof)
+    # the profile spans that headline duration (commonly cited figure, see above)
+    assert prof.time_s[-1] - prof.time_s[0] == 1369.0
     assert r.auxiliary_energy_kwh == pytest.approx(1.5 * 1369 / 3600, rel=1e-12)
+    # battery = traction energy / η (definition of η) + auxiliary energy (energy balance)
     assert r.battery_energy_kwh == pytest.approx(
         d.positive_energy_j / KWH / 0.9 + 1.5 * 1369 / 3600, rel=1e-12)
+    # wall = battery / charger efficiency (definition of an efficiency)
     assert r.wall_energy_kwh == pytest.approx(r.battery_energy_kwh / 0.88, rel=1e-12)
     assert r.wall_wh_per_km == pytest.approx(r.battery_wh_per_km / 0.88, rel=1e-12)
 
@@ -90,14 +96,18 @@ def test_auxiliary_power_over_temperature_interpolates_and_holds_at_the_ends(tmp
         ambient_temperature_c: 5
         """)
     pt = v.powertrain
-    # linear between (-10 °C, 4 kW) and (20 °C, 0.5 kW): at 5 °C the midpoint 2.25 kW
+    # two-point linear interpolation formula, worked by hand: between (-10 °C, 4 kW) and
+    # (20 °C, 0.5 kW), at 5 °C: 4 + (5 + 10)/(20 + 10) × (0.5 − 4) = 2.25 kW (the midpoint)
     assert pt.auxiliary_power() == pytest.approx(2250.0)
+    # model-definition check: outside the table the end value is held, not extrapolated
+    # (linear extrapolation would give 6.33 kW at -30 °C and 2.375 kW at 45 °C)
     assert pt.auxiliary_power(-30) == pytest.approx(4000.0)
     assert pt.auxiliary_power(45) == pytest.approx(2000.0)
     prof = constant_speed(20.0, 600.0)
     d = vehicle_wheel_demand(v, prof)
     cold = pt.consume(v, d, prof, ambient_temperature_c=-10)
     mild = pt.consume(v, d, prof, ambient_temperature_c=20)
+    # energy = power × time (definition): (4 − 0.5) kW more for 600 s, same traction energy
     assert cold.battery_energy_kwh - mild.battery_energy_kwh == pytest.approx(
         3.5 * 600 / 3600, rel=1e-12)
 
@@ -122,19 +132,24 @@ def test_regeneration_share_fade_and_power_limit(tmp_path):
     v = vehicle(tmp_path, base.format(fade=0, limit=""))
     d = _decel_demand(v)
     brake_w = -d.force_n * d.intervals.speed_ms
-    assert np.all(brake_w > 0)
+    assert np.all(brake_w > 0)      # precondition of the test case: every interval brakes
     r = v.powertrain.consume(v, d)
-    # every interval brakes: regenerated = η · share · braking energy
+    # model-definition check (the regeneration model's defining equation, a recoverable
+    # share of the braking energy through a charging efficiency): every interval brakes, so
+    # regenerated = η · share · braking energy
     assert r.regenerated_energy_kwh == pytest.approx(0.8 * 0.6 * d.negative_energy_j / KWH,
                                                      rel=1e-12)
-    # linear fade below 36 km/h (10 m/s): factor v/10 m/s on each interval
+    # model-definition check: linear fade below 36 km/h (10 m/s), factor v/10 m/s on each
+    # interval; energy = Σ power × Δt
     v2 = vehicle(tmp_path, base.format(fade=36, limit=""), name="b.yaml")
     r2 = v2.powertrain.consume(v2, d)
     fade = np.minimum(d.intervals.speed_ms / 10.0, 1.0)
     assert r2.regenerated_energy_kwh == pytest.approx(
         0.8 * 0.6 * np.sum(brake_w * fade * d.intervals.dt_s) / KWH, rel=1e-12)
+    # consistency check: a fade factor ≤ 1, below 1 on some intervals, can only remove energy
     assert r2.regenerated_energy_kwh < r.regenerated_energy_kwh
-    # a 0.5 kW charging limit that binds in every interval: 0.5 kW × 20 s
+    # a 0.5 kW charging limit that binds in every interval (precondition asserted next):
+    # energy = power × time (definition), 0.5 kW × the trace's 20 one-second intervals
     v3 = vehicle(tmp_path, base.format(fade=0, limit=", max_power_kw: 0.5"), name="c.yaml")
     assert np.all(0.8 * 0.6 * brake_w > 500)
     r3 = v3.powertrain.consume(v3, d)
@@ -153,8 +168,12 @@ def test_bilinear_matches_scipy_regular_grid_interpolator():
     qy = rng.uniform(0, 150, 500)
     assert bilinear(x, y, z, qx, qy) == pytest.approx(ref(np.column_stack([qy, qx])),
                                                       rel=1e-12)
-    # outside the grid the edge value is held (same as clamping the query first)
+    # model-definition check: outside the grid the edge value is held (the query is clamped
+    # to the grid first, no extrapolation); the corner (x = 9000, y = 0) is the node z[0, -1]
     assert bilinear(x, y, z, 20000.0, -5.0) == pytest.approx(z[0, -1])
+    # off a corner: the clamped query read with scipy's RegularGridInterpolator (reference)
+    assert bilinear(x, y, z, 20000.0, 75.0) == pytest.approx(ref([[75.0, 9000.0]])[0],
+                                                             rel=1e-12)
 
 
 MAP_PT = """
@@ -241,11 +260,13 @@ def test_speed_of_greatest_range_matches_closed_form(tmp_path):
     curve = range_curve(v, np.arange(20, 161, 10))
     assert not curve.best_at_edge
     assert curve.best_speed_kmh == pytest.approx(v_star_kmh, abs=1e-3)
+    # consistency check: the optimum is at least as good as every sampled speed
     assert curve.best_range_km >= curve.range_km.max()
 
 
 def test_without_auxiliary_load_range_is_greatest_at_the_lowest_speed(tmp_path):
-    # c(v) = (f0 + f2 v²)/η rises with speed: no interior optimum
+    # road-load equation: c(v) = (f0 + f1 v + f2 v²)/η with f0, f1, f2 > 0 rises with speed,
+    # so range = usable / c falls: no interior optimum
     v = vehicle(tmp_path, """
         kind: electric
         battery_usable_kwh: 64
@@ -258,6 +279,8 @@ def test_without_auxiliary_load_range_is_greatest_at_the_lowest_speed(tmp_path):
 
 
 def test_vehicle_axis_gives_one_result_per_vehicle(tmp_path):
+    # consistency check (no outside reference): the vectorized run over a vehicle axis
+    # gives, entry by entry, the single-vehicle runs
     v = vehicle(tmp_path, """
         kind: electric
         battery_usable_kwh: 55
@@ -279,7 +302,10 @@ def test_vehicle_axis_gives_one_result_per_vehicle(tmp_path):
         assert r.battery_energy_kwh[i] == pytest.approx(ri.battery_energy_kwh, rel=1e-12)
         assert r.regenerated_energy_kwh[i] == pytest.approx(ri.regenerated_energy_kwh,
                                                             rel=1e-12)
-    assert np.all(np.diff(r.battery_energy_kwh) > 0)   # heavier uses more
+    # physics (direction check): the inertial force m_eff·a grows with mass, and with drive
+    # efficiency < 1 and only part of the braking energy recovered (0.65 share, 0.7
+    # efficiency) the extra braking energy won back is less than the extra traction energy
+    assert np.all(np.diff(r.battery_energy_kwh) > 0)
     out = r.to_dict()
     assert isinstance(out["battery_energy_kwh"], list) and len(out["range_km"]) == 3
 
@@ -295,18 +321,23 @@ def test_motor_envelope_flags_demands_it_cannot_meet(tmp_path):
         motor: {peak_power_kw: 30, peak_torque_nm: 120}
         auxiliary_power_kw: 0
         """)
-    # 30 kW cannot hold 160 km/h against this road load (≈ 1000 N × 44 m/s)
+    # P = F·v (physics): 160 km/h needs 120 + 0.3·160 + 0.03·160² = 936 N at 44.4 m/s,
+    # 41.6 kW at the wheels, more than the 30 kW motor
     prof = constant_speed(160 / 3.6, 60.0)
     r = v.powertrain.consume(v, vehicle_wheel_demand(v, prof), prof)
     assert r.motor_limit_exceeded_s == pytest.approx(60.0)
     prof2 = constant_speed(50 / 3.6, 60.0)
     r2 = v.powertrain.consume(v, vehicle_wheel_demand(v, prof2), prof2)
+    # P = F·v: 50 km/h needs 210 N × 13.9 m/s = 2.9 kW and 210·0.3/(8·0.97) = 8.1 N·m at
+    # the motor, well inside 30 kW and 120 N·m
     assert r2.motor_limit_exceeded_s == 0.0
 
 
 def test_electric_mix_weights_consumption_by_distance(tmp_path):
-    # combined consumption per km = Σ share × per-km consumption (distance weighting,
-    # 40 CFR 600 App. II); range = usable / that
+    # 40 CFR 600 App. II combines city and highway fuel economies 55/45 by the harmonic
+    # mean, 1/(0.55/city + 0.45/highway) (its worked example is in mpg). Consumption per
+    # distance is 1/economy, so the share-weighted arithmetic mean of Wh/km is the same
+    # harmonic mean of the economies (km/Wh); range = usable / that (definition)
     v = vehicle(tmp_path, """
         kind: electric
         battery_usable_kwh: 60
@@ -321,12 +352,19 @@ def test_electric_mix_weights_consumption_by_distance(tmp_path):
     per_km = 0.55 * res[0].battery_wh_per_km + 0.45 * res[1].battery_wh_per_km
     d = mix.to_dict()
     assert d["battery_wh_per_km"] == pytest.approx(per_km, rel=1e-12)
+    # the appendix's harmonic rule written on the economies km/Wh = 1 / (Wh/km)
+    economy = [1 / x.battery_wh_per_km for x in res]
+    harmonic = 1 / (0.55 / economy[0] + 0.45 / economy[1])
+    assert 1 / d["battery_wh_per_km"] == pytest.approx(harmonic, rel=1e-12)
     assert d["range_km"] == pytest.approx(60e3 / per_km, rel=1e-12)
+    # shares that do not sum to 1 are a user mistake (project rule: InputError)
     with pytest.raises(InputError):
         mix_results(res, [0.5, 0.4])
 
 
 def test_result_json_keys(tmp_path):
+    # interface check (project rule: JSON-ready results with unit-carrying keys); no
+    # outside reference
     v = vehicle(tmp_path, IDEAL)
     prof = resolve_profile("udds")
     out = v.powertrain.consume(v, vehicle_wheel_demand(v, prof), prof).to_dict()
@@ -362,6 +400,7 @@ def test_result_json_keys(tmp_path):
     ("kind: hybrid\nbattery_usable_kwh: 50", "powertrain.kind", "electric, combustion"),
 ])
 def test_wrong_or_missing_value_gives_one_line_error(tmp_path, body, field, words):
+    # interface check (project rule: one-line InputError naming file and field)
     path = tmp_path / "bad.yaml"
     path.write_text("name: x\nmass_kg: 1500\nroad_load: {f0_n: 100, f2_n_per_kmh2: 0.03}\n"
                     "powertrain:\n" + textwrap.indent(body, "  ") + "\n")
@@ -375,8 +414,8 @@ def test_wrong_or_missing_value_gives_one_line_error(tmp_path, body, field, word
 
 
 def test_parameters_per_vehicle_match_one_run_each(tmp_path):
-    # Monte Carlo over powertrain parameters: arrays of shape (N,) give (N,) results equal
-    # to N separate runs
+    # consistency check (no outside reference), Monte Carlo over powertrain parameters:
+    # arrays of shape (N,) give (N,) results equal to N separate runs
     import dataclasses
 
     v = vehicle(tmp_path, """
