@@ -126,3 +126,34 @@ def test_payback_is_cost_over_annual_saving(money):
     assert n >= 3
     assert money.row("both", "duty").metrics["modification_cost"] == 630.0
     assert money.currency == "GBP"
+
+
+@pytest.mark.parametrize("charging", [None, 0.85])
+def test_charging_loss_is_stated_or_warned(tmp_path, charging):
+    # bought energy = battery energy / charging efficiency; US DOE VTO Fact #750 (2012):
+    # charging loses 16-19 %, so a study that counts none says so
+    (tmp_path / "van.yaml").write_text(EV.replace("  charger_efficiency: 0.9\n", ""))
+    study = STUDY.replace("  electricity_co2_g_per_kwh: 200\n",
+                          "  electricity_co2_g_per_kwh: 200\n" +
+                          (f"  charging_efficiency: {charging}\n" if charging else ""))
+    (tmp_path / "study.yaml").write_text(study)
+    res = run_study(tmp_path / "study.yaml")
+    notes = [w for w in res.warnings if "charging loss" in w]
+    for row in res.rows:
+        m = row.metrics
+        assert "wall_wh_per_km" not in m
+        battery = m["battery_wh_per_km"] * 30.0          # kWh per 30 000 km
+        assert m["annual_grid_energy_kwh"] == pytest.approx(battery / (charging or 1.0),
+                                                            rel=1e-12)
+        assert m["annual_co2_kg"] == pytest.approx(m["annual_grid_energy_kwh"] * 0.2,
+                                                   rel=1e-12)
+    if charging is None:
+        assert len(notes) == 1 and "16-19 %" in notes[0] and "US DOE VTO Fact #750" in notes[0]
+        assert "baseline" in notes[0] and "economics.charging_efficiency" in notes[0]
+        assert res.economics["charging_efficiency"] is None
+    else:
+        assert notes == []
+
+
+def test_no_charging_note_when_the_powertrain_states_its_charger(money):
+    assert not any("charging loss" in w for w in money.warnings)

@@ -171,3 +171,26 @@ def test_unknown_output_type_writes_nothing(tmp_path, capsys):
                          "-o", str(tmp_path / "b.txt")], capsys)
     assert code == 2 and "b.txt" in err
     assert not (tmp_path / "a.csv").exists() and not (tmp_path / "b.txt").exists()
+
+
+@pytest.mark.parametrize("draws", ["1000000000", "200001", "-1"])
+def test_draws_on_the_command_line_keep_the_study_cap(tmp_path, capsys, draws):
+    # the study file allows 0 to 200000 draws (uncertainty.draws); the option the same
+    path = _setup(tmp_path, GOOD)
+    out = tmp_path / "out.csv"
+    code, stdout, err = _run(["compare", str(path), "--draws", draws, "-o", str(out)], capsys)
+    assert code == 2
+    lines = err.strip().splitlines()
+    assert len(lines) == 1 and "--draws" in lines[0] and "200000" in lines[0], err
+    assert not out.exists() and stdout == ""
+
+
+def test_output_files_come_with_the_summary_table(tmp_path, capsys):
+    path = _setup(tmp_path, GOOD)
+    out = tmp_path / "out.csv"
+    code, stdout, err = _run(["compare", str(path), "-o", str(out)], capsys)
+    assert code == 0 and out.exists()
+    lines = stdout.splitlines()
+    assert lines[0].startswith("good  (metric units")
+    assert any(line.startswith("rack") for line in lines)
+    assert lines[-1] == f"wrote {out}"

@@ -113,6 +113,7 @@ def test_helpers():
 
 def test_atomic_write_replaces_whole_file_and_cleans_up(tmp_path):
     target = tmp_path / "sub" / "r.txt"
+    target.parent.mkdir()
     write_text_atomic(target, "first")
     assert target.read_text() == "first"
 

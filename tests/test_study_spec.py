@@ -11,7 +11,8 @@ import numpy as np
 import pytest
 
 from tractive.cli import main
-from tractive.study.modify import tyre_class_interval_kg_t, tyre_label_crr
+from tractive.study.modify import (TYRE_CLASS_UPPER_KG_T, parse_tyre_label,
+                                   tyre_class_interval_kg_t, tyre_label_crr)
 from tractive.study.spec import load_study
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -44,24 +45,85 @@ driving:
     assert spec.name == "study" and spec.draws > 0
 
 
-def test_tyre_label_classes():
+def test_tyre_label_classes_of_regulation_1222_2009():
     # Regulation (EC) No 1222/2009 Annex I Part A, C2 class B: 5.6-6.7 kg/t, i.e. the
     # interval above class A's limit 5.5 up to 6.7; middle 6.1 kg/t = Crr 0.0061; a value
     # known only to lie in an interval of width w has sd w / sqrt(12) (GUM 4.3.7)
-    crr, sd = tyre_label_crr("C2/B")
+    crr, sd = tyre_label_crr("C2/B 1222/2009")
     assert crr == pytest.approx(0.0061)
     assert sd == pytest.approx(0.0012 / math.sqrt(12))
-    assert tyre_class_interval_kg_t("C1", "E") == (9.0, 10.5)     # C1 E: 9.1-10.5
-    assert tyre_class_interval_kg_t("C3", "D") == (6.0, 7.0)      # C3 D: 6.1-7.0
-    assert tyre_class_interval_kg_t("C1", "A")[1] == 6.5          # C1 A: <= 6.5
-    assert tyre_class_interval_kg_t("C2", "G")[0] == 10.5         # C2 G: >= 10.6
-    with pytest.raises(ValueError):
-        tyre_label_crr("C1/D")                                    # no class D for C1
-    # class order: every class middle above the one before
+    old = "1222/2009"
+    assert tyre_class_interval_kg_t("C1", "E", old) == (9.0, 10.5)     # C1 E: 9.1-10.5
+    assert tyre_class_interval_kg_t("C3", "D", old) == (6.0, 7.0)      # C3 D: 6.1-7.0
+    assert tyre_class_interval_kg_t("C1", "A", old)[1] == 6.5          # C1 A: <= 6.5
+    assert tyre_class_interval_kg_t("C2", "G", old)[0] == 10.5         # C2 G: >= 10.6
+    with pytest.raises(ValueError, match="class D does not exist"):
+        tyre_label_crr("C1/D 1222/2009")                               # no class D for C1
     for cat in ("C1", "C2", "C3"):
-        from tractive.study.modify import TYRE_CLASS_UPPER_KG_T
-        mids = [tyre_label_crr(f"{cat}/{c}")[0] for c in TYRE_CLASS_UPPER_KG_T[cat]]
+        mids = [tyre_label_crr(f"{cat}/{c} {old}")[0] for c in TYRE_CLASS_UPPER_KG_T[old][cat]]
         assert np.all(np.diff(mids) > 0)
+
+
+def test_tyre_label_classes_of_regulation_2020_740():
+    # Regulation (EU) 2020/740 Annex I Part A keeps classes A-E: the empty D of C1/C2 is
+    # dropped, the old E becomes D and the old F/G merge into E (structure confirmed;
+    # boundaries from memory: C1 D 9.1-10.5, E >= 10.6; C2 D 8.1-9.2, E >= 9.3;
+    # C3 D 6.1-7.0, E >= 7.1; A-C as in (EC) 1222/2009)
+    new, old = "2020/740", "1222/2009"
+    for cat in ("C1", "C2", "C3"):
+        assert list(TYRE_CLASS_UPPER_KG_T[new][cat]) == ["A", "B", "C", "D", "E"]
+        for c in "ABC":
+            assert tyre_class_interval_kg_t(cat, c, new) == tyre_class_interval_kg_t(cat, c, old)
+    for cat in ("C1", "C2"):
+        assert tyre_class_interval_kg_t(cat, "D", new) == tyre_class_interval_kg_t(cat, "E", old)
+        assert tyre_class_interval_kg_t(cat, "E", new)[0] == \
+            tyre_class_interval_kg_t(cat, "F", old)[0]
+    assert tyre_class_interval_kg_t("C3", "D", new) == (6.0, 7.0)
+    assert tyre_class_interval_kg_t("C3", "E", new)[0] == 7.0
+    assert tyre_class_interval_kg_t("C2", "E", new)[0] == 9.2
+    assert tyre_class_interval_kg_t("C1", "E", new)[0] == 10.5
+    # a label without a regulation is read under 2020/740; three ways of writing it
+    assert tyre_label_crr("C2/D") == tyre_label_crr("C2/D 2020/740") == \
+        tyre_label_crr("C2/D (EU) 2020/740") == \
+        tyre_label_crr({"category": "C2", "class": "D", "regulation": "2020/740"})
+    assert tyre_label_crr("C2/D")[0] == pytest.approx(0.0086)        # (8.0 + 9.2) / 2 kg/t
+    assert parse_tyre_label("C2/D").stated is False
+    assert parse_tyre_label("c2/e 1222/2009") == parse_tyre_label(
+        {"category": "C2", "class": "E", "regulation": "1222/2009"})
+
+
+@pytest.mark.parametrize("text, words", [
+    ("C1/F", ["class F does not exist", "2020/740", "C1/F 1222/2009"]),
+    ("C2/G 2020/740", ["class G does not exist", "classes A, B, C, D, E"]),
+    ("C2/D 1222/2009", ["class D does not exist", "C2/D 2020/740"]),
+    ("C2/B 2021/999", ["unknown tyre-label regulation", "2020/740", "1222/2009"]),
+    ("C4/B", ["write the tyre category and class"]),
+])
+def test_tyre_label_classes_that_do_not_exist(text, words):
+    with pytest.raises(ValueError) as err:
+        parse_tyre_label(text)
+    for w in words:
+        assert w in str(err.value)
+
+
+def test_tyre_label_mistake_in_a_study_names_the_field(tmp_path):
+    from tractive.errors import InputError
+
+    (tmp_path / "car.yaml").write_text("name: c\nmass_kg: 1000\nroad_load:\n  cda_m2: 0.6\n"
+                                       "  crr: 0.01\n")
+    (tmp_path / "study.yaml").write_text("""\
+baseline: {vehicle: car.yaml}
+modifications:
+  - name: m
+    changes:
+      tyre_label: C1/G
+driving:
+  profiles: [udds]
+""")
+    with pytest.raises(InputError) as err:
+        load_study(tmp_path / "study.yaml")
+    assert err.value.field == "modifications[0].changes.tyre_label" and err.value.line == 5
+    assert "class G does not exist" in err.value.message
 
 
 @pytest.mark.parametrize("name", EXAMPLES)

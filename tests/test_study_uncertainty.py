@@ -417,3 +417,69 @@ uncertainty: {{draws: 4000, seed: 2}}
     row = res.row("other van", "steady:80kmh:600s")
     assert _sd_from_interval(row, "battery_energy_kwh") == \
         pytest.approx(0.2 * 600 / 3600, rel=0.06)
+
+
+def test_tyre_label_crr_is_drawn_uniformly_over_its_class(tmp_path):
+    # JCGM 101:2008 6.4.2: a quantity known only to lie in [a, b] has a rectangular
+    # distribution and is propagated by sampling it; its standard deviation is
+    # (b - a) / sqrt(12) (JCGM 100:2008 4.3.7). Checked with scipy's Kolmogorov-Smirnov
+    # test against scipy.stats.uniform.
+    from tractive.spec import read_yaml
+    from tractive.study import modify
+    from tractive.study.spec import Change
+    from tractive.study.uncertainty import expand, standard_normal_draws
+    from tractive.vehicle import load_vehicle
+
+    (tmp_path / "car.yaml").write_text(CAR.format(extra=""))
+    veh = load_vehicle(tmp_path / "car.yaml")
+    nom, _, _ = modify.nominal_params(veh, read_yaml(tmp_path / "car.yaml"),
+                                      air_density_kg_m3=None)
+    n = 20000
+    ps, _ = expand(nom, {}, None, {}, n)
+    label = modify.parse_tyre_label("C2/B 2020/740")       # 5.6-6.7 kg/t
+    z = standard_normal_draws(np.random.default_rng(5), n)
+    out = modify.apply_change(ps, Change("tyre_label", "set", label), z)
+    crr = out.params["crr"]
+    lo, hi = 5.5e-3, 6.7e-3
+    assert crr[0] == pytest.approx((lo + hi) / 2, rel=1e-12)        # nominal: class middle
+    drawn = crr[1:]
+    assert drawn.min() > lo and drawn.max() < hi                     # inside the class
+    width = hi - lo
+    # sampling error of a standard deviation of n uniform values: about 0.3 % here
+    assert drawn.std() == pytest.approx(width / np.sqrt(12), rel=0.02)
+    assert drawn.std() == pytest.approx(modify.tyre_label_crr(label)[1], rel=0.02)
+    assert stats.kstest(drawn, stats.uniform(loc=lo, scale=width).cdf).pvalue > 1e-3
+    # a normal draw with the same standard deviation would leave the class in 8 % of draws
+    assert 2 * stats.norm.sf(0.5 * np.sqrt(12)) > 0.05
+
+
+def test_tyre_label_interval_is_the_rectangular_one(tmp_path):
+    # at constant speed the traction energy is linear in Crr (road-load equation,
+    # Gillespie ch. 4), so the 95 % interval of the change maps the 2.5 % and 97.5 %
+    # quantiles of the rectangular distribution of Crr over the class: a + 0.025 (b - a)
+    # and a + 0.975 (b - a) (JCGM 101:2008 6.4.2); a normal distribution with the same
+    # standard deviation would give the middle -/+ 1.96 (b - a) / sqrt(12), outside it
+    (tmp_path / "car.yaml").write_text(CAR.format(extra=""))
+    (tmp_path / "study.yaml").write_text("""\
+baseline: {vehicle: car.yaml}
+modifications:
+  - name: tyres
+    changes: {tyre_label: C1/B 2020/740}
+driving:
+  profiles: ["steady:90kmh:600s"]
+uncertainty: {draws: 4000, seed: 3}
+""")
+    res = run_study(tmp_path / "study.yaml")
+    row = res.row("tyres", "steady:90kmh:600s")
+    per_crr_kwh = 1500 * STANDARD_GRAVITY_MS2 * 90 * KMH_MS * 600 / 3.6e6
+    lo, hi = 6.5e-3, 7.7e-3                   # C1 B: 6.6-7.7 kg/t, continuous (6.5, 7.7]
+    width = hi - lo
+    base = 0.010
+    assert row.change["positive_energy_kwh"] == pytest.approx(
+        ((lo + hi) / 2 - base) * per_crr_kwh, rel=1e-9)
+    low = row.change_low["positive_energy_kwh"] / per_crr_kwh + base
+    high = row.change_high["positive_energy_kwh"] / per_crr_kwh + base
+    # quantile sampling error at n = 4000: sqrt(p (1 - p) / n) (b - a) = 0.0025 (b - a)
+    assert low == pytest.approx(lo + 0.025 * width, abs=0.01 * width)
+    assert high == pytest.approx(lo + 0.975 * width, abs=0.01 * width)
+    assert any("uniform" in u and "C1/B" in u for u in res.uncertainty["uncertain_parameters"])

@@ -226,6 +226,9 @@ class CoefficientRoadLoad:
         The values exactly as written, with their keys.
     covariance : numpy.ndarray or None
         3×3 covariance of (f0, f1, f2) in [N², N²/(km/h), ...] GTR 15 units.
+    reference_air_density_kg_m3 : float or None
+        Air density [kg/m³] at which the coefficients hold (the reference state
+        they were corrected to); None when not stated.
     """
 
     f0_n: float
@@ -234,6 +237,7 @@ class CoefficientRoadLoad:
     form: str = "coastdown"
     given: dict = field(default_factory=dict)
     covariance: np.ndarray | None = None
+    reference_air_density_kg_m3: float | None = None
 
     def resolve(self, mass_kg=None) -> RoadLoad:
         return RoadLoad.from_coastdown(self.f0_n, self.f1_n_per_kmh, self.f2_n_per_kmh2)
@@ -245,6 +249,8 @@ class CoefficientRoadLoad:
             out.update(self.given)
         if self.covariance is not None:
             out["covariance"] = np.asarray(self.covariance).tolist()
+        if self.reference_air_density_kg_m3 is not None:
+            out["reference_air_density_kg_m3"] = self.reference_air_density_kg_m3
         return out
 
 

@@ -175,10 +175,17 @@ def _parse_coefficients(sec: Section) -> CoefficientRoadLoad:
         raise sec.error(f"must be positive (drag grows with speed squared), got {f2:g}",
                         "f2_n_per_kmh2")
     cov = _parse_uncertainty(sec, ("f0_std_n", "f1_std_n_per_kmh", "f2_std_n_per_kmh2"))
+    rho_ref = _reference_air_density(sec)
     sec.finish()
     return CoefficientRoadLoad(f0, f1, f2, form="coastdown",
                                given={"f0_n": f0, "f1_n_per_kmh": f1, "f2_n_per_kmh2": f2},
-                               covariance=cov)
+                               covariance=cov, reference_air_density_kg_m3=rho_ref)
+
+
+def _reference_air_density(sec: Section) -> float | None:
+    """Optional ``reference_air_density_kg_m3``: the air density the coefficients hold at."""
+    return sec.number("reference_air_density_kg_m3", required=False, min=0.3, max=1.6,
+                      unit="kg/m^3")
 
 
 def _parse_dyno(sec: Section) -> CoefficientRoadLoad:
@@ -192,6 +199,7 @@ def _parse_dyno(sec: Section) -> CoefficientRoadLoad:
                         "c_lbf_per_mph2")
     std_keys = ("a_std_lbf", "b_std_lbf_per_mph", "c_std_lbf_per_mph2")
     cov = _parse_uncertainty(sec, std_keys)
+    rho_ref = _reference_air_density(sec)
     sec.finish()
     rl = RoadLoad.from_dyno(a, b, c).coastdown_coefficients()
     if cov is not None:
@@ -200,7 +208,7 @@ def _parse_dyno(sec: Section) -> CoefficientRoadLoad:
         cov = scale @ cov @ scale
     return CoefficientRoadLoad(rl["f0_n"], rl["f1_n_per_kmh"], rl["f2_n_per_kmh2"], form="dyno",
                                given={"a_lbf": a, "b_lbf_per_mph": b, "c_lbf_per_mph2": c},
-                               covariance=cov)
+                               covariance=cov, reference_air_density_kg_m3=rho_ref)
 
 
 def _parse_uncertainty(sec: Section, std_keys) -> np.ndarray | None:

@@ -57,7 +57,8 @@ def write_output(result, path: str, *, inputs) -> Path:
                    "Repeat for several.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
 @click.option("--draws", type=int, default=None, metavar="N",
-              help="Monte Carlo draws (overrides the study; 0 = nominal only).")
+              help="Monte Carlo draws (overrides the study; 0 = nominal only; at most "
+                   "200000).")
 @click.option("--seed", type=int, default=None, metavar="S",
               help="Random seed (overrides the study).")
 def compare_command(study_file, outputs, as_json, draws, seed):
@@ -68,10 +69,12 @@ def compare_command(study_file, outputs, as_json, draws, seed):
     how much of each change comes from aero, rolling, mass, downforce and
     powertrain (Shapley values).
     """
-    if draws is not None and draws < 0:
-        raise click.BadParameter("must not be negative", param_hint="--draws")
+    from ..study.spec import MAX_DRAWS
+
+    if draws is not None and not 0 <= draws <= MAX_DRAWS:
+        raise InputError(f"--draws must be from 0 to {MAX_DRAWS}, got {draws}")
     if seed is not None and seed < 0:
-        raise click.BadParameter("must not be negative", param_hint="--seed")
+        raise InputError(f"--seed must not be negative, got {seed}")
     from ..study.engine import run_study
 
     result = run_study(study_file, draws=draws, seed=seed,
@@ -88,12 +91,12 @@ def compare_command(study_file, outputs, as_json, draws, seed):
         write_output(result, out, inputs=inputs)
     if as_json:
         emit_json(result.to_dict())
-        return
-    if outputs:
-        for out in outputs:
-            click.echo(f"wrote {out}")
+        for w in result.warnings:
+            click.echo(f"tractive: note: {w}", err=True)
         return
     click.echo(text_summary(result))
+    for out in outputs:
+        click.echo(f"wrote {out}")
 
 
 def text_summary(result) -> str:

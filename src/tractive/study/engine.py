@@ -65,13 +65,17 @@ from .economics import annual_amount, net_present_value, simple_payback_years
 from .results import (BASELINE, COMBINATION, MODIFICATION, PROFILE_INDEPENDENT, AttributionRow,
                       InputItem, ProfileInfo, RangeCurveSeries, ResultRow, StudyResult,
                       TimeSeries, VariantInfo)
-from .spec import StudySpec, j2263_air_density_kg_m3, load_study
+from .spec import MAX_DRAWS, StudySpec, load_study
 from .uncertainty import (UNCERTAIN_PARAMS, clip, clip_powertrain, expand, interval,
                           standard_normal_draws)
 
 #: keys taken from a powertrain's consume(...).to_dict()
 POWERTRAIN_KEYS = ("battery_energy_kwh", "battery_wh_per_km", "wall_wh_per_km", "fuel_l",
-                   "fuel_l_per_100km", "co2_g_per_km", "range_km")
+                   "fuel_l_per_100km", "co2_g_per_km", "range_km", "motor_limit_exceeded_s",
+                   "engine_limit_exceeded_s")
+#: time [s] the drive would need more than it has to follow a profile, and its wording
+LIMIT_KEYS = {"motor_limit_exceeded_s": "the motor's peak power or torque",
+              "engine_limit_exceeded_s": "the engine's full load or rev limit"}
 #: keys taken from performance_summary(...).to_dict()
 PERFORMANCE_KEYS = ("top_speed_kmh", "accel_0_100_kmh_s", "accel_80_120_kmh_s")
 #: metrics attributed to parameter groups (when present)
@@ -114,6 +118,8 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
     n = spec.draws if draws is None else int(draws)
     if n < 0:
         raise InputError("draws must not be negative", field="draws")
+    if n > MAX_DRAWS:
+        raise InputError(f"at most {MAX_DRAWS} Monte Carlo draws, got {n}", field="draws")
     seed = spec.seed if seed is None else int(seed)
     rng = np.random.default_rng(seed)
     warnings: list[str] = []
@@ -145,7 +151,6 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
         infos.append(ProfileInfo(mx.name, "mix", "", None, None, dict(mx.shares_pct)))
 
     # -- variants -----------------------------------------------------------
-    cda_rho = spec.air_density_kg_m3 or j2263_air_density_kg_m3()
     z_base = {name: standard_normal_draws(rng, n)
               for name in UNCERTAIN_PARAMS + ("coef0", "coef1", "coef2")}
     z_changes = {}
@@ -154,26 +159,34 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
         z_changes[owner] = [standard_normal_draws(rng, n) for _ in changes]
 
     base_nom, stds, cov = modify.nominal_params(spec.baseline, spec.baseline_raw,
-                                                air_density_kg_m3=spec.air_density_kg_m3,
-                                                cda_air_density_kg_m3=cda_rho)
+                                                air_density_kg_m3=spec.air_density_kg_m3)
     uncertain = [f"baseline {k} ± {v:g}" for k, v in stds.items()]
     if cov is not None:
         uncertain.append("baseline road-load coefficients (covariance)")
     base_mc, clipped = expand(base_nom, stds, cov, z_base, n)
     for ch, z in zip(spec.baseline_changes, z_changes["baseline"]):
-        base_mc = modify.apply_change(base_mc, ch, z)
+        base_mc = _apply(base_mc, ch, z, "baseline", warnings)
         if ch.std:
             uncertain.append(f"baseline {ch.key} ± {ch.std:g}")
+        if ch.key == "tyre_label":
+            uncertain.append(f"baseline {_label_uncertainty(ch.value)}")
     base_pt = dict(base_mc.pt_values)
     _note_clipped(warnings, "baseline", {**clipped, **clip(base_mc.params),
                                          **clip_powertrain(base_pt)})
     base_mc = replace(base_mc, pt_values=base_pt)
 
+    for owner, changes in [("baseline", spec.baseline_changes)] + \
+            [(f"modification '{m.name}'", m.changes) for m in spec.modifications]:
+        for ch in changes:
+            if ch.key == "tyre_label":
+                note = modify.tyre_label_note(ch.value)
+                if note:
+                    warnings.append(f"{owner}: {note}")
+
     mods = {m.name: m for m in spec.modifications}
     variants = [(BASELINE, BASELINE, base_mc, None, (), ())]
     for m in spec.modifications:
-        ps, unc = _build_variant(spec, [m], base_mc, z_base, z_changes, n, cda_rho, warnings,
-                                 m.name)
+        ps, unc = _build_variant(spec, [m], base_mc, z_base, z_changes, n, warnings, m.name)
         uncertain += unc
         variants.append((m.name, MODIFICATION, ps, m.cost, (m.name,), _describe([m])))
     for c in spec.combinations:
@@ -181,7 +194,7 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
         if sum(1 for m in members if m.vehicle is not None) > 1:
             raise InputError("a combination can hold at most one whole-vehicle modification",
                              file=spec.file, field=f"{c.field}.modifications", line=c.line)
-        ps, _ = _build_variant(spec, members, base_mc, z_base, z_changes, n, cda_rho, warnings,
+        ps, _ = _build_variant(spec, members, base_mc, z_base, z_changes, n, warnings,
                                c.name)
         costs = [m.cost for m in members]
         cost = None if any(x is None for x in costs) else float(sum(costs))
@@ -194,7 +207,9 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
         raw_results[name], demands[name] = _evaluate(ps, profiles, warnings,
                                                      spec.ambient_temperature_c,
                                                      chunk_size=chunk_size)
-    _check_money(spec, raw_results)
+    for name, *_ in variants:
+        _note_limits(name, raw_results[name], n, warnings)
+    _check_money(spec, raw_results, warnings)
     derived = {name: _derive(spec, raw_results[name]) for name, *_ in variants}
     base_derived = derived[BASELINE]
     for name, role, ps, cost, members, desc in variants:
@@ -282,14 +297,13 @@ def _describe(members) -> tuple:
     return tuple(out)
 
 
-def _build_variant(spec, members, base_mc, z_base, z_changes, n, cda_rho, warnings, label):
+def _build_variant(spec, members, base_mc, z_base, z_changes, n, warnings, label):
     uncertain = []
     whole = [m for m in members if m.vehicle is not None]
     if whole:
         m0 = whole[0]
         nom, stds, cov = modify.nominal_params(m0.vehicle, m0.raw,
-                                               air_density_kg_m3=spec.air_density_kg_m3,
-                                               cda_air_density_kg_m3=cda_rho)
+                                               air_density_kg_m3=spec.air_density_kg_m3)
         if nom.form == modify.COEFFICIENT and base_mc.form == modify.COEFFICIENT:
             # state the variant's rolling coefficients at the baseline mass, so that the
             # mass rule (rolling ∝ mass) applies to the mass change alone
@@ -309,13 +323,32 @@ def _build_variant(spec, members, base_mc, z_base, z_changes, n, cda_rho, warnin
         ps = base_mc
     for m in members:
         for ch, z in zip(m.changes, z_changes[m.name]):
-            ps = modify.apply_change(ps, ch, z)
+            ps = _apply(ps, ch, z, f"modification '{m.name}'", warnings)
             if ch.std:
                 uncertain.append(f"{m.name}: {ch.key} ± {ch.std:g}")
+            if ch.key == "tyre_label":
+                uncertain.append(f"{m.name}: {_label_uncertainty(ch.value)}")
     p = dict(ps.params)
     pt_values = dict(ps.pt_values)
     _note_clipped(warnings, label, {**clip(p), **clip_powertrain(pt_values)})
     return replace(ps, params=p, pt_values=pt_values), uncertain
+
+
+def _label_uncertainty(label) -> str:
+    """How a tyre-label class enters the Monte Carlo (for the uncertainty summary)."""
+    lo, hi = label.interval_kg_t()
+    _, std = modify.tyre_label_crr(label)
+    return (f"tyre_label {label.text()}: crr uniform over {lo / 1000:g} to {hi / 1000:g} "
+            f"(standard deviation {std:.3g} = width / √12)")
+
+
+def _apply(ps, change, z, owner, warnings):
+    """Apply one change, noting an absolute value that looks like a forgotten sign."""
+    out = modify.apply_change(ps, change, z)
+    note = modify.absolute_change_note(ps, out, change)
+    if note:
+        warnings.append(f"{owner}: {note}")
+    return out
 
 
 def _note_clipped(warnings, label, clipped):
@@ -471,7 +504,34 @@ def _performance(ps, warnings, every=False) -> dict:
     return out
 
 
-def _check_money(spec: StudySpec, raw_results) -> None:
+def _note_limits(name, per_profile: dict, n: int, warnings) -> None:
+    """Warn where a variant's drive cannot follow a profile (nominal vehicle or draws)."""
+    for key, what in LIMIT_KEYS.items():
+        in_draws = []
+        for profile, met in per_profile.items():
+            if key not in met:
+                continue
+            arr = np.asarray(met[key], float)
+            nominal = float(arr[0])
+            if nominal > 0.0:
+                warnings.append(
+                    f"{name} cannot follow the profile '{profile}': for {nominal:.1f} s it "
+                    f"would need more than {what}; its energy and fuel figures are for the "
+                    f"profile as written, which it cannot drive")
+            elif n > 0 and np.any(arr[1:] > 0.0):
+                share = float(np.mean(arr[1:] > 0.0)) * 100.0
+                in_draws.append(f"'{profile}' in {share:.2g} %")
+        if in_draws:
+            warnings.append(f"{name}: some Monte Carlo draws cannot follow a profile (they "
+                            f"would need more than {what}): {', '.join(in_draws)} of the "
+                            f"draws")
+
+
+#: share of the bought electricity lost in charging (US DOE VTO Fact #750, 2012)
+CHARGING_LOSS_TEXT = "charging typically loses 16-19 % (US DOE VTO Fact #750)"
+
+
+def _check_money(spec: StudySpec, raw_results, warnings) -> None:
     e = spec.economics
     if e is None:
         return
@@ -489,6 +549,16 @@ def _check_money(spec: StudySpec, raw_results) -> None:
     if fuel and e.fuel_price_per_l is None:
         raise e.error("missing: the vehicles burn fuel, so money needs fuel_price_per_l "
                       "(or fuel_price_per_gal)", "fuel_price_per_l")
+    if e.charging_efficiency is None:
+        lossless = [name for name, per_profile in raw_results.items()
+                    if any("battery_wh_per_km" in m and "wall_wh_per_km" not in m
+                           for m in per_profile.values())]
+        if lossless:
+            warnings.append(
+                f"no charging loss counted for {', '.join(lossless)}: neither the powertrain "
+                f"(charger_efficiency) nor economics.charging_efficiency states one, so the "
+                f"electricity bought, its cost and its CO2 equal the battery energy; "
+                f"{CHARGING_LOSS_TEXT}")
 
 
 def _mix(per_profile: dict, shares_pct: dict) -> dict:
@@ -533,8 +603,11 @@ def _annual(e, met: dict) -> None:
         if "wall_wh_per_km" in met:
             # the powertrain states its own charger efficiency
             grid = annual_amount(met["wall_wh_per_km"] / 1000.0, dist)
-        else:
+        elif e.charging_efficiency is not None:
             grid = battery / e.charging_efficiency
+        else:
+            # no charging efficiency anywhere: bought = stored (warned, see _check_money)
+            grid = battery
         met["annual_battery_energy_kwh"] = battery
         met["annual_grid_energy_kwh"] = grid
         if e.electricity_price_per_kwh is not None:

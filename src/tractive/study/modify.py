@@ -19,16 +19,26 @@ powertrain any ``powertrain.<key>`` or ``performance.<key>``; a different
 
 Physical road load (``cda_m2``, ``crr``, ...): a change acts on the parameter
 itself, and the road-load equation does the rest (mass changes the rolling
-force Crr·m·g and the inertia; downforce adds Crr·½ρ·ClA·v²).
+force Crr·m·g and the inertia; downforce adds Crr·½ρ·ClA·v²). A tyre's
+rolling coefficient changes as a whole (common practice): a percentage of
+``crr`` multiplies ``crr_per_kmh`` too, and a new tyre's Crr (an absolute
+``crr`` or a ``tyre_label``) scales ``crr_per_kmh`` by Crr_new / Crr_before; a
+signed amount on ``crr`` adds to the constant part only.
 
 Measured coefficients (``f0_n``/``f1_n_per_kmh``/``f2_n_per_kmh2``, or A/B/C
 converted to them) carry no Crr or CdA, so physical changes follow these
 rules (common practice: the rolling part of a coast-down load is taken to be
 f0 + f1·v, the aerodynamic part f2·v²):
 
-* ``cda_m2: +Δ`` adds ½·ρ·Δ to f2 (ρ from the study's ambient block, or the
-  SAE J2263 reference state 20 °C, 98.21 kPa when none is given, because
-  coast-down coefficients are corrected to it);
+* the coefficients hold at a reference air density ρ_ref: the road load's
+  ``reference_air_density_kg_m3`` when stated (a coast-down result states
+  the reference it was corrected to), else the reference state of the
+  standard of the form they are written in: f0/f1/f2 at UN GTR No. 15
+  (293 K, 100 kPa, 1.1890 kg/m³; from memory), A/B/C at SAE J2263 /
+  40 CFR 1066.805 (20 °C, 98.21 kPa, 1.1671 kg/m³);
+* the air of the study, ρ (its ambient block, else ρ_ref), scales the
+  measured aerodynamic term: f2 → f2 · ρ / ρ_ref;
+* ``cda_m2: +Δ`` adds ½·ρ·Δ to f2 (the same air);
 * ``crr: -15%`` multiplies the rolling part f0 and f1 by 0.85;
 * ``crr: +Δ`` adds Δ·m·g to f0 (``crr_per_kmh: +Δ`` adds Δ·m·g to f1);
 * ``mass_kg`` changes scale f0 and f1 by m_new / m_baseline, since rolling
@@ -40,20 +50,33 @@ f0 + f1·v, the aerodynamic part f2·v²):
 Order: the changes of one variant apply in the order written (for a
 combination: the modifications in the order listed, each in its own order).
 An absolute value replaces, a signed amount adds, a percentage multiplies.
+An absolute mass, CdA or Crr written in the short form that moves the value
+by more than 50 % gets a warning (:func:`absolute_change_note`): it is
+likely a forgotten sign.
 
-Tyre-label input: ``tyre_label: C2/B`` sets Crr to the middle of the class
-of Regulation (EC) No 1222/2009, Annex I Part A, with a standard uncertainty
-of class width / √12 (a value known only to lie in an interval is taken as
-uniformly distributed: JCGM 100:2008 (GUM), 4.3.7). The open-ended best and
-worst classes are taken one neighbouring-class width wide (an assumption of
-this tool).
+Tyre-label input: ``tyre_label: C2/B`` sets Crr from an EU label class of
+Regulation (EU) 2020/740 (labels since May 2021, classes A–E) or, written
+``C2/B 1222/2009``, of the older Regulation (EC) No 1222/2009 (classes A–G;
+D only for C3); a label without a regulation is read under 2020/740. The
+class is known, the value inside it is not: the nominal Crr is the class
+middle, and the Monte Carlo draws are uniform over the class (a rectangular
+distribution, propagated by sampling it, JCGM 101:2008 6.4.2), whose
+standard deviation is class width / √12 (JCGM 100:2008, 4.3.7). The
+open-ended best and worst classes are taken one neighbouring-class width
+wide (an assumption of this tool).
 
 References
 ----------
-.. [1] UN GTR No. 15, Annex 4 (road load as f0 + f1·v + f2·v²).
+.. [1] UN GTR No. 15, Annex 4 (road load as f0 + f1·v + f2·v²; reference
+   state for the aerodynamic term).
 .. [2] Regulation (EC) No 1222/2009 on the labelling of tyres, Annex I Part A.
-.. [3] JCGM 100:2008, Evaluation of measurement data - Guide to the
+.. [3] Regulation (EU) 2020/740 on the labelling of tyres, Annex I Part A.
+.. [4] JCGM 100:2008, Evaluation of measurement data - Guide to the
    expression of uncertainty in measurement, 4.3.7.
+.. [5] JCGM 101:2008, Supplement 1 to the GUM - Propagation of
+   distributions using a Monte Carlo method, 6.4.2 (rectangular
+   distribution).
+.. [6] SAE J2263; 40 CFR 1066.805 (road-load reference state).
 """
 
 from __future__ import annotations
@@ -66,6 +89,8 @@ from typing import Any
 
 import numpy as np
 
+from ..atmosphere import (J2263_REFERENCE_PRESSURE_PA, J2263_REFERENCE_TEMPERATURE_C,
+                          ZERO_CELSIUS_K, air_density_kg_m3)
 from ..errors import InputError
 from ..roadload import CoefficientRoadLoad, PhysicalRoadLoad, RoadLoad
 from ..spec import Section
@@ -87,7 +112,7 @@ COEFFICIENT_PARAMS = {"mass_kg": "mass", "rotating_mass_fraction": "mass",
                       "f0_n": "rolling", "f1_n_per_kmh": "rolling", "rolling_scale": "rolling",
                       "crr_add": "rolling", "crr_per_kmh_add": "rolling",
                       "f2_n_per_kmh2": "aero", "cda_add_m2": "aero",
-                      "air_density_kg_m3": "aero"}
+                      "air_density_kg_m3": "aero", "reference_air_density_kg_m3": "aero"}
 
 #: keys a change may target, per road-load form
 TARGETS_PHYSICAL = ("mass_kg", "rotating_mass_fraction", "cda_m2", "crr", "crr_per_kmh",
@@ -102,26 +127,146 @@ _LIMITS = {"mass_kg": (1e-6, 100000.0), "rotating_mass_fraction": (0.0, 1.0),
 
 
 # ---------------------------------------------------------------------------
-# tyre label classes, Regulation (EC) No 1222/2009 Annex I Part A [kg/t]
+# tyre label classes [kg/t]
 # ---------------------------------------------------------------------------
 
-#: upper class limits (RRC in kg/t = N/kN = 1000 × Crr), continuous form; the
-#: last class of each category is open-ended (None)
+#: regulation key → its name; labels since May 2021 follow (EU) 2020/740
+TYRE_REGULATIONS = {"2020/740": "Regulation (EU) 2020/740",
+                    "1222/2009": "Regulation (EC) No 1222/2009"}
+#: regulation of a label whose regulation is not written (the one in force for new labels)
+DEFAULT_TYRE_REGULATION = "2020/740"
+
+#: upper class limits (RRC in kg/t = N/kN = 1000 × Crr), continuous form, per regulation
+#: and tyre category; the last class of each category is open-ended (None).
+#: (EC) 1222/2009 Annex I Part A (read in the regulation); (EU) 2020/740 Annex I Part A
+#: keeps A-E: the empty D of C1/C2 is dropped, the old E becomes D and the old F/G (C3:
+#: E/F) merge into E (structure confirmed, boundaries from memory)
 TYRE_CLASS_UPPER_KG_T = {
-    "C1": {"A": 6.5, "B": 7.7, "C": 9.0, "E": 10.5, "F": 12.0, "G": None},
-    "C2": {"A": 5.5, "B": 6.7, "C": 8.0, "E": 9.2, "F": 10.5, "G": None},
-    "C3": {"A": 4.0, "B": 5.0, "C": 6.0, "D": 7.0, "E": 8.0, "F": None},
+    "1222/2009": {
+        "C1": {"A": 6.5, "B": 7.7, "C": 9.0, "E": 10.5, "F": 12.0, "G": None},
+        "C2": {"A": 5.5, "B": 6.7, "C": 8.0, "E": 9.2, "F": 10.5, "G": None},
+        "C3": {"A": 4.0, "B": 5.0, "C": 6.0, "D": 7.0, "E": 8.0, "F": None},
+    },
+    "2020/740": {
+        "C1": {"A": 6.5, "B": 7.7, "C": 9.0, "D": 10.5, "E": None},
+        "C2": {"A": 5.5, "B": 6.7, "C": 8.0, "D": 9.2, "E": None},
+        "C3": {"A": 4.0, "B": 5.0, "C": 6.0, "D": 7.0, "E": None},
+    },
 }
 
+_LABEL_RE = re.compile(
+    r"^\s*(C[123])\s*[/:\- ]\s*([A-Za-z])"
+    r"(?:\s*[,;]?\s*\(?\s*(?:(?:regulation|reg\.?)\s*)?(?:\(?(?:EU|EC)\)?\s*)?"
+    r"(?:No\.?\s*)?([0-9]+\s*/\s*[0-9]+)\s*\)?)?\s*$", re.IGNORECASE)
 
-def tyre_class_interval_kg_t(category: str, cls: str) -> tuple:
+
+@dataclass(frozen=True)
+class TyreLabel:
+    """An EU tyre-label rolling-resistance class.
+
+    Attributes
+    ----------
+    category : str
+        ``C1`` (car), ``C2`` (van) or ``C3`` (truck) tyres.
+    cls : str
+        Class letter.
+    regulation : str
+        ``"2020/740"`` or ``"1222/2009"`` (a key of :data:`TYRE_REGULATIONS`).
+    stated : bool
+        True when the regulation was written, False when it is the default.
+    """
+
+    category: str
+    cls: str
+    regulation: str = DEFAULT_TYRE_REGULATION
+    stated: bool = True
+
+    def interval_kg_t(self) -> tuple:
+        """Class interval (low, high] [kg/t] (see :func:`tyre_class_interval_kg_t`)."""
+        return tyre_class_interval_kg_t(self.category, self.cls, self.regulation)
+
+    def text(self) -> str:
+        return f"{self.category}/{self.cls} ({TYRE_REGULATIONS[self.regulation]})"
+
+
+def _check_label(category: str, cls: str, regulation: str, stated: bool) -> TyreLabel:
+    category = category.upper()
+    cls = cls.upper()
+    regulation = re.sub(r"\s+", "", regulation)
+    if regulation not in TYRE_CLASS_UPPER_KG_T:
+        raise ValueError(f"unknown tyre-label regulation '{regulation}'; use 2020/740 "
+                         f"(labels since May 2021) or 1222/2009 (older labels)")
+    if category not in TYRE_CLASS_UPPER_KG_T[regulation]:
+        raise ValueError(f"unknown tyre category '{category}'; use C1 (car), C2 (van) or "
+                         f"C3 (truck)")
+    table = TYRE_CLASS_UPPER_KG_T[regulation][category]
+    if cls not in table:
+        other = [r for r, t in TYRE_CLASS_UPPER_KG_T.items()
+                 if r != regulation and cls in t[category]]
+        hint = ""
+        if other:
+            hint = (f"; class {cls} exists on labels of {TYRE_REGULATIONS[other[0]]}: "
+                    f"write {category}/{cls} {other[0]}")
+        raise ValueError(f"class {cls} does not exist for {category} tyres under "
+                         f"{TYRE_REGULATIONS[regulation]} (classes {', '.join(table)})"
+                         f"{hint}")
+    return TyreLabel(category, cls, regulation, stated)
+
+
+def parse_tyre_label(value) -> TyreLabel:
+    """A :class:`TyreLabel` from ``"C2/B"``, ``"C2/B 1222/2009"`` or a mapping.
+
+    The mapping form is ``{category: C2, class: B, regulation: "2020/740"}``
+    (``regulation`` optional). Without a regulation the label is read under
+    :data:`DEFAULT_TYRE_REGULATION`.
+
+    Raises
+    ------
+    ValueError
+        With a message naming what is wrong (unknown category or regulation, a
+        class that the regulation does not have).
+    """
+    if isinstance(value, dict):
+        unknown = set(value) - {"category", "class", "regulation"}
+        if unknown:
+            raise ValueError(f"unknown key '{sorted(unknown)[0]}' in the tyre label; "
+                             f"give category, class and (optional) regulation")
+        if "category" not in value or "class" not in value:
+            raise ValueError("give the tyre category and class, like "
+                             "{category: C2, class: B, regulation: \"2020/740\"}")
+        reg = value.get("regulation")
+        stated = reg is not None
+        return _check_label(str(value["category"]), str(value["class"]),
+                            str(reg) if stated else DEFAULT_TYRE_REGULATION, stated)
+    m = _LABEL_RE.match(str(value))
+    if not m:
+        raise ValueError("write the tyre category and class, like C1/B or C2/A, optionally "
+                         "with the regulation: C2/B 2020/740 (labels since May 2021) or "
+                         "C2/B 1222/2009 (older labels)")
+    reg = m.group(3)
+    return _check_label(m.group(1), m.group(2), reg if reg else DEFAULT_TYRE_REGULATION,
+                        reg is not None)
+
+
+def tyre_class_interval_kg_t(category: str, cls: str,
+                             regulation: str = DEFAULT_TYRE_REGULATION) -> tuple:
     """Interval (low, high] of the rolling-resistance coefficient [kg/t] of a label class.
 
-    Classes of Regulation (EC) No 1222/2009, Annex I Part A. The best class is
-    taken to start one width of the next class below its limit, the worst to
-    end one width of the class before above its lower limit (assumption).
+    Parameters
+    ----------
+    category : str
+        ``C1``, ``C2`` or ``C3``.
+    cls : str
+        Class letter of the regulation.
+    regulation : str
+        ``"2020/740"`` (Regulation (EU) 2020/740, Annex I Part A; boundaries from
+        memory) or ``"1222/2009"`` (Regulation (EC) No 1222/2009, Annex I Part A).
+
+    The best class is taken to start one width of the next class below its
+    limit, the worst to end one width of the class before above its lower
+    limit (an assumption of this tool: both are open-ended in the regulations).
     """
-    table = TYRE_CLASS_UPPER_KG_T[category]
+    table = TYRE_CLASS_UPPER_KG_T[regulation][category]
     names = list(table)
     i = names.index(cls)
     if i == 0:
@@ -137,21 +282,56 @@ def tyre_class_interval_kg_t(category: str, cls: str) -> tuple:
     return lower, upper
 
 
-def tyre_label_crr(text: str) -> tuple:
-    """Crr [-] and its standard uncertainty [-] from a label such as ``C2/B``.
+def tyre_label_crr(label, regulation: str | None = None) -> tuple:
+    """Crr [-] and its standard uncertainty [-] of a label class.
 
-    Returns the class middle and class width / √12 (uniform distribution,
-    JCGM 100:2008 4.3.7), both converted from kg/t by /1000.
+    Parameters
+    ----------
+    label : str, mapping or TyreLabel
+        ``"C2/B"``, ``"C2/B 1222/2009"``, a mapping (see :func:`parse_tyre_label`)
+        or a parsed label.
+    regulation : str, optional
+        Overrides the label's regulation.
+
+    Returns the class middle and the standard deviation of the rectangular
+    distribution over the class, width / √12 (JCGM 100:2008 4.3.7), both
+    converted from kg/t by /1000.
     """
-    m = re.match(r"^\s*(C[123])\s*[/:\- ]\s*([A-Ga-g])\s*$", str(text))
-    if not m:
-        raise ValueError("write the tyre category and class, like C1/B, C2/A or C3/C")
-    cat, cls = m.group(1), m.group(2).upper()
-    if cls not in TYRE_CLASS_UPPER_KG_T[cat]:
-        raise ValueError(f"class {cls} does not exist for {cat} tyres; classes: "
-                         f"{', '.join(TYRE_CLASS_UPPER_KG_T[cat])}")
-    lo, hi = tyre_class_interval_kg_t(cat, cls)
+    lab = label if isinstance(label, TyreLabel) else parse_tyre_label(label)
+    if regulation is not None:
+        lab = _check_label(lab.category, lab.cls, regulation, True)
+    lo, hi = lab.interval_kg_t()
     return (lo + hi) / 2000.0, (hi - lo) / 1000.0 / math.sqrt(12.0)
+
+
+def tyre_label_note(label: TyreLabel) -> str | None:
+    """A warning when an unstated regulation changes what the class letter means."""
+    if label.stated:
+        return None
+    here = label.interval_kg_t()
+    for reg, table in TYRE_CLASS_UPPER_KG_T.items():
+        if reg == label.regulation or label.cls not in table[label.category]:
+            continue
+        there = tyre_class_interval_kg_t(label.category, label.cls, reg)
+        if there != here:
+            return (f"tyre label {label.category}/{label.cls} has no regulation written and "
+                    f"is read under {TYRE_REGULATIONS[label.regulation]} "
+                    f"({_interval_text(label.category, label.cls, label.regulation)} kg/t); "
+                    f"under {TYRE_REGULATIONS[reg]} the same letter means "
+                    f"{_interval_text(label.category, label.cls, reg)} kg/t: write "
+                    f"{label.category}/{label.cls} {label.regulation} or "
+                    f"{label.category}/{label.cls} {reg}")
+    return None
+
+
+def _interval_text(category, cls, regulation) -> str:
+    table = TYRE_CLASS_UPPER_KG_T[regulation][category]
+    names = list(table)
+    i = names.index(cls)
+    if i == 0:
+        return f"≤ {table[cls]:.1f}"
+    lower = table[names[i - 1]] + 0.1       # the regulation's one-decimal steps
+    return f"≥ {lower:.1f}" if table[cls] is None else f"{lower:.1f}–{table[cls]:.1f}"
 
 
 # ---------------------------------------------------------------------------
@@ -226,13 +406,20 @@ class ParamSet:
         return self.params["mass_kg"] * (1.0 + self.params["rotating_mass_fraction"])
 
     def coefficients(self):
-        """Effective f0 [N], f1 [N/(km/h)], f2 [N/(km/h)²] of a coefficient set."""
+        """Effective f0 [N], f1 [N/(km/h)], f2 [N/(km/h)²] of a coefficient set.
+
+        f2 = f2_measured · ρ / ρ_ref + ½ · ρ · ΔCdA (in N/(km/h)²), ρ being the
+        air of the study and ρ_ref the reference density of the measured
+        coefficients (see the module docstring).
+        """
         p = self.params
         ratio = p["mass_kg"] / p["mass_base_kg"]
         weight = p["mass_kg"] * STANDARD_GRAVITY_MS2
         f0 = p["f0_n"] * ratio * p["rolling_scale"] + p["crr_add"] * weight
         f1 = p["f1_n_per_kmh"] * ratio * p["rolling_scale"] + p["crr_per_kmh_add"] * weight
-        f2 = p["f2_n_per_kmh2"] + 0.5 * p["air_density_kg_m3"] * p["cda_add_m2"] * KMH_MS ** 2
+        rho = p["air_density_kg_m3"]
+        f2 = p["f2_n_per_kmh2"] * (rho / p["reference_air_density_kg_m3"]) \
+            + 0.5 * rho * p["cda_add_m2"] * KMH_MS ** 2
         return f0, f1, f2
 
     def road_load(self) -> RoadLoad:
@@ -261,7 +448,8 @@ class ParamSet:
             else:
                 f0, f1, f2 = self.take([index]).coefficients()
                 rl = CoefficientRoadLoad(float(f0[0]), float(f1[0]), float(f2[0]),
-                                         form="coastdown")
+                                         form="coastdown",
+                                         reference_air_density_kg_m3=p["air_density_kg_m3"])
         else:
             rl = _FixedRoadLoad(self.road_load(), self.form)
         return replace(tpl, mass_kg=p["mass_kg"], rotating_mass_fraction=p["rotating_mass_fraction"],
@@ -283,8 +471,44 @@ class _FixedRoadLoad:
         return {"form": self.form, **self.resistance.coastdown_coefficients()}
 
 
-def nominal_params(vehicle: Vehicle, raw: dict, *, air_density_kg_m3: float | None,
-                   cda_air_density_kg_m3: float) -> tuple:
+#: UN GTR No. 15 Annex 4 road-load reference state: 293 K, 100 kPa (from memory; the
+#: coast-down corrections use the same values)
+GTR15_REFERENCE_TEMPERATURE_K = 293.0
+GTR15_REFERENCE_PRESSURE_PA = 100000.0
+
+
+def gtr15_air_density_kg_m3() -> float:
+    """Dry-air density [kg/m³] at the UN GTR No. 15 reference state (293 K, 100 kPa)."""
+    return float(air_density_kg_m3(GTR15_REFERENCE_TEMPERATURE_K - ZERO_CELSIUS_K,
+                                   GTR15_REFERENCE_PRESSURE_PA))
+
+
+def j2263_air_density_kg_m3() -> float:
+    """Dry-air density [kg/m³] at the SAE J2263 reference state (20 °C, 98.21 kPa)."""
+    return float(air_density_kg_m3(J2263_REFERENCE_TEMPERATURE_C, J2263_REFERENCE_PRESSURE_PA))
+
+
+def reference_air_density(rl) -> tuple:
+    """Air density [kg/m³] at which measured coefficients hold, and where it comes from.
+
+    The road-load block's ``reference_air_density_kg_m3`` when given (a
+    coast-down result states the reference it was corrected to); otherwise the
+    reference state of the standard whose form the coefficients are written
+    in: f0/f1/f2 (UN GTR No. 15 form) at the GTR 15 reference 20 °C (293 K),
+    100 kPa, 1.1890 kg/m³; A/B/C (40 CFR 1066 form) at the SAE J2263 /
+    40 CFR 1066.805 reference 20 °C, 98.21 kPa, 1.1671 kg/m³.
+    """
+    given = getattr(rl, "reference_air_density_kg_m3", None)
+    if given is not None:
+        return float(given), "reference_air_density_kg_m3 of the road load"
+    if getattr(rl, "form", "") == "dyno":
+        return j2263_air_density_kg_m3(), ("SAE J2263 reference state 20 °C, 98.21 kPa "
+                                           "(A/B/C coefficients, none stated)")
+    return gtr15_air_density_kg_m3(), ("UN GTR No. 15 reference state 293 K, 100 kPa "
+                                       "(f0/f1/f2 coefficients, none stated)")
+
+
+def nominal_params(vehicle: Vehicle, raw: dict, *, air_density_kg_m3: float | None) -> tuple:
     """Parameters of a vehicle (vehicle axis of length 1) and their uncertainties.
 
     Parameters
@@ -293,9 +517,9 @@ def nominal_params(vehicle: Vehicle, raw: dict, *, air_density_kg_m3: float | No
     raw : dict
         The vehicle's raw YAML mapping.
     air_density_kg_m3 : float or None
-        Study air density [kg/m³]; None keeps the vehicle file's own air.
-    cda_air_density_kg_m3 : float
-        Air density [kg/m³] for drag-area changes on measured coefficients.
+        Study air density [kg/m³]; None keeps the vehicle file's own air (a
+        physical road load) or the reference density of measured coefficients
+        (see :func:`reference_air_density`).
 
     Returns
     -------
@@ -322,13 +546,14 @@ def nominal_params(vehicle: Vehicle, raw: dict, *, air_density_kg_m3: float | No
                 stds[param] = float(rl.std[key])
         form = PHYSICAL
     elif isinstance(rl, CoefficientRoadLoad):
-        rho = cda_air_density_kg_m3 if air_density_kg_m3 is None else air_density_kg_m3
+        rho_ref, _ = reference_air_density(rl)
+        rho = rho_ref if air_density_kg_m3 is None else air_density_kg_m3
         params = {"mass_kg": one(vehicle.mass_kg), "mass_base_kg": one(vehicle.mass_kg),
                   "rotating_mass_fraction": one(vehicle.rotating_mass_fraction),
                   "f0_n": one(rl.f0_n), "f1_n_per_kmh": one(rl.f1_n_per_kmh),
                   "f2_n_per_kmh2": one(rl.f2_n_per_kmh2), "rolling_scale": one(1.0),
                   "crr_add": one(0.0), "crr_per_kmh_add": one(0.0), "cda_add_m2": one(0.0),
-                  "air_density_kg_m3": one(rho)}
+                  "air_density_kg_m3": one(rho), "reference_air_density_kg_m3": one(rho_ref)}
         if rl.covariance is not None:
             cov = np.asarray(rl.covariance, float)
         form = COEFFICIENT
@@ -385,13 +610,33 @@ def apply_change(ps: ParamSet, change, z=None) -> ParamSet:
     mode, value = change.mode, change.value
     if key == "tyre_label":
         try:
-            crr, std = tyre_label_crr(value)
+            label = value if isinstance(value, TyreLabel) else parse_tyre_label(value)
         except ValueError as exc:
             raise change.error(str(exc)) from None
-        std = change.std or std
-        noise = 0.0 if z is None else std * np.asarray(z, float)
-        p["crr"] = np.zeros_like(p["crr"]) + crr + noise
-        return replace(ps, params=p)
+        lo, hi = label.interval_kg_t()
+        if z is None:
+            share = 0.5
+        else:
+            # the class is known, the value within it is not: a rectangular distribution
+            # over the class, drawn as Φ(z) (uniform on (0, 1) for a standard-normal z;
+            # z = 0, the nominal vehicle, gives the class middle)
+            from scipy.special import ndtr
+            share = ndtr(np.asarray(z, float))
+        crr_new = np.zeros_like(p["crr"]) + (lo + (hi - lo) * share) / 1000.0
+        return replace(ps, params=_set_tyre_crr(p, crr_new))
+    if ps.form == PHYSICAL and key == "crr" and mode in ("set", "scale"):
+        # a new tyre (an absolute Crr) or a percent change scales the tyre's rolling
+        # coefficient as a whole: the speed slope crr_per_kmh with it
+        crr_new = _operate(p["crr"], mode, value) + noise
+        lo, hi = _LIMITS["crr"]
+        nominal = float(np.asarray(crr_new)[0])
+        if not (lo <= nominal <= hi):
+            raise change.error(f"gives crr = {nominal:g}, outside {lo:g} to {hi:g}")
+        if mode == "scale":
+            p["crr_per_kmh"] = np.asarray(p["crr_per_kmh"], float) * float(value)
+            p["crr"] = crr_new
+            return replace(ps, params=p)
+        return replace(ps, params=_set_tyre_crr(p, crr_new))
     if ps.form == PHYSICAL or key in ("mass_kg", "rotating_mass_fraction"):
         p[key] = _operate(p[key], mode, value) + noise
         lo, hi = _LIMITS.get(key, (-math.inf, math.inf))
@@ -434,6 +679,53 @@ def apply_change(ps: ParamSet, change, z=None) -> ParamSet:
         p["crr_per_kmh_add"] = p["crr_per_kmh_add"] + value + noise
         return replace(ps, params=p)
     raise change.error("cannot be changed")  # unreachable: change_group checked the key
+
+
+#: keys whose absolute value, written in the short form, is checked for a forgotten sign
+ABSOLUTE_CHECK_KEYS = {"mass_kg": "kg", "cda_m2": "m²", "crr": ""}
+#: relative move of an absolute value beyond which it is taken as a possible mistake
+ABSOLUTE_CHECK_SHARE = 0.5
+
+
+def absolute_change_note(before: ParamSet, after: ParamSet, change) -> str | None:
+    """A warning when a short-form absolute value moves mass, CdA or Crr by more than 50 %.
+
+    ``mass_kg: 25`` meant as +25 kg makes a 25 kg vehicle; the long form
+    ``{set: 25}`` states that the absolute value is meant and gives no note.
+    The comparison is with the nominal value just before the change.
+    """
+    key = change.key
+    if change.mode != "set" or getattr(change, "explicit", False) or \
+            key not in ABSOLUTE_CHECK_KEYS or key not in before.params:
+        return None
+    old = float(np.asarray(before.params[key])[0])
+    new = float(np.asarray(after.params[key])[0])
+    if not old > 0.0:
+        return None
+    rel = (new - old) / old
+    if abs(rel) <= ABSOLUTE_CHECK_SHARE:
+        return None
+    unit = f" {ABSOLUTE_CHECK_KEYS[key]}" if ABSOLUTE_CHECK_KEYS[key] else ""
+    value = float(change.value)
+    return (f"{key}: {change.text} is an absolute value: it makes {key} {new:g}{unit}, "
+            f"{abs(rel) * 100:.0f} % {'below' if rel < 0 else 'above'} the {old:g}{unit} "
+            f"before the change. For a change by that amount write {key}: +{value:g} "
+            f"(or -{value:g}); to keep the absolute value without this note write "
+            f"{key}: {{set: {value:g}}}")
+
+
+def _set_tyre_crr(p: dict, crr_new) -> dict:
+    """Parameters with a new tyre's Crr and its speed slope scaled by the same ratio.
+
+    The slope keeps its ratio to the nominal Crr (index 0 of the set):
+    crr_per_kmh_new = crr_per_kmh × crr_new / crr_nominal (unchanged when the
+    nominal Crr is 0).
+    """
+    old = float(np.asarray(p["crr"])[0])
+    if old > 0.0:
+        p["crr_per_kmh"] = np.asarray(p["crr_per_kmh"], float) * (np.asarray(crr_new) / old)
+    p["crr"] = np.asarray(crr_new, float)
+    return p
 
 
 def _operate(current, mode, value):

@@ -92,6 +92,8 @@ METRICS: dict[str, MetricInfo] = {m.key: m for m in [
     _m("fuel_economy_mpg", "fuel economy", "mpg (US)", "higher"),
     _m("co2_g_per_km", "CO2 per km", "g/km", "lower"),
     _m("co2_g_per_mi", "CO2 per mile", "g/mi", "lower"),
+    _m("motor_limit_exceeded_s", "time beyond the motor's limit", "s", "lower"),
+    _m("engine_limit_exceeded_s", "time beyond the engine's limit", "s", "lower"),
     _m("range_km", "range", "km", "higher"),
     _m("range_mi", "range", "mi", "higher"),
     _m("top_speed_kmh", "top speed", "km/h", "higher"),

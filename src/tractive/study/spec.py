@@ -22,16 +22,16 @@ from __future__ import annotations
 import math
 import os
 import re
-from dataclasses import dataclass, field as dc_field
+from dataclasses import dataclass, field as dc_field, replace as dc_replace
 from pathlib import Path
 
 import yaml
 
-from ..atmosphere import J2263_REFERENCE_PRESSURE_PA, J2263_REFERENCE_TEMPERATURE_C, ambient_air
+from ..atmosphere import ambient_air
 from ..errors import InputError
 from ..spec import Section, load_section, read_yaml
 from ..vehicle import Vehicle, load_vehicle, vehicle_from_section
-from .modify import POWERTRAIN_STD_KEYS
+from .modify import POWERTRAIN_STD_KEYS, parse_tyre_label
 from .results import InputItem
 
 #: Monte Carlo draws when the study does not say
@@ -40,6 +40,8 @@ DEFAULT_DRAWS = 2000
 DEFAULT_SEED = 20240601
 #: confidence level of the reported intervals when the study does not say [%]
 DEFAULT_CONFIDENCE_PCT = 95.0
+#: most Monte Carlo draws a study (or the command line) may ask for
+MAX_DRAWS = 200000
 
 
 @dataclass(frozen=True)
@@ -62,6 +64,10 @@ class Change:
     text : str
         The change as written.
     file, field, line : location for errors.
+    explicit : bool
+        Written in the long form (``{set: ...}``, ``{add: ...}``,
+        ``{percent: ...}``): an absolute value is then not checked for a
+        forgotten sign.
     """
 
     key: str
@@ -72,6 +78,7 @@ class Change:
     file: str | None = None
     field: str | None = None
     line: int | None = None
+    explicit: bool = False
 
     def error(self, message: str) -> InputError:
         return InputError(message, file=self.file, field=self.field, line=self.line)
@@ -133,7 +140,7 @@ class EconomicsSpec:
     annual_distance_km: float
     fuel_price_per_l: float | None = None
     electricity_price_per_kwh: float | None = None
-    charging_efficiency: float = 1.0
+    charging_efficiency: float | None = None
     electricity_co2_g_per_kwh: float | None = None
     fuel_co2_g_per_l: float | None = None
     discount_rate: float = 0.0
@@ -285,8 +292,8 @@ def _read_ambient(sec: Section, rd: _Reader):
     amb = sec.section("ambient", required=False)
     if amb is None:
         rd.echo("ambient", "air_density_kg_m3", None, "kg/m^3", "default",
-                "each vehicle keeps the air of its own file; CdA changes on measured "
-                "coefficients use the SAE J2263 reference state 20 °C, 98.21 kPa")
+                "each vehicle keeps the air of its own file; measured coefficients (and "
+                "CdA changes on them) keep their reference air density")
         return None, "", None
     if amb.has("air_density_kg_m3"):
         for k in ("air_temperature_c", "air_pressure_pa", "altitude_m"):
@@ -377,7 +384,7 @@ def _echo_vehicle(rd: _Reader, section: str, veh: Vehicle, src: str, raw=None):
              "air_density_kg_m3": "kg/m^3", "f0_n": "N", "f1_n_per_kmh": "N/(km/h)",
              "f2_n_per_kmh2": "N/(km/h)^2", "crr_std": "", "cda_std_m2": "m^2",
              "cla_std_m2": "m^2", "a_lbf": "lbf", "b_lbf_per_mph": "lbf/mph",
-             "c_lbf_per_mph2": "lbf/mph^2"}
+             "c_lbf_per_mph2": "lbf/mph^2", "reference_air_density_kg_m3": "kg/m^3"}
     for k, v in veh.road_load.to_dict().items():
         if k in ("form", "air_basis", "cda_basis"):
             continue
@@ -451,11 +458,19 @@ def _read_changes(sec: Section, rd: _Reader, section: str, own_values: bool = Fa
             raise sec.error("this powertrain key cannot carry a standard uncertainty; "
                             "possible: " + ", ".join(POWERTRAIN_STD_KEYS), key)
         if key == "tyre_label":
-            text = sec.string(key)
-            out.append(Change(key, "set", text, 0.0, text, sec.file, fld, line))
-            rd.echo(section, key, text, "", rd.src(sec, key))
+            try:
+                label = parse_tyre_label(value)
+            except ValueError as exc:
+                raise sec.error(str(exc), key) from None
+            text = label.text()
+            out.append(Change(key, "set", label, 0.0, text, sec.file, fld, line,
+                              isinstance(value, dict)))
+            rd.echo(section, key, text, "", rd.src(sec, key),
+                    "" if label.stated else "regulation not written: the one in force for "
+                    "new labels")
             continue
-        if isinstance(value, dict):
+        explicit = isinstance(value, dict)
+        if explicit:
             sub = sec.section(key)
             present = [k for k in ("set", "add", "percent") if sub.has(k)]
             if len(present) != 1:
@@ -496,7 +511,7 @@ def _read_changes(sec: Section, rd: _Reader, section: str, own_values: bool = Fa
                 raise sec.error("must be finite", key)
         if mode == "scale" and val < 0:
             raise sec.error(f"a change of {text} would make the value negative", key)
-        out.append(Change(key, mode, val, 0.0, text, sec.file, fld, line))
+        out.append(Change(key, mode, val, 0.0, text, sec.file, fld, line, explicit))
         rd.echo(section, key, text, _unit_of_key(key) if mode != "scale" else "%",
                 rd.src(sec, key))
     # attach standard uncertainties to their changes
@@ -504,8 +519,7 @@ def _read_changes(sec: Section, rd: _Reader, section: str, own_values: bool = Fa
     for ch in out:
         std_key = next((s for s, k in STD_KEYS.items() if k == ch.key), None)
         if std_key and std_key in stds:
-            ch = Change(ch.key, ch.mode, ch.value, stds.pop(std_key), ch.text, ch.file,
-                        ch.field, ch.line)
+            ch = dc_replace(ch, std=stds.pop(std_key))
             rd.echo(section, std_key, ch.std, _unit_of_key(std_key), rd.src(sec, std_key))
         final.append(ch)
     for std_key, v in stds.items():
@@ -658,8 +672,9 @@ def _read_economics(sec: Section, rd: _Reader) -> EconomicsSpec | None:
     if e.has("electricity_price_per_kwh"):
         elec = rd.num(e, "electricity_price_per_kwh", "economics", "money/kWh", min=0.0)
     loc("electricity_price_per_kwh")
-    charge = rd.num(e, "charging_efficiency", "economics", "", default=1.0, min=0.3, max=1.0,
-                    note="battery energy is bought as is (no charging loss)")
+    charge = None
+    if e.has("charging_efficiency"):
+        charge = rd.num(e, "charging_efficiency", "economics", "", min=0.3, max=1.0)
     loc("charging_efficiency")
     grid_co2 = None
     if e.has("electricity_co2_g_per_kwh"):
@@ -689,7 +704,7 @@ def _read_uncertainty(sec: Section, rd: _Reader):
     u = sec.section("uncertainty", required=False)
     if u is None:
         u = Section({}, file=sec.file, prefix="uncertainty", line=sec.line)
-    draws = u.integer("draws", required=False, default=DEFAULT_DRAWS, min=0, max=200000)
+    draws = u.integer("draws", required=False, default=DEFAULT_DRAWS, min=0, max=MAX_DRAWS)
     rd.echo("uncertainty", "draws", draws, "", rd.src(u, "draws") if u.has("draws")
             else "default")
     seed = u.integer("seed", required=False, default=DEFAULT_SEED, min=0)
@@ -698,9 +713,3 @@ def _read_uncertainty(sec: Section, rd: _Reader):
                   min=50.0, max=99.9)
     u.finish()
     return draws, seed, conf
-
-
-def j2263_air_density_kg_m3() -> float:
-    """Air density at the SAE J2263 road-load reference state (20 °C, 98.21 kPa)."""
-    return ambient_air(temperature_c=J2263_REFERENCE_TEMPERATURE_C,
-                       pressure_pa=J2263_REFERENCE_PRESSURE_PA)["density_kg_m3"]

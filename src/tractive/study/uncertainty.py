@@ -1,12 +1,15 @@
 """Monte Carlo propagation of standard uncertainties to every result.
 
-Each uncertain input is drawn from a normal distribution with its standard
-uncertainty (coefficients f0, f1, f2 jointly from their covariance matrix;
-powertrain keys such as the drive efficiency or the auxiliary power as
-per-vehicle arrays of the powertrain model, see
-:data:`tractive.study.modify.POWERTRAIN_UNCERTAIN`);
-a tyre-label class contributes the rectangular distribution's standard
-deviation, width / √12 (JCGM 100:2008, 4.3.7), and is also drawn normally.
+Each uncertain input given by a standard uncertainty is drawn from a normal
+distribution with it (coefficients f0, f1, f2 jointly from their covariance
+matrix; powertrain keys such as the drive efficiency or the auxiliary power
+as per-vehicle arrays of the powertrain model, see
+:data:`tractive.study.modify.POWERTRAIN_UNCERTAIN`). A tyre-label class
+gives an interval, not a standard uncertainty: its Crr is drawn uniformly
+over the class (rectangular distribution, sampled as JCGM 101:2008 6.4.2
+asks; its standard deviation is the width / √12 reported for it,
+JCGM 100:2008 4.3.7). The uniform draw is Φ(z) of the change's
+standard-normal draw z, so it follows the same common random numbers.
 The whole sample is one vehicle axis: one wheel-demand call per profile and
 variant, no loop over draws (JCGM 101:2008, propagation of distributions by
 a Monte Carlo method).
@@ -27,7 +30,8 @@ References
 ----------
 .. [1] JCGM 101:2008, Evaluation of measurement data - Supplement 1 to the
    GUM - Propagation of distributions using a Monte Carlo method.
-.. [2] JCGM 100:2008 (GUM), 4.3.7 (rectangular distribution).
+.. [2] JCGM 100:2008 (GUM), 4.3.7 (rectangular distribution, its standard
+   deviation).
 """
 
 from __future__ import annotations
