@@ -156,3 +156,17 @@ def test_every_command_module_is_listed_for_lazy_loading():
     assert set(cli_pkg.cli.commands) == set(cli_pkg.COMMAND_MODULES)
     for name, module in cli_pkg.COMMAND_MODULES.items():
         assert cli_pkg.cli.commands[name].callback.__module__ == f"tractive.cli.{module}"
+
+
+def test_cycles_with_named_profiles_reports_their_statistics():
+    r = run("cycles", "udds", "udds*2", "steady:90kmh:600s", "--json")
+    assert r.returncode == 0, r.stderr
+    rows = {p["name"]: p for p in json.loads(r.stdout)["profiles"]}
+    # distance adds when a cycle is driven twice (integral over the joined trace)
+    assert rows["udds*2"]["distance_km"] == pytest.approx(2 * rows["udds"]["distance_km"],
+                                                          rel=1e-12)
+    # constant speed: distance = speed × time (90 km/h for 600 s = 15 km)
+    assert rows["steady:90kmh:600s"]["distance_km"] == pytest.approx(15.0, rel=1e-12)
+    assert rows["steady:90kmh:600s"]["positive_kinetic_energy_m_per_s2"] == 0.0
+    r = run("cycles", "nope")
+    assert r.returncode == 2 and len(r.stderr.strip().splitlines()) == 1

@@ -47,6 +47,18 @@ def cycles_table() -> list[CycleRow]:
     return rows
 
 
+def profile_table(specs: Sequence[str], *, base_dir=None, dt_s: float = 1.0) -> list:
+    """Statistics of any profiles (bundled names, phases, files, ``steady:``, ``+``, ``*``)."""
+    rows = []
+    for text in specs:
+        prof = resolve_profile(text, base_dir=base_dir, dt_s=dt_s)
+        stats = profile_statistics(prof).to_dict()
+        stats["name"] = text
+        stats["source"] = prof.source
+        rows.append(stats)
+    return rows
+
+
 @dataclass(frozen=True)
 class EnergyResult:
     """Wheel energy (and, with a powertrain, fuel or battery use) on one profile."""

@@ -1,4 +1,4 @@
-"""``tractive cycles``: the bundled drive cycles and their statistics."""
+"""``tractive cycles``: the bundled drive cycles, or any profiles, with their statistics."""
 
 from __future__ import annotations
 
@@ -8,14 +8,35 @@ from .. import api
 from . import cli
 from ._output import emit_json, table
 
+_STATS = [("duration_s", "duration s", ".0f"), ("distance_km", "distance km", ".3f"),
+          ("mean_speed_kmh", "mean km/h", ".1f"), ("max_speed_kmh", "max km/h", ".1f"),
+          ("idle_share", "idle share", ".2f"),
+          ("positive_kinetic_energy_m_per_s2", "PKE m/s^2", ".3f")]
+
 
 @cli.command("cycles")
+@click.argument("profiles", nargs=-1, metavar="[NAME_OR_FILE ...]")
+@click.option("--dt-s", type=float, default=1.0, show_default=True,
+              help="Time step [s] that user files are resampled to.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
-def cycles_command(as_json):
-    """List the bundled drive cycles with duration, distance and speeds.
+def cycles_command(profiles, dt_s, as_json):
+    """List the bundled drive cycles with duration, distance and speeds, or show
+    the same statistics for the profiles named (cycles, phases such as
+    wltc3b:low, CSV or GPX files, steady:90kmh, A+B, A*3).
 
-    Select a phase on its own as NAME:PHASE (for example wltc3b:low).
+    PKE is the positive kinetic energy per distance, sum of max(v_i^2 - v_(i-1)^2, 0)
+    over the distance [m/s^2]; idle share is the share of time at standstill.
     """
+    if not dt_s > 0 or dt_s > 60:
+        raise click.BadParameter("must be a time step above 0 and at most 60 s",
+                                 param_hint="--dt-s")
+    if profiles:
+        rows = api.profile_table(profiles, dt_s=dt_s)
+        if as_json:
+            emit_json({"profiles": rows})
+            return
+        click.echo(table(rows, [("name", "profile", "")] + _STATS))
+        return
     rows = api.cycles_table()
     if as_json:
         emit_json({"cycles": [r.to_dict() for r in rows]})
@@ -25,9 +46,5 @@ def cycles_command(as_json):
         d = r.to_dict()
         d["phases"] = ", ".join(d["phases"]) or "-"
         data.append(d)
-    click.echo(table(data, [
-        ("name", "name", ""), ("duration_s", "duration s", ".0f"),
-        ("distance_km", "distance km", ".3f"), ("mean_speed_kmh", "mean km/h", ".1f"),
-        ("max_speed_kmh", "max km/h", ".1f"), ("idle_share", "idle share", ".2f"),
-        ("phases", "phases", ""), ("title", "title", ""),
-    ]))
+    click.echo(table(data, [("name", "name", "")] + _STATS[:5] + [
+        ("phases", "phases", ""), ("title", "title", "")]))
