@@ -94,7 +94,7 @@ def test_bad_cells_and_options(tmp_path, csv_log):
         ["0,10", "1,abc"] + [f"{i},{20}" for i in range(2, 30)]))
     _one_line_error(run("coastdown", p, "--mass-kg", 1500), "text.csv:3", "speed_kmh",
                     "must be a number")
-    _one_line_error(run("coastdown", csv_log, "--mass-kg", -5), "mass_kg")
+    _one_line_error(run("coastdown", csv_log, "--mass-kg", -5), "--mass-kg")
     _one_line_error(run("coastdown", csv_log, "--mass-kg", 1500, "--drop", 9), "drop",
                     "no run 9")
     _one_line_error(run("coastdown", tmp_path / "missing.csv", "--mass-kg", 1500),

@@ -472,7 +472,8 @@ def test_resolve_bundled_names_and_phases():
     assert resolve_profile("udds") is load_cycle("udds")
     low = resolve_profile(" WLTC3B:Low ")
     assert low.name == "wltc3b:low" and low.duration_s == 589
-    assert resolve_profile("wltc3b", dt_s=0.5).dt_s == 0.5
+    # bundled cycles keep their native 1 s step whatever dt_s is (see the next test)
+    assert resolve_profile("wltc3b", dt_s=0.5) is load_cycle("wltc3b")
 
 
 def test_resolve_steady_units_use_exact_factors():
@@ -547,3 +548,158 @@ def test_unknown_name_lists_every_bundled_cycle():
         resolve_profile("citycycle")
     for c in list_cycles():
         assert c.name in str(info.value)
+
+
+# ---------------------------------------------------------------------------
+# bundled cycles at their native step; plausibility of user traces
+# ---------------------------------------------------------------------------
+
+MILE_M = 1609.344      # exact, NIST SP 811 Appendix B
+
+
+@pytest.mark.parametrize("dt", [0.5, 2.0, 3.0])
+def test_bundled_cycles_keep_their_native_step_whatever_dt(dt):
+    # 40 CFR 86 App. I(a): the UDDS is a second-by-second schedule of 1369 s and 7.45 mi;
+    # resampling it to 2 s or 3 s would cut corners off its speed trace and change both
+    udds = resolve_profile("udds", dt_s=dt)
+    assert udds is load_cycle("udds") and udds.dt_s == 1.0 and udds.duration_s == 1369
+    assert round(udds.distance_m / MILE_M, 2) == 7.45
+    # a phase too: the low phase of the WLTC class 3b lasts 589 s (UN GTR No. 15 Annex 1,
+    # from memory)
+    low = resolve_profile("wltc3b:low", dt_s=dt)
+    assert low.dt_s == 1.0 and low.duration_s == 589
+    # repetition and joining of bundled cycles alone add their regulated distances
+    both = resolve_profile("udds*2+hwfet", dt_s=dt)
+    assert both.dt_s == 1.0
+    assert both.distance_m == pytest.approx(2 * load_cycle("udds").distance_m
+                                            + load_cycle("hwfet").distance_m, rel=1e-12)
+
+
+def test_user_parts_follow_dt_alone_and_the_bundled_step_when_joined(tmp_path):
+    write(tmp_path, "trip.csv", "time_s,speed_ms\n0,0\n1,2\n2,2\n3,2\n4,0\n")
+    alone = resolve_profile("trip.csv", base_dir=tmp_path, dt_s=2.0)
+    assert alone.dt_s == 2.0
+    # trapezoid rule on the 2 s grid 0, 2, 4 s: (0 + 2)/2 x 2 + (2 + 0)/2 x 2 = 4 m
+    assert alone.distance_m == pytest.approx(4.0, rel=1e-12)
+    joined = resolve_profile("udds+trip.csv", base_dir=tmp_path, dt_s=2.0)
+    assert joined.dt_s == 1.0
+    # the udds ends and the trip starts at standstill on level road: one shared sample, so
+    # distances add; the trip on its 1 s rows is 1 + 2 + 2 + 1 = 6 m (trapezoid rule)
+    assert joined.distance_m == pytest.approx(load_cycle("udds").distance_m + 6.0, rel=1e-12)
+    assert joined.duration_s == 1369 + 4
+    steady = resolve_profile("steady:36kmh:10s+udds", dt_s=2.0)
+    # 36 km/h = 10 m/s for 10 s = 100 m; then one 1 s step from 10 m/s down to 0 = 5 m
+    assert steady.dt_s == 1.0
+    assert steady.distance_m == pytest.approx(100 + 5 + load_cycle("udds").distance_m,
+                                              rel=1e-12)
+
+
+@pytest.mark.parametrize("column, value, ok", [
+    ("speed_kmh", 10000.0, False),
+    ("speed_kmh", 500.0, True),
+    ("speed_mph", 320.0, False),      # 320 x 0.44704 x 3.6 = 515 km/h (NIST SP 811 factor)
+    ("speed_mph", 300.0, True),       # 483 km/h
+    ("speed_ms", 140.0, False),       # 504 km/h
+])
+def test_speed_above_500_kmh_is_refused_with_file_column_and_line(tmp_path, column, value,
+                                                                  ok):
+    # ramps of 10 s from and back to standstill keep the acceleration plausible
+    rows = [(0, 0.0), (60, value), (61, value), (120, 0.0)]
+    text = f"time_s,{column}\n" + "".join(f"{t},{v}\n" for t, v in rows)
+    if ok:
+        assert read_speed_csv(write(tmp_path, "fast.csv", text)).speed_ms.max() > 0
+        return
+    err = _csv_error(tmp_path, text)
+    assert err.field == column and err.line == 3 and "500 km/h" in str(err)
+
+
+def test_steady_speed_above_500_kmh_is_refused():
+    with pytest.raises(InputError, match="500 km/h"):
+        resolve_profile("steady:600kmh")
+    assert resolve_profile("steady:300mph:10s").speed_ms[0] == pytest.approx(300 * MPH_MS)
+
+
+def test_acceleration_glitch_is_refused_but_hard_braking_and_noise_are_not(tmp_path):
+    # a glitch: 0 to 200 km/h within 0.1 s is 556 m/s² (57 g); the row is named
+    text = "time_s,speed_kmh\n" + "".join(f"{i / 10:.1f},0\n" for i in range(10)) + \
+        "1.0,200\n1.1,0\n1.2,0\n"
+    err = _csv_error(tmp_path, text, dt_s=0.1)
+    assert err.field == "speed_kmh" and err.line == 12 and "m/s²" in str(err)
+    # a racing car braking at 5 g (49 m/s², common practice for the fastest cars, from
+    # memory) from 200 km/h, logged at 10 Hz, is accepted and its deceleration kept
+    a = 5 * 9.80665
+    t = np.arange(0.0, 1.2, 0.1)
+    v = np.clip(200 / 3.6 - a * t, 0.0, None)
+    text = "time_s,speed_ms\n" + "".join(f"{ti:.1f},{float(vi)!r}\n" for ti, vi in zip(t, v))
+    p = read_speed_csv(write(tmp_path, "brake.csv", text), dt_s=0.1)
+    assert profile_statistics(p).max_decel_ms2 == pytest.approx(a, rel=1e-9)
+    # Doppler speed noise of 1 km/h standard deviation at 10 Hz (common practice: GNSS
+    # loggers are better) is far below the limit
+    rng = np.random.default_rng(4)
+    t = np.arange(0.0, 60.0, 0.1)
+    v = 100 + rng.normal(0.0, 1.0, t.size)
+    text = "time_s,speed_kmh\n" + "".join(f"{ti:.1f},{vi:.3f}\n" for ti, vi in zip(t, v))
+    assert len(read_speed_csv(write(tmp_path, "noisy.csv", text), dt_s=0.1)) == t.size
+
+
+def test_gpx_position_jump_is_refused_but_position_noise_is_not(tmp_path):
+    # 20 m/s along a meridian for 120 s with 3 m of position noise (common practice for
+    # phone GPS): the 5 s least-squares smoother keeps it well below both limits
+    rng = np.random.default_rng(9)
+    n = 121
+    north_m = 20.0 * np.arange(n) + rng.normal(0.0, 3.0, n)
+    lats = 46.0 + np.degrees(north_m / R_M)
+    p = read_gpx(write(tmp_path, "noisy.gpx", gpx_text(lats, [7.0] * n)))
+    assert abs(p.distance_m / 2400.0 - 1) < 0.05
+    # one point 2 km off the road: the distance jumps by 4 km, a speed no car reaches
+    jumped = north_m.copy()
+    jumped[60] += 2000.0
+    text = gpx_text(46.0 + np.degrees(jumped / R_M), [7.0] * n)
+    with pytest.raises(InputError) as info:
+        read_gpx(write(tmp_path, "jump.gpx", text))
+    err = info.value
+    jump_line = [i + 1 for i, ln in enumerate(text.splitlines()) if "<trkpt" in ln][60]
+    assert "track point" in str(err) and "500 km/h" in str(err)
+    assert err.line is not None and abs(err.line - jump_line) <= 4
+
+
+def _run(*args, cwd=None):
+    import subprocess
+    import sys
+
+    return subprocess.run([sys.executable, "-m", "tractive", *map(str, args)],
+                          capture_output=True, text=True, cwd=cwd)
+
+
+HATCH = Path(__file__).resolve().parents[1] / "examples" / "vehicles" / "hatchback.yaml"
+
+
+def test_energy_command_refuses_an_implausible_file_in_one_line(tmp_path):
+    fast = write(tmp_path, "fast.csv", "time_s,speed_kmh\n0,0\n50,10000\n100,0\n")
+    r = _run("energy", HATCH, "-c", fast)
+    assert r.returncode == 2 and r.stdout == ""
+    lines = r.stderr.strip().splitlines()
+    assert len(lines) == 1 and "Traceback" not in r.stderr
+    assert "fast.csv:3" in lines[0] and "speed_kmh" in lines[0] and "500 km/h" in lines[0]
+
+
+@pytest.mark.parametrize("value", ["nan", "inf", "0", "-1", "1000"])
+def test_energy_dt_option_is_checked(value):
+    r = _run("energy", HATCH, "-c", "udds", "--dt-s", value)
+    assert r.returncode == 2 and r.stdout == ""
+    lines = r.stderr.strip().splitlines()
+    assert len(lines) == 1 and "--dt-s" in lines[0] and "Traceback" not in r.stderr
+
+
+def test_energy_dt_leaves_bundled_cycles_alone():
+    import json
+
+    one = json.loads(_run("energy", HATCH, "-c", "udds", "--json").stdout)["results"][0]
+    two = json.loads(_run("energy", HATCH, "-c", "udds", "--dt-s", "2", "--json")
+                     .stdout)["results"][0]
+    # the same regulated 1 Hz trace: the same distance (7.45 mi, 40 CFR 86 App. I) and energy
+    assert two["distance_km"] == one["distance_km"]
+    assert round(two["distance_km"] * 1000 / MILE_M, 2) == 7.45
+    assert two["positive_energy_kwh"] == one["positive_energy_kwh"]
+    help_text = " ".join(_run("energy", "--help").stdout.split())
+    assert "Bundled cycles keep their native 1 s step" in help_text

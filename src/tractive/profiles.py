@@ -22,6 +22,12 @@ in a study file into a profile::
     wltc3b*3                three times in a row
     udds*2+hwfet            ``*`` binds tighter than ``+``: (udds*2)+hwfet
 
+Bundled cycles keep their native 1 s step whatever ``dt_s`` is (the
+regulations define them second by second; resampling would change their
+distance and energy); ``dt_s`` applies to files and ``steady:`` terms only,
+and in a joined string that contains a bundled cycle every part is read at
+1 s.
+
 File paths are relative to ``base_dir`` when it is given (the folder of the
 study file), else to the working directory. A path that contains ``+`` or
 ``*`` can be quoted with ``'...'`` or ``"..."``; a whole string that names an
@@ -55,6 +61,14 @@ The samples are shifted to start at 0 s and linearly interpolated onto a
 uniform grid of ``dt_s`` (the last grid point is the last one not after the
 last sample). Every problem raises an InputError naming the file, the column
 and the 1-based line.
+
+Plausibility: a speed above :data:`MAX_USER_SPEED_KMH` (500 km/h) in a
+user's file (CSV row, or GPS speed from the track's positions) or a
+``steady:`` term is refused, and so is a step on the final ``dt_s`` grid
+whose acceleration exceeds :data:`MAX_USER_ACCEL_MS2` (100 m/s², about
+10 g). The acceleration limit is far above what GPS noise gives after the
+smoothing of tracks, or what a racing car brakes at (about 5 g); it catches a
+glitch (0 to 200 km/h within 0.1 s) or a unit mistake, not rough data.
 
 Grade from elevation
 --------------------
@@ -136,7 +150,8 @@ from .units import kmh_to_ms, mph_to_ms
 
 __all__ = [
     "EARTH_RADIUS_M", "IDLE_SPEED_MS", "GRADE_WINDOW_M", "MAX_GRADE_FRACTION",
-    "SPEED_WINDOW_S", "STOP_SPEED_MS", "MAX_REPEAT",
+    "SPEED_WINDOW_S", "STOP_SPEED_MS", "MAX_REPEAT", "MAX_USER_SPEED_KMH",
+    "MAX_USER_ACCEL_MS2", "BUNDLED_STEP_S",
     "Phase", "Profile", "CycleInfo", "ProfileStats",
     "list_cycles", "cycle_info", "load_cycle", "read_speed_csv", "read_gpx",
     "constant_speed", "resample", "repeat", "concatenate", "profile_statistics",
@@ -157,6 +172,16 @@ SPEED_WINDOW_S = 5.0
 STOP_SPEED_MS = 0.5
 #: largest repetition count accepted by :func:`repeat` and ``A*n``
 MAX_REPEAT = 1000
+#: highest speed accepted from a user's speed file, GPS track or steady:<speed> [km/h]:
+#: above the top speed of any road vehicle (common practice: the fastest road cars
+#: reach about 490 km/h, from memory)
+MAX_USER_SPEED_KMH = 500.0
+#: largest |acceleration| accepted in a user's trace on its final time grid [m/s²]:
+#: about 10 g, twice what tyres give the fastest-braking race cars (about 5 g, from
+#: memory); only a logging glitch or a unit mistake gets there
+MAX_USER_ACCEL_MS2 = 100.0
+#: time step of every bundled cycle [s]: the regulations define them second by second
+BUNDLED_STEP_S = 1.0
 
 _PACKAGE = "tractive.drive_cycles"
 _SPEED_UNITS = {"kmh": kmh_to_ms, "mph": mph_to_ms, "ms": lambda v: np.asarray(v, float)}
@@ -425,6 +450,24 @@ def _uniform_grid(span_s: float, dt_s: float) -> np.ndarray:
     """0, dt, 2 dt, ... up to the last point not after ``span_s`` (within rounding)."""
     n = int(math.floor(span_s / dt_s + 1e-9)) + 1
     return np.arange(n) * dt_s
+
+
+def _first_implausible_step(speed_ms: np.ndarray, dt_s: float):
+    """Index k of the first step k → k+1 whose |acceleration| exceeds
+    :data:`MAX_USER_ACCEL_MS2`, with that acceleration [m/s²]; None when there is none."""
+    accel = np.diff(speed_ms) / dt_s
+    bad = np.flatnonzero(np.abs(accel) > MAX_USER_ACCEL_MS2)
+    if not bad.size:
+        return None
+    return int(bad[0]), float(accel[bad[0]])
+
+
+def _accel_message(speed_ms, k: int, accel: float, dt_s: float, t_s: float) -> str:
+    dv_kmh = (speed_ms[k + 1] - speed_ms[k]) * 3.6
+    return (f"speed changes by {dv_kmh:+.1f} km/h within {dt_s:g} s near {t_s:g} s "
+            f"({accel:+.0f} m/s², about {abs(accel) / 9.80665:.0f} g), more than the "
+            f"{MAX_USER_ACCEL_MS2:g} m/s² any road vehicle can reach; a logging glitch or a "
+            "unit mistake? check the rows near here")
 
 
 # ---------------------------------------------------------------------------
@@ -798,8 +841,21 @@ def read_speed_csv(path, dt_s: float = 1.0, max_gap_s: float = 60.0, *,
                          file=file, field="time_s")
 
     rel = t - t[0]
+    v_raw_ms = _SPEED_UNITS[_SPEED_COLUMNS[speed_col]](v_raw)
+    fast = np.flatnonzero(v_raw_ms * 3.6 > MAX_USER_SPEED_KMH * (1 + 1e-12))
+    if fast.size:
+        raise InputError(f"speed {v_raw[fast[0]]:g} is {v_raw_ms[fast[0]] * 3.6:.0f} km/h, "
+                         f"above the {MAX_USER_SPEED_KMH:g} km/h no road vehicle exceeds; "
+                         "check the value and the column's unit", file=file,
+                         field=speed_col, line=lines[fast[0]])
     grid = _uniform_grid(span, dt_s)
-    speed_ms = np.interp(grid, rel, _SPEED_UNITS[_SPEED_COLUMNS[speed_col]](v_raw))
+    speed_ms = np.interp(grid, rel, v_raw_ms)
+    jump = _first_implausible_step(speed_ms, dt_s)
+    if jump is not None:
+        k, accel = jump
+        row = min(int(np.searchsorted(rel, grid[k + 1] - 1e-9 * dt_s)), len(rel) - 1)
+        raise InputError(_accel_message(speed_ms, k, accel, dt_s, float(t[0] + grid[k + 1])),
+                         file=file, field=speed_col, line=lines[row])
     if grade_col == "grade_pct":
         g_pct = column("grade_pct")
         steep = np.flatnonzero(np.abs(g_pct) > 100.0)
@@ -949,6 +1005,24 @@ def read_gpx(path, dt_s: float = 1.0, *, speed_window_s: float = SPEED_WINDOW_S,
     s = np.interp(grid, t, dist_m)
     speed = np.clip(_smoothed_rate(s, dt_s, speed_window_s), 0.0, None)
     speed[speed < stop_speed_ms] = 0.0
+
+    def nearest_point(time_s):
+        return int(np.clip(np.searchsorted(t, time_s), 0, len(t) - 1))
+
+    fast = np.flatnonzero(speed * 3.6 > MAX_USER_SPEED_KMH)
+    if fast.size:
+        j = fast[0]
+        raise point_error(nearest_point(grid[j]),
+                          f"the speed from the positions reaches {speed[j] * 3.6:.0f} km/h "
+                          f"near {grid[j]:g} s, above the {MAX_USER_SPEED_KMH:g} km/h no road "
+                          "vehicle exceeds; a position jump? check the coordinates near "
+                          "this point")
+    jump = _first_implausible_step(speed, dt_s)
+    if jump is not None:
+        k, accel = jump
+        raise point_error(nearest_point(grid[k + 1]),
+                          _accel_message(speed, k, accel, dt_s, float(grid[k + 1]))
+                          .replace("check the rows", "check the points"))
 
     has_ele = np.isfinite(ele)
     if use_elevation and np.count_nonzero(has_ele) >= 2:
@@ -1238,6 +1312,9 @@ def _resolve_atom(text: str, quoted: bool, base_dir, dt_s: float) -> Profile:
                              f"e.g. steady:90kmh or steady:55mph:600s")
         unit = m["unit"].lower().replace("/", "")
         speed = float(_SPEED_UNITS[unit](float(m["speed"])))
+        if not speed * 3.6 <= MAX_USER_SPEED_KMH * (1 + 1e-12):
+            raise InputError(f"'{atom}': {speed * 3.6:.0f} km/h is above the "
+                             f"{MAX_USER_SPEED_KMH:g} km/h no road vehicle exceeds")
         duration = 3600.0
         if m["dur"] is not None:
             duration = float(m["dur"]) * _DURATION_S[m["dunit"].lower()]
@@ -1247,7 +1324,17 @@ def _resolve_atom(text: str, quoted: bool, base_dir, dt_s: float) -> Profile:
         raise _unknown_cycle(atom.partition(":")[0].strip(),
                              "; or give a .csv or .gpx file, or steady:<speed>, "
                              "e.g. steady:90kmh")
-    return resample(load_cycle(atom), dt_s)
+    return load_cycle(atom)       # at its native step, whatever dt_s is
+
+
+def _is_bundled_atom(kind: str, text: str) -> bool:
+    """True for a term that names a bundled cycle (or one of its phases)."""
+    if kind != "atom":
+        return False
+    low = text.strip().lower()
+    if low.endswith((".csv", ".gpx")) or low.startswith("steady"):
+        return False
+    return low.partition(":")[0].strip() in _cycle_names()
 
 
 def resolve_profile(text: str, base_dir=None, dt_s: float = 1.0) -> Profile:
@@ -1261,13 +1348,27 @@ def resolve_profile(text: str, base_dir=None, dt_s: float = 1.0) -> Profile:
     base_dir : str or path, optional
         Folder that relative file paths are relative to.
     dt_s : float
-        Time step [s] of the result: files are read at it, bundled cycles
-        (1 s) resampled to it.
+        Time step [s] that speed files, GPS tracks and ``steady:`` terms are
+        read at. Bundled cycles are never resampled: the regulations define
+        them second by second, so they keep their native step of
+        :data:`BUNDLED_STEP_S` (1 s) whatever ``dt_s`` is, and give their
+        regulated distance and energy. When a joined string (``A+B``) contains
+        a bundled cycle, its other terms are read at that 1 s step too, so
+        that the parts can be joined (whatever ``dt_s`` is).
 
     Returns
     -------
     Profile
         Named after the text (without spaces) when it combines several terms.
+
+    Raises
+    ------
+    InputError
+        For unknown names, malformed strings and every problem of a file
+        (naming the file, column and line); also for a speed above
+        :data:`MAX_USER_SPEED_KMH` in a user file or ``steady:`` term, or an
+        acceleration above :data:`MAX_USER_ACCEL_MS2` in a user file on its
+        final time grid.
     """
     if not isinstance(text, str) or not text.strip():
         raise InputError("empty profile: name a drive cycle, a .csv or .gpx file, or "
@@ -1278,6 +1379,8 @@ def resolve_profile(text: str, base_dir=None, dt_s: float = 1.0) -> Profile:
         return _resolve_atom(whole, False, base_dir, dt_s)
 
     tokens = _tokens(text)
+    if any(_is_bundled_atom(kind, value) for kind, value in tokens):
+        dt_s = BUNDLED_STEP_S     # user parts joined to a bundled cycle are read at its step
     # term := atom ['*' count] ; expr := term ('+' term)*
     terms: list[tuple[Profile, int, str]] = []
     i = 0

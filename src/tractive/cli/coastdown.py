@@ -2,15 +2,20 @@
 
 from __future__ import annotations
 
+import contextlib
+
 import click
 import numpy as np
 
-from ..coastdown import (analyze_coastdown, plot_coastdown, two_interval_estimate,
-                         write_road_load_yaml)
+from ..coastdown import analyze_coastdown, plot_coastdown, two_interval_estimate
+from ..coastdown.output import write_road_load
 from ..coastdown.corrections import REFERENCES
 from ..coastdown.fitting import COMBINES, METHODS
+from ..coastdown.output import PLOT_SUFFIXES, ROAD_LOAD_SUFFIXES
+from ..errors import InputError
 from ..report.common import check_target
 from . import cli
+from ._checks import Number, ranged
 from ._output import emit_json, fmt, table
 
 SAFETY = """\b
@@ -21,11 +26,65 @@ the engine off, possibly no brake or steering assistance). Follow local law
 and the track's rules."""
 
 
-def _check_outputs(paths, logs):
-    """Refuse output names that are input logs before any work is done."""
-    for p in paths:
-        if p is not None:
-            check_target(p, logs)
+#: checked numeric options (finite, physical ranges)
+MASS = Number(0.0, 100000.0, low_open=True, unit="kg")
+MASS_STD = Number(0.0, 100000.0, unit="kg")
+ROTATING = Number(0.0, 1.0, unit="")
+AREA = Number(0.0, 30.0, low_open=True, unit="m²")
+WINDOW_SPEED = Number(0.0, 400.0, unit="km/h")
+SPAN = Number(0.0, 400.0, low_open=True, unit="km/h")
+GAP = Number(0.0, 60.0, low_open=True, unit="s")
+AIR_T = Number(-60.0, 60.0, unit="°C")
+AIR_P = Number(30000.0, 110000.0, unit="Pa")
+K0 = Number(0.0, 0.02, unit="1/K")
+SMOOTH = Number(0.5, 60.0, unit="s")
+QUICK_SPEED = Number(0.0, 400.0, low_open=True, unit="km/h")
+QUICK_TIME = Number(0.0, 3600.0, low_open=True, unit="s")
+DENSITY = Number(0.5, 2.0, unit="kg/m³")
+
+
+#: library field → command-line option, for errors about an option's value
+_OPTION_OF = {"high_kmh": "--high", "high_time_s": "--high", "low_kmh": "--low",
+              "low_time_s": "--low", "terms": "--terms"}
+
+
+@contextlib.contextmanager
+def _options_named():
+    """Re-raise a library error about an argument as one about its command-line option
+    (``min_span_kmh`` → ``--min-span-kmh``); errors naming a file pass unchanged."""
+    try:
+        yield
+    except InputError as exc:
+        ctx = click.get_current_context(silent=True)
+        names = {}
+        for p in (ctx.command.params if ctx else ()):
+            long = [o for o in p.opts if o.startswith("--")]
+            if isinstance(p, click.Option) and long:
+                names[p.name] = long[0]
+        option = _OPTION_OF.get(exc.field) or names.get(exc.field)
+        if exc.file is None and option:
+            raise InputError(exc.message, field=option, line=exc.line) from None
+        raise
+
+
+def _check_outputs(output, plot, logs):
+    """Refuse output names that are input logs, in a missing or read-only folder, or
+    with an ending the writer does not produce, before any work is done."""
+    if output is not None:
+        with _naming("--output"):
+            check_target(output, logs, suffixes=ROAD_LOAD_SUFFIXES)
+    if plot is not None:
+        with _naming("--plot"):
+            check_target(plot, logs, suffixes=PLOT_SUFFIXES)
+
+
+@contextlib.contextmanager
+def _naming(option):
+    """Add the option to an output-file error that names no field."""
+    try:
+        yield
+    except InputError as exc:
+        raise exc.located(field=option) from None
 
 
 @cli.command("coastdown", help=f"""Road-load coefficients f0, f1, f2 (with covariance) from
@@ -49,13 +108,16 @@ writes a road_load block with its covariance for a vehicle or study file.
 {SAFETY}
 """)
 @click.argument("logs", nargs=-1, required=True, metavar="LOG [LOG ...]")
-@click.option("--mass-kg", type=float, required=True, help="Vehicle test mass [kg].")
-@click.option("--rotating-mass-fraction", type=float, default=0.03, show_default=True,
-              help="Rotating-mass allowance [-]; inertial mass = mass × (1 + fraction).")
-@click.option("--mass-std-kg", type=float, default=0.0, show_default=True,
-              help="Standard uncertainty of the test mass [kg].")
-@click.option("--frontal-area-m2", type=float, default=None,
-              help="Frontal area [m²]; gives Cd from CdA.")
+@click.option("--mass-kg", type=MASS, required=True,
+              help=ranged("Vehicle test mass [kg].", MASS))
+@click.option("--rotating-mass-fraction", type=ROTATING, default=0.03, show_default=True,
+              help=ranged("Rotating-mass allowance [-]; inertial mass = mass × (1 + "
+                          "fraction).", ROTATING))
+@click.option("--mass-std-kg", type=MASS_STD, default=0.0, show_default=True,
+              help="Standard uncertainty of the test mass [kg]. Accepted: at least 0 and "
+                   "below --mass-kg.")
+@click.option("--frontal-area-m2", type=AREA, default=None,
+              help=ranged("Frontal area [m²]; gives Cd from CdA.", AREA))
 @click.option("--method", type=click.Choice(METHODS), default="speed-time", show_default=True,
               help="Fitting method.")
 @click.option("--combine", type=click.Choice(COMBINES), default="joint", show_default=True,
@@ -64,12 +126,15 @@ writes a road_load block with its covariance for a vehicle or study file.
                    "one direction).")
 @click.option("--terms", type=click.Choice(["3", "2"]), default="3", show_default=True,
               help="3: f0 + f1·v + f2·v²; 2: f1 fixed at zero.")
-@click.option("--speed-window-kmh", type=float, nargs=2, default=(15.0, 115.0),
-              show_default=True, metavar="LOW HIGH", help="Speeds fitted [km/h].")
-@click.option("--min-span-kmh", type=float, default=20.0, show_default=True,
-              help="Least speed drop a run must cover in the window [km/h].")
-@click.option("--max-gap-s", type=float, default=None,
-              help="Longest gap allowed inside a run [s] (default max(2 s, 2.5 samples)).")
+@click.option("--speed-window-kmh", type=WINDOW_SPEED, nargs=2, default=(15.0, 115.0),
+              show_default=True, metavar="LOW HIGH",
+              help="Speeds fitted [km/h]. Accepted: 0 ≤ LOW < HIGH ≤ 400 km/h.")
+@click.option("--min-span-kmh", type=SPAN, default=20.0, show_default=True,
+              help="Least speed drop a run must cover in the window [km/h]. Accepted: above "
+                   "0 and at most HIGH − LOW of the window.")
+@click.option("--max-gap-s", type=GAP, default=None,
+              help=ranged("Longest gap allowed inside a run [s] (default max(2 s, 2.5 "
+                          "samples)).", GAP))
 @click.option("--keep", type=int, multiple=True, metavar="N",
               help="Use run N despite its rejection (repeatable).")
 @click.option("--drop", type=int, multiple=True, metavar="N",
@@ -77,42 +142,48 @@ writes a road_load block with its covariance for a vehicle or study file.
 @click.option("--reference", type=click.Choice(REFERENCES), default="gtr15", show_default=True,
               help="Reference conditions: gtr15 (20 °C, 100 kPa, K0 8.6e-3/K; values from "
                    "memory), j2263 (20 °C, 98.21 kPa, air only) or none.")
-@click.option("--air-temperature-c", type=float, default=None,
-              help="Test air temperature [°C] for logs without that column.")
-@click.option("--air-pressure-pa", type=float, default=None,
-              help="Test air pressure [Pa] for logs without that column.")
-@click.option("--rolling-factor-per-k", type=float, default=None,
-              help="Rolling-resistance temperature factor K0 [1/K] (overrides the standard's).")
+@click.option("--air-temperature-c", type=AIR_T, default=None,
+              help=ranged("Test air temperature [°C] for logs without that column.", AIR_T))
+@click.option("--air-pressure-pa", type=AIR_P, default=None,
+              help=ranged("Test (station) air pressure [Pa] for logs without that column.",
+                          AIR_P))
+@click.option("--rolling-factor-per-k", type=K0, default=None,
+              help=ranged("Rolling-resistance temperature factor K0 [1/K] (overrides the "
+                          "standard's); the factor 1 + K0·(T − T_ref) must stay within "
+                          "0.5-1.5.", K0))
 @click.option("--grade-from-elevation", is_flag=True,
               help="Remove each run's mean grade, from its elevation_m column.")
-@click.option("--smoothing-s", type=float, default=5.0, show_default=True,
-              help="Savitzky-Golay window of the deceleration method [s].")
+@click.option("--smoothing-s", type=SMOOTH, default=5.0, show_default=True,
+              help=ranged("Savitzky-Golay window of the deceleration method [s].", SMOOTH))
 @click.option("--speed-column", type=click.Choice(["speed_kmh", "speed_mph", "speed_ms"]),
               default=None, help="Speed column to use when a CSV has several.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
 @click.option("-o", "--output", "output", default=None, metavar="FILE.yaml",
-              help="Write the road_load block (coefficients and covariance) to this file.")
+              help="Write the road_load block (coefficients and covariance) to this file: "
+                   ".yaml or .yml (YAML with comments), or .json (the same keys as JSON). "
+                   "The folder must exist.")
 @click.option("--plot", "plot", default=None, metavar="FILE.png",
-              help="Write a figure of the fitted speed-time curves and deceleration.")
+              help="Write a figure of the fitted speed-time curves and deceleration: .png, "
+                   ".pdf or .svg. The folder must exist.")
 def coastdown_command(logs, mass_kg, rotating_mass_fraction, mass_std_kg, frontal_area_m2,
                       method, combine, terms, speed_window_kmh, min_span_kmh, max_gap_s, keep,
                       drop, reference, air_temperature_c, air_pressure_pa,
                       rolling_factor_per_k, grade_from_elevation, smoothing_s, speed_column,
                       as_json, output, plot):
-    _check_outputs([output, plot], logs)
-    result = analyze_coastdown(
-        list(logs), mass_kg=mass_kg, rotating_mass_fraction=rotating_mass_fraction,
-        frontal_area_m2=frontal_area_m2, method=method, combine=combine, terms=int(terms),
-        speed_window_kmh=tuple(speed_window_kmh), min_span_kmh=min_span_kmh,
-        max_gap_s=max_gap_s, keep=keep, drop=drop, reference=reference,
-        air_temperature_c=air_temperature_c, air_pressure_pa=air_pressure_pa,
-        rolling_factor_per_k=rolling_factor_per_k, grade_from_elevation=grade_from_elevation,
-        mass_std_kg=mass_std_kg, smoothing_s=smoothing_s, speed_column=speed_column)
+    _check_outputs(output, plot, logs)
+    with _options_named():
+        result = _analyze(logs, mass_kg, rotating_mass_fraction, mass_std_kg, frontal_area_m2,
+                          method, combine, terms, speed_window_kmh, min_span_kmh, max_gap_s,
+                          keep, drop, reference, air_temperature_c, air_pressure_pa,
+                          rolling_factor_per_k, grade_from_elevation, smoothing_s,
+                          speed_column)
     written = []
     if output:
-        written.append(str(write_road_load_yaml(result, output, inputs=logs)))
+        with _naming("--output"):
+            written.append(str(write_road_load(result, output, inputs=logs)))
     if plot:
-        written.append(str(plot_coastdown(result, plot, inputs=logs)))
+        with _naming("--plot"):
+            written.append(str(plot_coastdown(result, plot, inputs=logs)))
     data = result.to_dict()
     if as_json:
         if written:
@@ -122,6 +193,20 @@ def coastdown_command(logs, mass_kg, rotating_mass_fraction, mass_std_kg, fronta
     _print_text(result, data)
     for w in written:
         click.echo(f"wrote {w}")
+
+
+def _analyze(logs, mass_kg, rotating_mass_fraction, mass_std_kg, frontal_area_m2, method,
+             combine, terms, speed_window_kmh, min_span_kmh, max_gap_s, keep, drop,
+             reference, air_temperature_c, air_pressure_pa, rolling_factor_per_k,
+             grade_from_elevation, smoothing_s, speed_column):
+    return analyze_coastdown(
+        list(logs), mass_kg=mass_kg, rotating_mass_fraction=rotating_mass_fraction,
+        frontal_area_m2=frontal_area_m2, method=method, combine=combine, terms=int(terms),
+        speed_window_kmh=tuple(speed_window_kmh), min_span_kmh=min_span_kmh,
+        max_gap_s=max_gap_s, keep=keep, drop=drop, reference=reference,
+        air_temperature_c=air_temperature_c, air_pressure_pa=air_pressure_pa,
+        rolling_factor_per_k=rolling_factor_per_k, grade_from_elevation=grade_from_elevation,
+        mass_std_kg=mass_std_kg, smoothing_s=smoothing_s, speed_column=speed_column)
 
 
 def _print_text(result, data):
@@ -201,21 +286,27 @@ coastdown' with logged speeds.
 
 {SAFETY}
 """)
-@click.option("--mass-kg", type=float, required=True, help="Vehicle test mass [kg].")
-@click.option("--rotating-mass-fraction", type=float, default=0.03, show_default=True,
-              help="Rotating-mass allowance [-].")
-@click.option("--high", "high", type=float, nargs=3, required=True,
-              metavar="START_KMH END_KMH SECONDS", help="High-speed interval and its time.")
-@click.option("--low", "low", type=float, nargs=3, required=True,
-              metavar="START_KMH END_KMH SECONDS", help="Low-speed interval and its time.")
-@click.option("--air-density-kg-m3", type=float, default=None,
-              help="Air density [kg/m³] for CdA.")
+@click.option("--mass-kg", type=MASS, required=True,
+              help=ranged("Vehicle test mass [kg].", MASS))
+@click.option("--rotating-mass-fraction", type=ROTATING, default=0.03, show_default=True,
+              help=ranged("Rotating-mass allowance [-].", ROTATING))
+@click.option("--high", "high", type=(QUICK_SPEED, QUICK_SPEED, QUICK_TIME), required=True,
+              metavar="START_KMH END_KMH SECONDS",
+              help="High-speed interval and its time. Accepted: speeds above 0 and at most "
+                   "400 km/h, START above END; time above 0 and at most 3600 s.")
+@click.option("--low", "low", type=(QUICK_SPEED, QUICK_SPEED, QUICK_TIME), required=True,
+              metavar="START_KMH END_KMH SECONDS",
+              help="Low-speed interval and its time (accepted as for --high).")
+@click.option("--air-density-kg-m3", type=DENSITY, default=None,
+              help=ranged("Air density [kg/m³] for CdA.", DENSITY))
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
 def coastdown_quick_command(mass_kg, rotating_mass_fraction, high, low, air_density_kg_m3,
                             as_json):
-    est = two_interval_estimate(mass_kg=mass_kg, rotating_mass_fraction=rotating_mass_fraction,
-                                high_kmh=high[:2], high_time_s=high[2], low_kmh=low[:2],
-                                low_time_s=low[2], air_density_kg_m3=air_density_kg_m3)
+    with _options_named():
+        est = two_interval_estimate(
+            mass_kg=mass_kg, rotating_mass_fraction=rotating_mass_fraction,
+            high_kmh=high[:2], high_time_s=high[2], low_kmh=low[:2], low_time_s=low[2],
+            air_density_kg_m3=air_density_kg_m3)
     data = est.to_dict()
     if as_json:
         emit_json(data)

@@ -7,7 +7,11 @@ import click
 from .. import api
 from ..vehicle import load_vehicle
 from . import cli
+from ._checks import Number, ranged
 from ._output import emit_json, table
+
+#: accepted time step [s] (the range a study's driving.dt_s accepts)
+DT = Number(0.01, 60.0, unit="s")
 
 
 @cli.command("energy")
@@ -16,8 +20,11 @@ from ._output import emit_json, table
               help="Bundled cycle (udds, wltc3b, ...), a phase (wltc3b:low), a CSV or GPX "
                    "file, steady:90kmh, A+B or A*3. Repeat for several. "
                    f"Default: {', '.join(api.DEFAULT_ENERGY_CYCLES)}.")
-@click.option("--dt-s", type=float, default=1.0, show_default=True,
-              help="Time step [s] that user profiles are resampled to.")
+@click.option("--dt-s", type=DT, default=1.0, show_default=True,
+              help=ranged("Time step [s] that speed files, GPS tracks and steady:<speed> are "
+                          "read at. Bundled cycles keep their native 1 s step (their "
+                          "regulations define them second by second); a joined A+B that "
+                          "contains a bundled cycle is read at 1 s throughout.", DT))
 @click.option("--mix-shares", default=None, metavar="S1,S2,...",
               help="Distance shares of the cycles (in --cycle order, adding up to 1) for a "
                    "weighted-mix row of consumption and range; needs a powertrain.")
@@ -30,8 +37,6 @@ def energy_command(vehicle_file, cycles, dt_s, mix_shares, as_json):
     aero, inertia and grade parts that add up to it. With a powertrain block,
     battery or fuel use, CO2 and range follow in a second table.
     """
-    if dt_s <= 0:
-        raise click.BadParameter("must be positive", param_hint="--dt-s")
     vehicle = load_vehicle(vehicle_file)
     report = api.energy(vehicle, api.load_profiles(cycles or api.DEFAULT_ENERGY_CYCLES,
                                                    dt_s=dt_s))

@@ -7,18 +7,26 @@ import click
 from ..performance import performance_summary
 from ..vehicle import load_vehicle
 from . import cli
+from ._checks import Number, ranged
 from ._output import emit_json, fmt, table
+
+
+#: checked options: grade within ±100 % (45°, as for grade_pct in speed files), wind
+#: within ±300 km/h, gradeability speed 0-300 km/h
+GRADE = Number(-100.0, 100.0, unit="%")
+WIND = Number(-300.0, 300.0, unit="km/h")
+GRADE_SPEED = Number(0.0, 300.0, unit="km/h")
 
 
 @cli.command("performance")
 @click.argument("vehicle_file", metavar="VEHICLE.yaml")
-@click.option("--grade-pct", type=float, default=0.0, show_default=True,
-              help="Road grade [%] for all figures (negative downhill).")
-@click.option("--wind-kmh", type=float, default=0.0, show_default=True,
-              help="Head wind [km/h]; negative for a tail wind.")
-@click.option("--grade-speed-kmh", type=float, default=None,
-              help="Speed [km/h] for the gradeability figure (default: the vehicle file's "
-                   "performance.gradeability_speed_kmh, else 10).")
+@click.option("--grade-pct", type=GRADE, default=0.0, show_default=True,
+              help=ranged("Road grade [%] for all figures (negative downhill).", GRADE))
+@click.option("--wind-kmh", type=WIND, default=0.0, show_default=True,
+              help=ranged("Head wind [km/h]; negative for a tail wind.", WIND))
+@click.option("--grade-speed-kmh", type=GRADE_SPEED, default=None,
+              help=ranged("Speed [km/h] for the gradeability figure (default: the vehicle "
+                          "file's performance.gradeability_speed_kmh, else 10).", GRADE_SPEED))
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
 def performance_command(vehicle_file, grade_pct, wind_kmh, grade_speed_kmh, as_json):
     """Top speed in every gear with the limit that binds, 0-100 and 80-120 km/h
@@ -28,12 +36,6 @@ def performance_command(vehicle_file, grade_pct, wind_kmh, grade_speed_kmh, as_j
     drive data: an engine full-load curve or a motor, gears and tyre radius,
     in the performance or the powertrain block.
     """
-    if not abs(grade_pct) <= 200:
-        raise click.BadParameter("must be within -200 and 200", param_hint="--grade-pct")
-    if not abs(wind_kmh) <= 300:
-        raise click.BadParameter("must be within -300 and 300", param_hint="--wind-kmh")
-    if grade_speed_kmh is not None and not 0 <= grade_speed_kmh <= 300:
-        raise click.BadParameter("must be within 0 and 300", param_hint="--grade-speed-kmh")
     vehicle = load_vehicle(vehicle_file)
     res = performance_summary(vehicle, grade_pct=grade_pct, wind_kmh=wind_kmh,
                               gradeability_speed_kmh=grade_speed_kmh)

@@ -7,7 +7,8 @@ Public functions:
   correct to reference conditions, derive CdA, Cd and Crr.
 * :func:`two_interval_estimate` — the two-interval quick estimate.
 * :func:`coast_speed_ms`, :func:`coast_time_s` — closed-form coasting.
-* :func:`write_road_load_yaml`, :func:`plot_coastdown` — outputs.
+* :func:`write_road_load` (by file ending: .yaml/.yml block or .json result),
+  :func:`write_road_load_yaml`, :func:`plot_coastdown` — outputs.
 
 Modules: ``logs`` (reading), ``runs`` (detection), ``motion`` (closed forms and
 filters), ``fitting`` (methods and covariance), ``corrections`` (reference
@@ -22,10 +23,11 @@ from .corrections import REFERENCE_STATES, correction_factors
 from .fitting import COMBINES, METHODS
 from .logs import CoastdownLog, read_coastdown_log
 from .motion import coast_speed_ms, coast_time_s
-from .output import plot_coastdown, road_load_yaml, write_road_load_yaml
+from .output import plot_coastdown, road_load_yaml, write_road_load, write_road_load_yaml
 from .quick import TwoIntervalEstimate, two_interval_estimate
 
 __all__ = ["CoastdownResult", "RunReport", "analyze_coastdown", "REFERENCE_STATES",
            "correction_factors", "COMBINES", "METHODS", "CoastdownLog", "read_coastdown_log",
            "coast_speed_ms", "coast_time_s", "plot_coastdown", "road_load_yaml",
-           "write_road_load_yaml", "TwoIntervalEstimate", "two_interval_estimate"]
+           "write_road_load", "write_road_load_yaml", "TwoIntervalEstimate",
+           "two_interval_estimate"]

@@ -37,6 +37,15 @@ DEFAULT_METHOD = "speed-time"
 DEFAULT_ROTATING_MASS_FRACTION = 0.03
 #: ISA sea-level density [kg/m³] used for CdA when the test air is unknown
 _ISA_DENSITY_KG_M3 = 1.225
+#: longest gap [s] a user may allow inside a run (a longer one is no coasting record)
+MAX_GAP_LIMIT_S = 60.0
+#: accepted test air temperature [°C] (the range of the log column)
+AIR_TEMPERATURE_RANGE_C = (-60.0, 60.0, "°C")
+#: accepted test (station) air pressure [Pa]: about 9 km altitude to a deep low-lying site
+AIR_PRESSURE_RANGE_PA = (30000.0, 110000.0, "Pa")
+#: accepted rolling-resistance temperature factor K0 [1/K]: 0 to a bit over twice the
+#: UN GTR No. 15 value 8.6e-3/K (from memory); rolling resistance falls as tyres warm
+ROLLING_FACTOR_RANGE_PER_K = (0.0, 0.02, "1/K")
 
 
 def _std(cov):
@@ -344,10 +353,19 @@ def analyze_coastdown(logs: Sequence, *, mass_kg: float,
     if not (0.0 < min_span_kmh < hi - lo + 1e-9):
         raise InputError(f"must be positive and fit in the speed window, got {min_span_kmh:g}",
                          field="min_span_kmh")
-    if max_gap_s is not None and not max_gap_s > 0:
-        raise InputError(f"must be positive, got {max_gap_s:g}", field="max_gap_s")
-    if not (mass_std_kg >= 0.0):
-        raise InputError(f"must not be negative, got {mass_std_kg:g}", field="mass_std_kg")
+    if max_gap_s is not None and not (0.0 < max_gap_s <= MAX_GAP_LIMIT_S):
+        raise InputError(f"must be above 0 and at most {MAX_GAP_LIMIT_S:g} s, got "
+                         f"{max_gap_s:g}", field="max_gap_s")
+    if not (0.0 <= mass_std_kg < mass_kg):
+        raise InputError(f"must be at least 0 and below the test mass {mass_kg:g} kg, got "
+                         f"{mass_std_kg:g}", field="mass_std_kg")
+    for name, value, (low, high, unit) in (
+            ("air_temperature_c", air_temperature_c, AIR_TEMPERATURE_RANGE_C),
+            ("air_pressure_pa", air_pressure_pa, AIR_PRESSURE_RANGE_PA),
+            ("rolling_factor_per_k", rolling_factor_per_k, ROLLING_FACTOR_RANGE_PER_K)):
+        if value is not None and not (low <= value <= high):
+            raise InputError(f"must be between {low:g} and {high:g} {unit}, got {value:g}",
+                             field=name)
     if not (0.5 <= smoothing_s <= 60.0):
         raise InputError(f"must be between 0.5 and 60 s, got {smoothing_s:g}",
                          field="smoothing_s")
@@ -501,6 +519,10 @@ def analyze_coastdown(logs: Sequence, *, mass_kg: float,
             notes.append(f"run {r.run_id} disagrees with the other runs ({rf.deviation_n:+.1f} N, "
                          f"p = {rf.p_value:.1e}); look at it and drop it if something went "
                          "wrong")
+    numbers = np.concatenate([np.ravel(coef), np.ravel(cov), [cda, cda_std, crr, crr_std]])
+    if not np.all(np.isfinite(numbers)):
+        raise InputError("the fit gave no finite road load (not a number); check the runs "
+                         "and the options", field="runs")
     return CoastdownResult(
         f0_n=float(coef[0]), f1_n_per_kmh=float(coef[1]), f2_n_per_kmh2=float(coef[2]),
         covariance=cov, measured=measured, measured_covariance=measured_cov,

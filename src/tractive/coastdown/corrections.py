@@ -9,7 +9,8 @@ state:
   With ideal-gas air this is the factor K2 = (T/T_ref)·(p_ref/p).
 * **Rolling terms** to the reference temperature:
   f_ref = f · (1 + K0·(T − T_ref)) on f0 and f1 (rolling resistance falls as
-  tyres warm, so a cold test day reads high).
+  tyres warm, so a cold test day reads high). A factor outside 0.5-1.5 is
+  refused: the linear correction does not reach that far.
 
 Standards and reference values
 ------------------------------
@@ -53,6 +54,9 @@ GTR15_REFERENCE_TEMPERATURE_K = 293.0
 GTR15_REFERENCE_PRESSURE_PA = 100000.0
 #: UN GTR No. 15 Annex 4 rolling-resistance temperature factor K0 [1/K] (from memory)
 GTR15_ROLLING_FACTOR_PER_K = 8.6e-3
+#: accepted range of the rolling correction factor 1 + K0·(T − T_ref) [-]: a linear
+#: correction that changes f0 by half or more is no longer a correction (common practice)
+ROLLING_CORRECTION_LIMITS = (0.5, 1.5)
 
 
 @dataclass(frozen=True)
@@ -162,6 +166,15 @@ def correction_factors(reference: str, *, temperature_c=None, pressure_pa=None,
                                    "unknown")
     if k0 is not None and temperature_c is not None:
         kr = 1.0 + k0 * (temperature_c - ref.temperature_c)
+        if not (ROLLING_CORRECTION_LIMITS[0] <= kr <= ROLLING_CORRECTION_LIMITS[1]):
+            field = ("rolling_factor_per_k" if rolling_factor_per_k is not None
+                     else "air_temperature_c")
+            raise InputError(
+                f"the rolling correction factor 1 + K0·(T − T_ref) = {kr:.3f} is outside "
+                f"{ROLLING_CORRECTION_LIMITS[0]:g}-{ROLLING_CORRECTION_LIMITS[1]:g} (K0 "
+                f"{k0:g}/K, test {temperature_c:g} °C, reference {ref.temperature_c:g} °C): "
+                "a linear correction cannot bridge that; test nearer the reference "
+                "temperature or check the factor", field=field)
         factors[0] = factors[1] = kr
         info["rolling_factor_per_k"] = k0
         info["rolling_factor"] = float(kr)

@@ -4,8 +4,14 @@ The YAML block holds exactly the keys a vehicle file's ``road_load:``
 accepts (``f0_n``, ``f1_n_per_kmh``, ``f2_n_per_kmh2``, ``covariance``); the
 rest of the result (method, runs, corrections) is written as comments above
 it. A vehicle file can include it with ``road_load: {from_coastdown: FILE}``
-or have it pasted under ``road_load:``. Files are written atomically and never
-over an input.
+or have it pasted under ``road_load:``.
+
+The output file's ending chooses the format: ``.yaml`` or ``.yml`` for that
+block, ``.json`` for the whole result as JSON (the document ``--json``
+prints; ``from_coastdown`` reads its ``road_load`` entry). Figures are
+``.png``, ``.pdf`` or ``.svg``. Any other ending is refused, as is a missing
+folder. Files are written atomically and never over an input; a result that
+is not finite is never written.
 """
 
 from __future__ import annotations
@@ -14,12 +20,54 @@ from typing import Iterable
 
 import numpy as np
 
-from ..report.common import atomic_write, write_text_atomic
+from ..errors import InputError
+from ..report.common import atomic_write, check_target, write_text_atomic
 from ..units import KMH_MS
+
+#: endings of the road-load file: YAML block, or the whole result as JSON
+ROAD_LOAD_SUFFIXES = (".yaml", ".yml", ".json")
+#: endings of the figure (formats matplotlib writes with its Agg backend)
+PLOT_SUFFIXES = (".png", ".pdf", ".svg")
 
 
 def _num(x: float) -> str:
-    return repr(float(x))
+    """A float as YAML text that YAML 1.1 readers also take as a number.
+
+    ``repr`` writes ``1e-05`` for some values; YAML 1.1 (PyYAML) needs a dot in
+    the mantissa (``1.0e-05``) to read it as a float.
+    """
+    text = repr(float(x))
+    if "e" in text and "." not in text.split("e")[0]:
+        mant, exp = text.split("e")
+        text = f"{mant}.0e{exp}"
+    return text
+
+
+def _json_ready(obj):
+    """Plain JSON data: numpy scalars and arrays as Python values, NaN and inf as null."""
+    if isinstance(obj, dict):
+        return {str(k): _json_ready(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_json_ready(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return _json_ready(obj.tolist())
+    if isinstance(obj, (np.floating, float)):
+        v = float(obj)
+        return v if np.isfinite(v) else None
+    if isinstance(obj, np.integer):
+        return int(obj)
+    if isinstance(obj, np.bool_):
+        return bool(obj)
+    return obj
+
+
+def _require_finite(result, path) -> None:
+    block = result.road_load_block()
+    values = [block["f0_n"], block["f1_n_per_kmh"], block["f2_n_per_kmh2"]]
+    values += [x for row in block["covariance"] for x in row]
+    if not np.all(np.isfinite(values)):
+        raise InputError("not written: the fit gave no finite road load (check the runs "
+                         "and options)", file=str(path))
 
 
 def road_load_yaml(result, *, inputs: Iterable = ()) -> str:
@@ -60,16 +108,43 @@ def road_load_yaml(result, *, inputs: Iterable = ()) -> str:
 def write_road_load_yaml(result, path, *, inputs: Iterable = ()):
     """Write the road-load block atomically; refuses to overwrite an input file."""
     inputs = [str(x) for x in inputs]
+    check_target(path, inputs, suffixes=(".yaml", ".yml"))
+    _require_finite(result, path)
     return write_text_atomic(path, road_load_yaml(result, inputs=inputs), inputs=inputs)
+
+
+def write_road_load(result, path, *, inputs: Iterable = ()):
+    """Write the result by the file's ending: ``.yaml``/``.yml`` the road-load block
+    (:func:`road_load_yaml`), ``.json`` the whole result (``result.to_dict()``).
+
+    Raises
+    ------
+    InputError
+        Another ending, a missing or unwritable folder, an input file as target,
+        or a result that is not finite.
+    """
+    inputs = [str(x) for x in inputs]
+    target = check_target(path, inputs, suffixes=ROAD_LOAD_SUFFIXES)
+    if target.suffix.lower() != ".json":
+        return write_road_load_yaml(result, path, inputs=inputs)
+    import json
+
+    _require_finite(result, path)
+    text = json.dumps(_json_ready(result.to_dict()), indent=2, allow_nan=False,
+                      ensure_ascii=False) + "\n"
+    return write_text_atomic(path, text, inputs=inputs)
 
 
 def plot_coastdown(result, path, *, inputs: Iterable = ()):
     """Figure: measured and fitted speed against time, deceleration against speed,
     and the speed residuals.
 
-    Written atomically as PNG (or the format of the file suffix) with
-    matplotlib's Agg backend.
+    Written atomically with matplotlib's Agg backend in the format of the file
+    ending: ``.png``, ``.pdf`` or ``.svg`` (others are refused).
     """
+    inputs = [str(x) for x in inputs]
+    target = check_target(path, inputs, suffixes=PLOT_SUFFIXES)
+    _require_finite(result, path)
     import matplotlib
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
@@ -116,12 +191,12 @@ def plot_coastdown(result, path, *, inputs: Iterable = ()):
                  f"f2 {result.f2_n_per_kmh2:.5f} N/(km/h)²  ({result.method}, "
                  f"{result.combine})", fontsize=10)
     fig.tight_layout()
-    suffix = str(path).rsplit(".", 1)[-1].lower() if "." in str(path) else "png"
+    suffix = target.suffix.lower().lstrip(".")
 
     def _write(tmp):
-        fig.savefig(tmp, format=suffix if suffix in ("png", "pdf", "svg") else "png", dpi=120)
+        fig.savefig(tmp, format=suffix, dpi=120)
 
     try:
-        return atomic_write(path, _write, inputs=[str(x) for x in inputs])
+        return atomic_write(path, _write, inputs=inputs)
     finally:
         plt.close(fig)

@@ -41,6 +41,27 @@ from ..units import KMH_MS, STANDARD_GRAVITY_MS2
 from .motion import coast_time_s
 
 _F2_MS_TO_KMH = KMH_MS ** 2   # N/(m/s)² → N/(km/h)²
+#: accepted inputs: test mass [kg], speeds [km/h], coast times [s], air density [kg/m³]
+#: (air at -60 °C and 110 kPa is about 1.8 kg/m³, at 6 km altitude about 0.66)
+MAX_MASS_KG = 100000.0
+MAX_SPEED_KMH = 400.0
+MAX_TIME_S = 3600.0
+AIR_DENSITY_RANGE_KG_M3 = (0.5, 2.0)
+
+
+def _checked(value, field, low, high, unit, *, low_open=False) -> float:
+    """``value`` as a finite float within [low, high] (``low`` excluded if ``low_open``)."""
+    try:
+        x = float(value)
+    except (TypeError, ValueError):
+        raise InputError(f"must be a number, got {value!r}", field=field) from None
+    ok = np.isfinite(x) and (x > low if low_open else x >= low) and x <= high
+    if not ok:
+        bound = "above" if low_open else "at least"
+        unit_text = f" {unit}" if unit else ""
+        raise InputError(f"must be {bound} {low:g} and at most {high:g}{unit_text}, got {x:g}",
+                         field=field)
+    return x
 
 ASSUMPTIONS = (
     "level road, no wind (or the mean of both directions)",
@@ -122,23 +143,35 @@ def two_interval_estimate(*, mass_kg, high_kmh, high_time_s, low_kmh, low_time_s
     Raises
     ------
     InputError
-        When the speeds do not fall, the intervals coincide, or the times imply
-        a negative rolling or drag term.
+        When a value is not a finite number in its range (mass above 0 to
+        100 000 kg, rotating-mass fraction 0 to 1, speeds above 0 to 400 km/h,
+        times above 0 to 3600 s, air density 0.5 to 2 kg/m³), the speeds do not
+        fall, the intervals coincide, or the times imply a negative rolling or
+        drag term.
 
     References
     ----------
     .. [1] White and Korst, SAE 720099 (1972).
     """
-    if mass_kg <= 0:
-        raise InputError(f"must be positive, got {mass_kg:g} kg", field="mass_kg")
+    mass_kg = _checked(mass_kg, "mass_kg", 0.0, MAX_MASS_KG, "kg", low_open=True)
+    rotating_mass_fraction = _checked(rotating_mass_fraction, "rotating_mass_fraction", 0.0,
+                                      1.0, "")
+    if air_density_kg_m3 is not None:
+        air_density_kg_m3 = _checked(air_density_kg_m3, "air_density_kg_m3",
+                                     *AIR_DENSITY_RANGE_KG_M3, "kg/m³")
+    for name, pair, t in (("high", high_kmh, high_time_s), ("low", low_kmh, low_time_s)):
+        if len(tuple(pair)) != 2:
+            raise InputError("give a start and an end speed", field=f"{name}_kmh")
+        for x in pair:
+            _checked(x, f"{name}_kmh", 0.0, MAX_SPEED_KMH, "km/h", low_open=True)
+        _checked(t, f"{name}_time_s", 0.0, MAX_TIME_S, "s", low_open=True)
     v1, v2 = (float(x) * KMH_MS for x in high_kmh)
     v3, v4 = (float(x) * KMH_MS for x in low_kmh)
-    for name, (a, b), t in (("high", (v1, v2), high_time_s), ("low", (v3, v4), low_time_s)):
+    high_time_s, low_time_s = float(high_time_s), float(low_time_s)
+    for name, (a, b) in (("high", (v1, v2)), ("low", (v3, v4))):
         if not (a > b > 0):
             raise InputError("start speed must exceed end speed, both above zero",
                              field=f"{name}_kmh")
-        if not t > 0:
-            raise InputError(f"must be positive, got {t:g} s", field=f"{name}_time_s")
     if v1 * v2 <= v3 * v4:
         raise InputError("the high interval must lie at higher speeds than the low one",
                          field="high_kmh")
@@ -155,8 +188,13 @@ def two_interval_estimate(*, mass_kg, high_kmh, high_time_s, low_kmh, low_time_s
                          "the range a positive rolling and drag term allow; check the times "
                          "and speeds", field="high_time_s")
     lo_x, hi_x = 1e-12, 1e6
-    x = float(np.exp(brentq(lambda lx: ratio_at(np.exp(lx)) - ratio, np.log(lo_x),
-                            np.log(hi_x), xtol=1e-14, rtol=1e-14)))
+    try:
+        x = float(np.exp(brentq(lambda lx: ratio_at(np.exp(lx)) - ratio, np.log(lo_x),
+                                np.log(hi_x), xtol=1e-14, rtol=1e-14)))
+    except ValueError:
+        raise InputError(f"the time ratio {ratio:.6f} is too close to a limit of "
+                         f"{r_drag:.6f}-{r_roll:.6f} (all rolling or all drag) to give both "
+                         "terms; check the times and speeds", field="high_time_s") from None
     a = float(coast_time_s(v1, v2, 1.0, 0.0, x, m)) / high_time_s
     b = x * a
     # mean-deceleration shortcut: m·ΔV/t = A + B·V̄²
@@ -164,6 +202,9 @@ def two_interval_estimate(*, mass_kg, high_kmh, high_time_s, low_kmh, low_time_s
     rhs = np.array([m * (v1 - v2) / high_time_s, m * (v3 - v4) / low_time_s])
     a_md, b_md = np.linalg.solve(mat, rhs)
     cda = None if air_density_kg_m3 is None else b / (0.5 * air_density_kg_m3)
+    if not np.all(np.isfinite([a, b, a_md, b_md])):
+        raise InputError("the times and speeds give no finite road load; check them",
+                         field="high_time_s")
     return TwoIntervalEstimate(
         mass_kg=float(mass_kg), inertial_mass_kg=m, high_kmh=tuple(map(float, high_kmh)),
         high_time_s=float(high_time_s), low_kmh=tuple(map(float, low_kmh)),

@@ -4,7 +4,16 @@ Atomic writing
     The writer writes a temporary file in the target's own folder and then
     renames it over the target with :func:`os.replace` (atomic on POSIX and
     Windows when both are on the same file system). A failure leaves no
-    half-written target and removes the temporary file.
+    half-written target and removes the temporary file. Every operating-system
+    error on the way (creating the temporary file, writing, renaming) becomes
+    an :class:`~tractive.errors.InputError` naming the output file
+    ("cannot write: permission denied").
+
+Missing folders
+    The folder of an output file must exist; it is never created (a typing
+    mistake in a folder name would otherwise scatter files). A missing folder
+    is refused with "folder does not exist" before any work is done, by
+    :func:`check_target`.
 
 Permissions
     The temporary file is created with mode 0o666, from which the operating
@@ -37,6 +46,7 @@ References
 from __future__ import annotations
 
 import contextlib
+import errno
 import os
 import secrets
 import stat
@@ -93,15 +103,65 @@ def _same_file(a: Path, b: Path) -> bool:
         return False
 
 
-def check_target(path, inputs: Iterable = ()) -> Path:
-    """Refuse an output path that is one of the input files or a folder."""
+def _reason(exc: OSError, folder: Path) -> str:
+    """An operating-system error in plain lower-case words ("permission denied")."""
+    if exc.errno == errno.ENOENT:
+        try:
+            exists = folder.is_dir()
+        except OSError:
+            exists = True
+        return "the folder does not accept new files" if exists else "folder does not exist"
+    text = exc.strerror or str(exc) or exc.__class__.__name__
+    return " ".join(text.split()).lower()
+
+
+def check_target(path, inputs: Iterable = (), *, suffixes: Iterable[str] | None = None
+                 ) -> Path:
+    """Refuse an output path that cannot or must not be written, before any work is done.
+
+    Parameters
+    ----------
+    path : str or path
+        The output file.
+    inputs : iterable of paths
+        Files the result is computed from; the output must not be one of them.
+    suffixes : iterable of str, optional
+        Accepted file-name endings (lower case, with the dot, e.g. ``".yaml"``).
+
+    Raises
+    ------
+    InputError
+        Naming the output file: an input file, a folder, a folder that does
+        not exist (it is not created), a folder that cannot be written, or an
+        ending not in ``suffixes``.
+    """
+    if not str(path).strip():
+        raise InputError("empty output file name", file=str(path))
     target = Path(path)
     for src in inputs:
         if src and _same_file(target, Path(src)):
             raise InputError("refusing to overwrite an input file; choose another output "
                              "name", file=str(target))
-    if target.is_dir():
-        raise InputError("is a folder, expected a file name", file=str(target))
+    if suffixes is not None:
+        allowed = tuple(suffixes)
+        if target.suffix.lower() not in allowed:
+            got = f"'{target.suffix}'" if target.suffix else "no ending"
+            raise InputError(f"unsupported file type ({got}); use a name ending in "
+                             f"{', '.join(allowed)}", file=str(target))
+    folder = target.parent
+    try:
+        if target.is_dir():
+            raise InputError("is a folder, expected a file name", file=str(target))
+        if not folder.exists():
+            raise InputError(f"cannot write: folder does not exist ({folder}); create it "
+                             "first", file=str(target))
+        if not folder.is_dir():
+            raise InputError(f"cannot write: {folder} is not a folder", file=str(target))
+    except OSError as exc:
+        raise InputError(f"cannot write: {_reason(exc, folder)}", file=str(target)) from None
+    if not os.access(folder, os.W_OK | os.X_OK):
+        raise InputError("cannot write: permission denied (the folder is not writable)",
+                         file=str(target))
     return target
 
 
@@ -111,7 +171,7 @@ def atomic_write(path, write: Callable[[Path], None], *, inputs: Iterable = ()) 
     Parameters
     ----------
     path : str or path
-        Target file. Its folder is created when missing.
+        Target file. Its folder must exist (it is never created).
     write : callable
         ``write(tmp_path)`` writes the whole content to ``tmp_path``.
     inputs : iterable of paths
@@ -124,28 +184,30 @@ def atomic_write(path, write: Callable[[Path], None], *, inputs: Iterable = ()) 
     Raises
     ------
     InputError
-        When the target is an input or a folder, or cannot be written.
+        When the target is an input or a folder, its folder is missing, or
+        any step of creating, writing or renaming fails (an :class:`OSError`
+        such as "permission denied", "read-only file system" or "no space
+        left on device", named in the message). No temporary or partial file
+        is left behind.
     """
     target = check_target(path, inputs)
-    folder = target.parent if str(target.parent) else Path(".")
+    folder = target.parent
+    tmp = None
     try:
-        folder.mkdir(parents=True, exist_ok=True)
-    except OSError as exc:
-        raise InputError(f"cannot create the output folder ({exc.strerror})",
-                         file=str(target)) from None
-    tmp = _new_temp_file(folder, target)
-    try:
+        tmp = _new_temp_file(folder, target)
         write(tmp)
         _keep_target_mode(tmp, target)
         os.replace(tmp, target)
     except OSError as exc:
-        with contextlib.suppress(OSError):
-            tmp.unlink()
-        raise InputError(f"cannot write the file ({exc.strerror or exc})",
+        if tmp is not None:
+            with contextlib.suppress(OSError):
+                tmp.unlink()
+        raise InputError(f"cannot write: {_reason(exc, folder)}",
                          file=str(target)) from None
     except BaseException:
-        with contextlib.suppress(OSError):
-            tmp.unlink()
+        if tmp is not None:
+            with contextlib.suppress(OSError):
+                tmp.unlink()
         raise
     return target
 
@@ -155,7 +217,7 @@ def _new_temp_file(folder: Path, target: Path) -> Path:
 
     ``os.open`` with ``O_CREAT | O_EXCL`` and mode 0o666 lets the operating system
     apply the umask (and a default ACL), as for any newly created file; a name
-    that exists already is never reused.
+    that exists already is never reused. Other :class:`OSError` propagate.
     """
     flags = os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_CLOEXEC", 0)
     for _ in range(100):
@@ -164,12 +226,9 @@ def _new_temp_file(folder: Path, target: Path) -> Path:
             fd = os.open(tmp, flags, 0o666)
         except FileExistsError:
             continue
-        except OSError as exc:
-            raise InputError(f"cannot write in the output folder ({exc.strerror or exc})",
-                             file=str(target)) from None
         os.close(fd)
         return tmp
-    raise InputError("cannot create a temporary file in the output folder",
+    raise InputError("cannot write: no free temporary file name in the output folder",
                      file=str(target))
 
 
