@@ -596,7 +596,7 @@ def test_chunk_size_keeps_the_evaluation_within_its_memory_budget(tmp_path, vehi
     assert 1 <= n < ps.size
     tracemalloc.start()
     try:
-        engine._evaluate(ps.take(slice(0, n)), profiles, [], chunk_size=n)
+        engine._evaluate(ps.take(slice(0, n)), profiles, chunk_size=n)
         _, peak = tracemalloc.get_traced_memory()
     finally:
         tracemalloc.stop()

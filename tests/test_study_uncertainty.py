@@ -483,3 +483,84 @@ uncertainty: {draws: 4000, seed: 3}
     assert low == pytest.approx(lo + 0.025 * width, abs=0.01 * width)
     assert high == pytest.approx(lo + 0.975 * width, abs=0.01 * width)
     assert any("uniform" in u and "C1/B" in u for u in res.uncertainty["uncertain_parameters"])
+
+
+RACER = """\
+name: racer
+mass_kg: 980
+mass_std_kg: 8
+rotating_mass_fraction: 0.05
+road_load:
+  cda_m2: 0.69
+  cda_std_m2: 0.02
+  cla_m2: 0.15
+  cla_std_m2: 0.05
+  crr: 0.013
+  crr_std: 0.001
+performance:
+  driven_axle_load_share: 0.55
+  tyre_road_friction: 1.3
+  driven_axle: rear
+  cg_height_m: 0.42
+  wheelbase_m: 2.40
+  downforce_driven_share: 0.6
+  full_load:
+    speed_rpm: [2000, 4000, 6000, 7600, 8000]
+    power_kw: [55, 125, 185, 203, 196]
+  rev_limit_rpm: 8000
+  gear_ratios: [3.10, 2.20, 1.70, 1.36, 1.13, 0.96]
+  final_drive_ratio: 3.40
+  tyre_radius_m: 0.31
+  driveline_efficiency: 0.90
+  shift_time_s: 0.10
+"""
+
+
+def test_performance_of_every_draw_equals_the_one_vehicle_result(tmp_path):
+    # consistency check: the vectorized top speed and acceleration of N drawn vehicles
+    # equal tractive.performance on each vehicle alone, in any chunk size
+    from tractive.performance import performance_summary
+    from tractive.spec import read_yaml
+    from tractive.study import engine, modify
+    from tractive.study.uncertainty import UNCERTAIN_PARAMS, expand, standard_normal_draws
+    from tractive.vehicle import load_vehicle
+
+    (tmp_path / "racer.yaml").write_text(RACER)
+    veh = load_vehicle(tmp_path / "racer.yaml")
+    nom, stds, cov = modify.nominal_params(veh, read_yaml(tmp_path / "racer.yaml"),
+                                           air_density_kg_m3=1.18)
+    rng = np.random.default_rng(8)
+    n = 24
+    z = {k: standard_normal_draws(rng, n) for k in UNCERTAIN_PARAMS + ("coef0", "coef1",
+                                                                       "coef2")}
+    ps, _ = expand(nom, stds, cov, z, n)
+    whole = engine._performance(ps)
+    chunked = engine._performance(ps, chunk_size=5)
+    assert set(whole) == set(engine.PERFORMANCE_KEYS)
+    for i in range(ps.size):
+        one = performance_summary(ps.vehicle(i))
+        for key in engine.PERFORMANCE_KEYS:
+            assert whole[key][i] == pytest.approx(getattr(one, key), rel=1e-9, abs=1e-9)
+            assert chunked[key][i] == whole[key][i]
+    assert np.std(whole["top_speed_kmh"][1:]) > 0.1       # the draws differ
+
+
+def test_top_speed_and_acceleration_carry_intervals(tmp_path):
+    (tmp_path / "racer.yaml").write_text(RACER)
+    (tmp_path / "study.yaml").write_text("""\
+baseline: {vehicle: racer.yaml}
+modifications:
+  - name: wing
+    changes: {cda_m2: +0.13, cda_std_m2: 0.03, cla_m2: +1.05}
+driving:
+  profiles: ["steady:100kmh:60s"]
+uncertainty: {draws: 200, seed: 4}
+""")
+    res = run_study(tmp_path / "study.yaml")
+    assert not any("nominal vehicle only" in w for w in res.warnings)
+    row = res.row("wing", "steady:100kmh:60s")
+    for key in ("top_speed_kmh", "accel_0_100_kmh_s", "accel_80_120_kmh_s"):
+        assert row.interval_low[key] < row.metrics[key] < row.interval_high[key]
+    # more drag costs top speed in every draw (common random numbers): the change
+    # interval lies below zero
+    assert row.change_high["top_speed_kmh"] < 0 and row.distinguishable["top_speed_kmh"]

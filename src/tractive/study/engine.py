@@ -11,7 +11,9 @@ each:
   aero, inertia and grade parts, braking energy, per km;
 * with a powertrain, its ``consume``: battery or fuel energy, per km, range,
   CO2;
-* with performance data, top speed and acceleration times (nominal only).
+* with performance data, top speed and acceleration times
+  (:func:`tractive.performance.performance_summary`, all vehicles of the
+  set in one vectorized call per chunk of :data:`PERFORMANCE_CHUNK`).
 
 The draws are evaluated in chunks along the vehicle axis, each chunk in one
 vectorized call, so that one call stays within a memory budget (see
@@ -204,7 +206,7 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
     raw_results = {}
     demands = {}
     for name, role, ps, cost, members, desc in variants:
-        raw_results[name], demands[name] = _evaluate(ps, profiles, warnings,
+        raw_results[name], demands[name] = _evaluate(ps, profiles,
                                                      spec.ambient_temperature_c,
                                                      chunk_size=chunk_size)
     for name, *_ in variants:
@@ -399,8 +401,7 @@ def chunk_size_for(ps, profiles, memory_bytes: int = CHUNK_MEMORY_BYTES) -> int:
     return max(1, int(memory_bytes // per_vehicle))
 
 
-def _evaluate(ps, profiles, warnings, ambient_temperature_c=None, every=False,
-              chunk_size=None) -> tuple:
+def _evaluate(ps, profiles, ambient_temperature_c=None, chunk_size=None) -> tuple:
     """Metric arrays (vehicle axis) per profile, and the wheel demands.
 
     The vehicles are evaluated in chunks along the vehicle axis of at most
@@ -410,7 +411,7 @@ def _evaluate(ps, profiles, warnings, ambient_temperature_c=None, every=False,
     vehicle, index 0).
     """
     size = ps.size
-    perf = _performance(ps, warnings, every)
+    perf = _performance(ps)
     step = chunk_size_for(ps, profiles) if chunk_size is None else max(1, int(chunk_size))
     if step >= size:
         out, demands = _evaluate_chunk(ps, profiles, ambient_temperature_c)
@@ -477,31 +478,38 @@ def _evaluate_chunk(ps, profiles, ambient_temperature_c=None) -> tuple:
     return out, demands
 
 
-def _performance(ps, warnings, every=False) -> dict:
-    """Top speed and acceleration arrays (nominal at index 0; draws NaN unless vectorized)."""
+#: vehicles per vectorized performance call: the top-speed and acceleration model holds
+#: about 9 KiB per vehicle at its peak (6-gear engine, measured with tracemalloc), so
+#: 4096 vehicles take about 40 MiB
+PERFORMANCE_CHUNK = 4096
+
+
+def _performance(ps, chunk_size: int | None = None) -> dict:
+    """Top speed and acceleration arrays of every vehicle of the set (vehicle axis).
+
+    All vehicles (nominal and draws) go through
+    :func:`tractive.performance.performance_summary` with their fields as (N,)
+    arrays, in chunks of at most ``chunk_size`` (default
+    :data:`PERFORMANCE_CHUNK`) vehicles; entry i equals the one-vehicle
+    result of vehicle i. A time not reached is NaN; a metric not reached by
+    any vehicle is left out.
+    """
     if ps.performance is None:
         return {}
-    try:
-        from ..performance import performance_summary
-    except ImportError:
-        return {}
+    from ..performance import performance_summary
+
     size = ps.size
-    # performance is a scalar model: the nominal vehicle only, or (for the few
-    # attribution subsets, never for Monte Carlo draws) each vehicle of the set
-    indices = range(size) if every else [0]
-    out = {}
-    for i in indices:
-        res = performance_summary(ps.vehicle(i))
-        data = res.to_dict() if hasattr(res, "to_dict") else dict(res)
+    step = PERFORMANCE_CHUNK if chunk_size is None else max(1, int(chunk_size))
+    out = {key: np.full(size, np.nan) for key in PERFORMANCE_KEYS}
+    for start in range(0, size, step):
+        part = ps if step >= size else ps.take(slice(start, start + step))
+        res = performance_summary(part.vehicle())
         for key in PERFORMANCE_KEYS:
-            value = data.get(key)
+            value = getattr(res, key)
             if value is None:
                 continue
-            out.setdefault(key, np.full(size, np.nan))[i] = float(value)
-    if size > 1 and out and not every:
-        warnings.append("top speed and acceleration are computed for the nominal vehicle "
-                        "only; their intervals are not reported")
-    return out
+            out[key][start:start + part.size] = np.asarray(value, float)
+    return {k: v for k, v in out.items() if not np.all(np.isnan(v))}
 
 
 def _note_limits(name, per_profile: dict, n: int, warnings) -> None:
@@ -750,7 +758,7 @@ def _attribute(spec, name, groups, base_nominal, var_nominal, profiles, order, o
         pt_values = {k: np.concatenate([m.pt_values[k] for _, m in items])
                      for k in first.pt_values}
         batch = replace(first, params=params, pt_values=pt_values)
-        per_profile, _ = _evaluate(batch, profiles, [], spec.ambient_temperature_c, every=True)
+        per_profile, _ = _evaluate(batch, profiles, spec.ambient_temperature_c)
         for j, (s, _) in enumerate(items):
             one = {p: {k: v[j:j + 1] for k, v in met.items()} for p, met in per_profile.items()}
             derived = _derive(spec, one)

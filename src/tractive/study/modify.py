@@ -433,7 +433,12 @@ class ParamSet:
         return RoadLoad.from_coastdown(f0, f1, f2)
 
     def vehicle(self, index: int | None = None) -> Vehicle:
-        """A :class:`Vehicle`: scalar at ``index``, or with array fields (vehicle axis)."""
+        """A :class:`Vehicle`: scalar at ``index``, or with array fields (vehicle axis).
+
+        With ``index=None`` every numeric field (mass, road load, uncertain
+        powertrain keys) is an (N,) array, as the vectorized models take it; its
+        road load resolves to exactly :meth:`road_load`.
+        """
         p = self.params if index is None else {k: float(np.asarray(v)[index])
                                                for k, v in self.params.items()}
         tpl = self.template
@@ -450,25 +455,17 @@ class ParamSet:
                 rl = CoefficientRoadLoad(float(f0[0]), float(f1[0]), float(f2[0]),
                                          form="coastdown",
                                          reference_air_density_kg_m3=p["air_density_kg_m3"])
+        elif self.form == PHYSICAL:
+            rl = PhysicalRoadLoad(cda_m2=p["cda_m2"], crr=p["crr"],
+                                  air_density_kg_m3=p["air_density_kg_m3"],
+                                  crr_per_kmh=p["crr_per_kmh"], cla_m2=p["cla_m2"])
         else:
-            rl = _FixedRoadLoad(self.road_load(), self.form)
+            f0, f1, f2 = self.coefficients()
+            rl = CoefficientRoadLoad(f0, f1, f2, form="coastdown",
+                                     reference_air_density_kg_m3=p["air_density_kg_m3"])
         return replace(tpl, mass_kg=p["mass_kg"], rotating_mass_fraction=p["rotating_mass_fraction"],
                        road_load=rl, powertrain=self.effective_powertrain(index),
                        performance=self.performance)
-
-
-@dataclass(frozen=True)
-class _FixedRoadLoad:
-    """A resolved road load with a vehicle axis, shaped like the road-load forms."""
-
-    resistance: RoadLoad
-    form: str
-
-    def resolve(self, mass_kg=None) -> RoadLoad:
-        return self.resistance
-
-    def to_dict(self) -> dict:
-        return {"form": self.form, **self.resistance.coastdown_coefficients()}
 
 
 #: UN GTR No. 15 Annex 4 road-load reference state: 293 K, 100 kPa (from memory; the
