@@ -78,3 +78,28 @@ def test_performance_errors_are_one_line_with_status_2(args, words):
     lines = r.stderr.strip().splitlines()
     assert len(lines) == 1 and words in lines[0]
     assert "Traceback" not in r.stderr and r.stdout == ""
+
+
+@pytest.mark.parametrize("args, option", [
+    (("--grade-pct", "nan"), "--grade-pct"),
+    (("--grade-pct", "150"), "--grade-pct"),     # steeper than 45° (100 %)
+    (("--grade-pct", "-inf"), "--grade-pct"),
+    (("--wind-kmh", "nan"), "--wind-kmh"),
+    (("--wind-kmh", "inf"), "--wind-kmh"),
+    (("--wind-kmh", "400"), "--wind-kmh"),
+    (("--grade-speed-kmh", "nan"), "--grade-speed-kmh"),
+    (("--grade-speed-kmh", "1e300"), "--grade-speed-kmh"),
+])
+def test_performance_refuses_bad_numbers(args, option):
+    # interface check (project rule: exit status 2, one stderr line naming the option,
+    # nothing printed as a result)
+    r = run("performance", VEH / "track_car.yaml", *args)
+    assert r.returncode == 2 and r.stdout == ""
+    lines = r.stderr.strip().splitlines()
+    assert len(lines) == 1 and option in lines[0] and "Traceback" not in r.stderr
+
+
+def test_performance_help_states_the_accepted_ranges():
+    text = " ".join(run("performance", "--help").stdout.split())
+    assert "at least -100 and at most 100 %" in text
+    assert "at least -300 and at most 300 km/h" in text

@@ -106,3 +106,65 @@ def test_energy_adds_fuel_results():
     # interface check (project rule: one stderr line, exit status 2)
     bad = run("energy", VEH / "petrol_hatchback_map.yaml", "-c", "udds", "--mix-shares", "0.5")
     assert bad.returncode == 2 and len(bad.stderr.strip().splitlines()) == 1
+
+
+# -- option values -------------------------------------------------------------------
+
+def _one_line(r, option):
+    # project rule: exit status 2, one stderr line naming the option, nothing on stdout
+    assert r.returncode == 2, (r.stdout, r.stderr)
+    lines = r.stderr.strip().splitlines()
+    assert len(lines) == 1 and option in lines[0] and "Traceback" not in r.stderr, r.stderr
+    assert r.stdout == ""
+
+
+@pytest.mark.parametrize("args, option", [
+    (("--from-kmh", "1e300", "--to-kmh", "1e300"), "--from-kmh"),   # was a ValueError
+    (("--from-kmh", "nan"), "--from-kmh"),
+    (("--from-kmh", "-5"), "--from-kmh"),
+    (("--to-kmh", "inf"), "--to-kmh"),
+    (("--to-kmh", "600"), "--to-kmh"),        # above 500 km/h, faster than any road vehicle
+    (("--step-kmh", "nan"), "--step-kmh"),
+    (("--from-kmh", "1", "--to-kmh", "500", "--step-kmh", "0.01"), "--step-kmh"),
+    (("--ambient-c", "nan"), "--ambient-c"),  # printed every row as "-" with status 0
+    (("--ambient-c", "1e9"), "--ambient-c"),
+    (("--ambient-c", "-80"), "--ambient-c"),  # outside the -60..60 °C a vehicle file takes
+])
+def test_range_curve_refuses_bad_numbers(args, option):
+    _one_line(run("range-curve", VEH / "electric_van.yaml", *args), option)
+
+
+def test_ambient_changes_a_temperature_table_by_the_auxiliary_power_per_km():
+    base = json.loads(run("range-curve", VEH / "electric_van.yaml", "--json").stdout)
+    cold = json.loads(run("range-curve", VEH / "electric_van.yaml", "--ambient-c", "5",
+                          "--json").stdout)
+    assert cold["ambient_temperature_c"] == 5 and cold["notes"] == []
+    assert base["ambient_temperature_c"] == 20          # the vehicle file's value
+    # constant speed: battery energy per distance = power / speed, so the auxiliary power
+    # difference P(5 °C) - P(20 °C) [W] adds (ΔP / v) J/m = ΔP / v / 3.6 Wh/km (definition;
+    # the table is linear between the example file's points, interpolated as numpy.interp)
+    d_w = 1000 * (np.interp(5, [-10, 0, 10, 20, 30, 40], [4.0, 2.8, 1.5, 0.7, 1.2, 2.2])
+                  - 0.7)
+    for b, c in zip(base["rows"], cold["rows"]):
+        v_ms = b["speed_kmh"] / 3.6
+        assert c["battery_wh_per_km"] - b["battery_wh_per_km"] == pytest.approx(
+            d_w / v_ms / 3.6, rel=1e-9)
+
+
+def test_ambient_on_a_constant_auxiliary_load_is_said_to_be_unused(tmp_path):
+    text = (VEH / "electric_van.yaml").read_text()
+    start = text.index("  auxiliary_power_by_temperature:")
+    end = text.index("  charger_efficiency:")
+    van = tmp_path / "van.yaml"
+    van.write_text(text[:start] + "  auxiliary_power_kw: 1.0\n" + text[end:])
+    plain = json.loads(run("range-curve", van, "--json").stdout)
+    asked = json.loads(run("range-curve", van, "--ambient-c", "5", "--json").stdout)
+    assert asked["rows"] == plain["rows"]            # the value changes nothing ...
+    assert asked["ambient_temperature_c"] is None
+    assert len(asked["notes"]) == 1 and "--ambient-c 5" in asked["notes"][0]  # ... and says so
+    assert "not used" in asked["notes"][0]
+    t = run("range-curve", van, "--ambient-c", "5")
+    assert t.returncode == 0 and "note: --ambient-c 5 °C is not used" in t.stdout
+    diesel = json.loads(run("range-curve", VEH / "diesel_light_truck.yaml", "--ambient-c",
+                            "5", "--json").stdout)
+    assert diesel["notes"] and "combustion" in diesel["notes"][0]
