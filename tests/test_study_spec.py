@@ -140,7 +140,8 @@ def test_examples_run_with_json(name, capsys):
 
 def test_lap_trace_is_reproducible_and_within_its_limits(tmp_path):
     # make_lap.py rebuilds the committed lap.csv exactly, and the trace honours its own
-    # model: corner speed <= sqrt(mu g R) (point-mass lateral limit, Milliken ch. 2)
+    # model: corner speed <= sqrt(mu g R) (point-mass lateral limit, Milliken ch. 2),
+    # v dv/ds <= a(v) forward and >= -a_brake backward
     folder = ROOT / "examples" / "track-wing"
     sys.path.insert(0, str(folder))
     try:
@@ -155,7 +156,46 @@ def test_lap_trace_is_reproducible_and_within_its_limits(tmp_path):
     v = make_lap.lap_speed_ms(s, v_lim)
     assert np.all(v <= v_lim + 1e-9)
     dv2 = np.diff(v ** 2) / make_lap.STEP_M / 2
-    assert dv2.max() <= make_lap.ACCEL_MS2 + 1e-9
+    car = make_lap.load_car()
+    bound = np.maximum(make_lap.acceleration_limit_ms2(car, v[:-1]),
+                       make_lap.acceleration_limit_ms2(car, v[1:]))
+    # relative 1e-4: linear interpolation of S(v) on its 4001-point speed grid
+    assert np.all(dv2 <= bound * (1 + 1e-4))
+    assert dv2.max() <= make_lap.ACCEL_MS2 * (1 + 1e-4)
     assert dv2.min() >= -make_lap.BRAKE_MS2 - 1e-9
     r_min = min(seg[2] for seg in make_lap.CIRCUIT if seg[2])
     assert v.min() == pytest.approx(math.sqrt(make_lap.MU_LATERAL * 9.80665 * r_min))
+
+
+def test_lap_trace_asks_no_more_than_the_club_racer_can_give():
+    # the wheel force the committed lap asks, from Newton's second law with the road load
+    # (tractive's wheel demand, UN GTR 15 Annex 7 intervals), stays below the full-load
+    # force of club_racer.yaml at every step: F_avail = eta P(n) / v in the best gear,
+    # n = v i / r (gear kinematics), P(n) read from the full-load table with numpy.interp;
+    # and its power F v stays below the peak wheel power of tractive.performance
+    import yaml
+
+    from tractive.demand import wheel_demand
+    from tractive.performance import performance_summary
+    from tractive.profiles import resolve_profile
+    from tractive.vehicle import load_vehicle
+
+    folder = ROOT / "examples" / "track-wing"
+    car = load_vehicle(folder / "club_racer.yaml")
+    perf = yaml.safe_load((folder / "club_racer.yaml").read_text())["performance"]
+    prof = resolve_profile("lap.csv", base_dir=str(folder), dt_s=0.5)
+    d = wheel_demand(car.resistance(), car.mass_kg, car.inertial_mass_kg, prof.time_s,
+                     prof.speed_ms, prof.grade_fraction)
+    force = np.asarray(d.force_n)
+    v = np.asarray(d.intervals.speed_ms)
+    ratios = np.asarray(perf["gear_ratios"])[:, None] * perf["final_drive_ratio"]
+    rpm = v[None, :] * ratios / perf["tyre_radius_m"] * 60 / (2 * math.pi)
+    power_w = 1000 * np.interp(rpm, perf["full_load"]["speed_rpm"],
+                               perf["full_load"]["power_kw"])
+    ok = (rpm >= perf["full_load"]["speed_rpm"][0]) & (rpm <= perf["rev_limit_rpm"])
+    available = np.max(np.where(ok, perf["driveline_efficiency"] * power_w / v, 0.0), axis=0)
+    moving = v > 60 / 3.6                    # every gear is above its lowest speed here
+    assert moving.all()
+    assert np.all(force <= available)
+    peak_kw = performance_summary(car).peak_wheel_power_kw
+    assert np.max(force * v) / 1000 <= peak_kw
