@@ -287,3 +287,18 @@ def test_yaml_numbers_stay_numbers_for_yaml_1_1_readers():
     for x in (1e-5, 1e20, 2.5e-7, -3e-12, 123.25, 0.0):
         text = _num(x)
         assert yaml.safe_load(text) == x and isinstance(yaml.safe_load(text), float), text
+
+
+def test_rolling_limit_from_a_logged_temperature_names_the_column(tmp_path):
+    # the GTR 15 K0 = 8.6e-3/K (from memory) at -45 °C: 1 - 65 x 8.6e-3 = 0.441 < 0.5
+    sim = simulate(pairs=2, rate_hz=2.0)
+    log = as_log(sim, seed=32)
+    path = tmp_path / "cold.csv"
+    path.write_text("time_s,speed_kmh,heading_deg,air_temperature_c,air_pressure_pa\n" +
+                    "\n".join(f"{t:.1f},{v * 3.6:.3f},{h:.0f},-45,100000" for t, v, h in
+                              zip(log.time_s, log.speed_ms, log.heading_deg)) + "\n")
+    with pytest.raises(InputError, match="rolling correction factor 1 .* = 0.441") as err:
+        analyze_coastdown([path], mass_kg=MASS)
+    assert err.value.field == "air_temperature_c column of the logs"
+    # without a correction the same log is fine
+    assert math.isfinite(analyze_coastdown([path], mass_kg=MASS, reference="none").f0_n)

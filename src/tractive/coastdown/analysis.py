@@ -462,8 +462,14 @@ def analyze_coastdown(logs: Sequence, *, mass_kg: float,
         notes.append("air temperature taken from the logs; the option value is not used")
     if press and air_pressure_pa is not None:
         notes.append("air pressure taken from the logs; the option value is not used")
-    factors, corr = correction_factors(reference, temperature_c=t_c, pressure_pa=p_pa,
-                                       rolling_factor_per_k=rolling_factor_per_k)
+    try:
+        factors, corr = correction_factors(reference, temperature_c=t_c, pressure_pa=p_pa,
+                                           rolling_factor_per_k=rolling_factor_per_k)
+    except InputError as exc:
+        if temps and exc.field == "air_temperature_c":   # the temperature came from the logs
+            raise InputError(exc.message, field="air_temperature_c column of the logs"
+                             ) from None
+        raise
     coef = measured * factors
     cov = measured_cov * np.outer(factors, factors)
     cov_nm = nomass_cov * np.outer(factors, factors)
