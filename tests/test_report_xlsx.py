@@ -599,6 +599,7 @@ def test_written_atomically_with_usual_permissions(case, tmp_path):
     # POSIX: a new file gets mode 0o666 & ~umask (what open(..., "w") gives); a replaced
     # file keeps its own permission bits
     old = os.umask(0o027)
+    (tmp_path / "sub").mkdir()      # output folders are never created (test_report_common)
     try:
         out = write_workbook(case["result"], tmp_path / "sub" / "r.xlsx")
         assert sorted(p.name for p in out.parent.iterdir()) == ["r.xlsx"]
