@@ -821,3 +821,43 @@ def test_absolute_value_far_from_the_baseline_is_warned(tmp_path, capsys):
     assert e.value.code == 0
     assert "note: modification 'mod': mass_kg: 25 is an absolute value" in \
         capsys.readouterr().out
+
+
+RACER_NO_POWERTRAIN = """\
+name: racer
+mass_kg: 980
+rotating_mass_fraction: 0.05
+road_load:
+  cda_m2: 0.69
+  crr: 0.013
+  air_density_kg_m3: 1.2
+performance:
+  driven_axle_load_share: 0.55
+  tyre_road_friction: 1.3
+  full_load:
+    speed_rpm: [2000, 5000, 8000]
+    power_kw: [60, 150, 200]
+  gear_ratios: [3.1, 2.2, 1.7, 1.36, 1.13, 0.96]
+  final_drive_ratio: 3.4
+  tyre_radius_m: 0.31
+  driveline_efficiency: 0.9
+  shift_time_s: 0.1
+"""
+
+
+def test_a_profile_beyond_the_peak_wheel_power_is_reported(tmp_path):
+    # steady-speed wheel power = road-load force x speed (Gillespie ch. 4): at 280 km/h
+    # (Crr m g + 1/2 rho CdA v^2) v exceeds 0.9 x 200 kW, at 150 km/h it does not
+    def wheel_kw(v_kmh):
+        v = v_kmh * KMH_MS
+        return (0.013 * 980 * STANDARD_GRAVITY_MS2 + 0.5 * 1.2 * 0.69 * v * v) * v / 1000
+    assert wheel_kw(280) > 0.9 * 200 > wheel_kw(150)
+    study = _steady_study(RACER_NO_POWERTRAIN, "{mass_kg: +7}", profile="steady:280kmh:30s")
+    study["study.yaml"] = study["study.yaml"].replace(
+        'profiles: ["steady:280kmh:30s"]', 'profiles: ["steady:280kmh:30s", '
+        '"steady:150kmh:30s"]')
+    res = run_study(_write(tmp_path, study))
+    notes = [w for w in res.warnings if "peak wheel power" in w]
+    assert any(w.startswith("baseline cannot follow the profile 'steady:280kmh:30s': for "
+                            "30.0 s") and "180 kW peak wheel power" in w for w in notes)
+    assert not any("steady:150kmh" in w for w in notes)

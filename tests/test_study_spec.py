@@ -199,3 +199,47 @@ def test_lap_trace_asks_no_more_than_the_club_racer_can_give():
     assert np.all(force <= available)
     peak_kw = performance_summary(car).peak_wheel_power_kw
     assert np.max(force * v) / 1000 <= peak_kw
+
+
+def test_label_without_regulation_is_warned_where_the_letter_differs(tmp_path):
+    # C2 class E: >= 9.3 kg/t under Regulation (EU) 2020/740 (from memory), 8.1-9.2 kg/t
+    # under Regulation (EC) No 1222/2009 (read in the regulation); class B is the same in
+    # both, so it needs no note
+    from tractive.study.engine import run_study
+
+    (tmp_path / "car.yaml").write_text("name: c\nmass_kg: 3000\nroad_load:\n  cda_m2: 1.6\n"
+                                       "  crr: 0.008\n")
+    (tmp_path / "study.yaml").write_text("""\
+baseline:
+  vehicle: car.yaml
+  changes: {tyre_label: C2/E}
+modifications:
+  - name: b
+    changes: {tyre_label: C2/B}
+  - name: e old
+    changes: {tyre_label: C2/E 1222/2009}
+driving:
+  profiles: ["steady:80kmh:60s"]
+uncertainty: {draws: 0}
+""")
+    res = run_study(tmp_path / "study.yaml")
+    notes = [w for w in res.warnings if "tyre label" in w]
+    assert len(notes) == 1 and notes[0].startswith("baseline: tyre label C2/E")
+    assert "≥ 9.3 kg/t" in notes[0] and "8.1–9.2 kg/t" in notes[0]
+    # the old class E is the new class D: C2/E 1222/2009 gives the Crr of C2/D 2020/740
+    crr_old_e = tyre_label_crr("C2/E 1222/2009")[0]
+    assert crr_old_e == tyre_label_crr("C2/D")[0]
+
+
+def test_reference_states_agree_with_the_coast_down_corrections():
+    # consistency check: the study's default reference densities are the coast-down
+    # module's reference states (UN GTR No. 15 Annex 4, from memory; SAE J2263 /
+    # 40 CFR 1066.805 20 C, 98.21 kPa -> 1.1671 kg/m^3 in the reference table)
+    from tractive.coastdown.corrections import REFERENCE_STATES
+    from tractive.study import modify
+
+    assert modify.gtr15_air_density_kg_m3() == pytest.approx(
+        REFERENCE_STATES["gtr15"].air_density_kg_m3, rel=1e-12)
+    assert modify.j2263_air_density_kg_m3() == pytest.approx(
+        REFERENCE_STATES["j2263"].air_density_kg_m3, rel=1e-12)
+    assert modify.j2263_air_density_kg_m3() == pytest.approx(1.1671, abs=5e-5)

@@ -209,8 +209,10 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
         raw_results[name], demands[name] = _evaluate(ps, profiles,
                                                      spec.ambient_temperature_c,
                                                      chunk_size=chunk_size)
-    for name, *_ in variants:
+    for name, role, ps, *_ in variants:
         _note_limits(name, raw_results[name], n, warnings)
+        if ps.powertrain is None and ps.performance is not None:
+            _note_wheel_power(name, ps, demands[name], warnings)
     _check_money(spec, raw_results, warnings)
     derived = {name: _derive(spec, raw_results[name]) for name, *_ in variants}
     base_derived = derived[BASELINE]
@@ -510,6 +512,36 @@ def _performance(ps, chunk_size: int | None = None) -> dict:
                 continue
             out[key][start:start + part.size] = np.asarray(value, float)
     return {k: v for k, v in out.items() if not np.all(np.isnan(v))}
+
+
+def _note_wheel_power(name, ps, demands: dict, warnings) -> None:
+    """Warn where a profile asks more wheel power than the performance data's peak.
+
+    For a vehicle with performance data but no powertrain block: the nominal
+    vehicle's wheel power F·v on each interval against its peak wheel power
+    (:func:`tractive.performance.performance_summary`). A profile above it
+    cannot be driven at all; one below it may still ask more than the drive
+    gives at a particular speed, so this is a necessary check, not a
+    sufficient one.
+    """
+    from ..performance import performance_summary
+
+    peak_kw = performance_summary(ps.vehicle(0)).peak_wheel_power_kw
+    if peak_kw is None or not np.isfinite(peak_kw):
+        return
+    for profile, d in demands.items():
+        force = np.asarray(d.force_n)
+        force = force[0] if force.ndim == 2 else force
+        iv = d.intervals
+        power_w = force * np.asarray(iv.speed_ms, float)
+        over = power_w > peak_kw * 1000.0 * (1.0 + 1e-9)
+        if np.any(over):
+            secs = float(np.sum(np.where(over, np.asarray(iv.dt_s, float), 0.0)))
+            warnings.append(
+                f"{name} cannot follow the profile '{profile}': for {secs:.1f} s it asks up "
+                f"to {np.max(power_w) / 1000.0:.0f} kW at the wheels, more than the "
+                f"{peak_kw:.0f} kW peak wheel power of its performance data; its energy "
+                f"figures are for the profile as written, which it cannot drive")
 
 
 def _note_limits(name, per_profile: dict, n: int, warnings) -> None:
