@@ -861,3 +861,11 @@ def test_a_profile_beyond_the_peak_wheel_power_is_reported(tmp_path):
     assert any(w.startswith("baseline cannot follow the profile 'steady:280kmh:30s': for "
                             "30.0 s") and "180 kW peak wheel power" in w for w in notes)
     assert not any("steady:150kmh" in w for w in notes)
+
+
+def test_the_reference_air_used_is_echoed_with_its_source(tmp_path):
+    res = run_study(_write(tmp_path, _steady_study(COEF, "{cda_m2: +0.1}")))
+    item = [i for i in res.inputs if i.key == "road_load.reference_air_density_kg_m3"]
+    # GTR 15 reference state 293 K, 100 kPa (from memory): rho = p / (R T), ICAO R
+    assert len(item) == 1 and item[0].source == "default" and "GTR No. 15" in item[0].note
+    assert item[0].value == pytest.approx(100000.0 / (287.05 * 293.0), rel=1e-12)

@@ -31,7 +31,8 @@ from ..atmosphere import ambient_air
 from ..errors import InputError
 from ..spec import Section, load_section, read_yaml
 from ..vehicle import Vehicle, load_vehicle, vehicle_from_section
-from .modify import POWERTRAIN_STD_KEYS, parse_tyre_label
+from ..roadload import CoefficientRoadLoad
+from .modify import POWERTRAIN_STD_KEYS, parse_tyre_label, reference_air_density
 from .results import InputItem
 
 #: Monte Carlo draws when the study does not say
@@ -392,6 +393,11 @@ def _echo_vehicle(rd: _Reader, section: str, veh: Vehicle, src: str, raw=None):
             rd.echo(section, "road_load.covariance", str(v), "GTR 15 units", src)
             continue
         rd.echo(section, f"road_load.{k}", v, units.get(k, ""), src)
+    if isinstance(veh.road_load, CoefficientRoadLoad) and \
+            veh.road_load.reference_air_density_kg_m3 is None:
+        rho_ref, basis = reference_air_density(veh.road_load)
+        rd.echo(section, "road_load.reference_air_density_kg_m3", rho_ref, "kg/m^3", "default",
+                basis)
     if veh.extras.get("mass_std_kg"):
         rd.echo(section, "mass_std_kg", veh.extras["mass_std_kg"], "kg", src)
     for block in ("powertrain", "performance"):
