@@ -159,9 +159,10 @@ writes a road_load block with its covariance for a vehicle or study file.
               default=None, help="Speed column to use when a CSV has several.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
 @click.option("-o", "--output", "output", default=None, metavar="FILE.yaml",
-              help="Write the road_load block (coefficients and covariance) to this file: "
-                   ".yaml or .yml (YAML with comments), or .json (the same keys as JSON). "
-                   "The folder must exist.")
+              help="Write the road load to this file: .yaml or .yml for the road_load "
+                   "block (coefficients and covariance, with comments), .json for the whole "
+                   "result as --json prints it (a vehicle file's from_coastdown reads its "
+                   "road_load entry). The folder must exist.")
 @click.option("--plot", "plot", default=None, metavar="FILE.png",
               help="Write a figure of the fitted speed-time curves and deceleration: .png, "
                    ".pdf or .svg. The folder must exist.")
