@@ -19,6 +19,7 @@ $(VENV)/.installed: $(BIN)/python pyproject.toml
 demo: $(VENV)/.installed
 	$(BIN)/tractive cycles
 	$(BIN)/tractive energy examples/vehicles/hatchback.yaml --cycle udds --cycle hwfet --cycle wltc3b
+	mkdir -p $(DEMO_OUT)
 	$(BIN)/tractive compare examples/ev-van-conversion/study.yaml -o $(DEMO_OUT)/demo-study.xlsx -o $(DEMO_OUT)/demo-study.csv
 
 test: $(VENV)/.installed
