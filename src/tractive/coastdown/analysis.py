@@ -181,11 +181,26 @@ class CoastdownResult:
         c, s = self.coefficients, self.std
         return np.column_stack([c - 1.959963984540054 * s, c + 1.959963984540054 * s])
 
+    @property
+    def block_air_density_kg_m3(self):
+        """Air density [kg/m³] at which the reported f2 holds: the reference density
+        when f2 was corrected to it, else the measured test density, else None."""
+        corr = self.corrections
+        if corr.get("aero_factor", 1.0) != 1.0 or any(
+                str(a).startswith("f2 to the reference") for a in corr.get("applied", [])):
+            return corr.get("reference_air_density_kg_m3")
+        return corr.get("test_air_density_kg_m3")
+
     def road_load_block(self) -> dict:
-        """The block a vehicle file's ``road_load:`` accepts (coefficients and covariance)."""
-        return {"f0_n": float(self.f0_n), "f1_n_per_kmh": float(self.f1_n_per_kmh),
-                "f2_n_per_kmh2": float(self.f2_n_per_kmh2),
-                "covariance": [[float(x) for x in row] for row in self.covariance]}
+        """The block a vehicle file's ``road_load:`` accepts (coefficients, covariance and,
+        when known, the air density at which f2 holds)."""
+        block = {"f0_n": float(self.f0_n), "f1_n_per_kmh": float(self.f1_n_per_kmh),
+                 "f2_n_per_kmh2": float(self.f2_n_per_kmh2),
+                 "covariance": [[float(x) for x in row] for row in self.covariance]}
+        rho = self.block_air_density_kg_m3
+        if rho is not None:
+            block["reference_air_density_kg_m3"] = float(rho)
+        return block
 
     def to_dict(self) -> dict:
         std = self.std

@@ -98,8 +98,11 @@ def road_load_yaml(result, *, inputs: Iterable = ()) -> str:
     lines.append("# covariance of (f0, f1, f2) in N^2, N^2/(km/h), N^2/(km/h)^2 ...")
     lines += [f"f0_n: {_num(block['f0_n'])}",
               f"f1_n_per_kmh: {_num(block['f1_n_per_kmh'])}",
-              f"f2_n_per_kmh2: {_num(block['f2_n_per_kmh2'])}",
-              "covariance:"]
+              f"f2_n_per_kmh2: {_num(block['f2_n_per_kmh2'])}"]
+    if "reference_air_density_kg_m3" in block:
+        lines += ["# air density at which f2 holds (a study rescales f2 to its ambient air)",
+                  f"reference_air_density_kg_m3: {_num(block['reference_air_density_kg_m3'])}"]
+    lines += ["covariance:"]
     for row in block["covariance"]:
         lines.append("  - [" + ", ".join(_num(x) for x in row) + "]")
     return "\n".join(lines) + "\n"
