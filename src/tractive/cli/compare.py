@@ -75,13 +75,15 @@ def compare_command(study_file, outputs, as_json, draws, seed):
         raise InputError(f"--draws must be from 0 to {MAX_DRAWS}, got {draws}")
     if seed is not None and seed < 0:
         raise InputError(f"--seed must not be negative, got {seed}")
+    from ..report.common import check_target
     from ..study.engine import run_study
 
+    for out in outputs:          # cheap checks first: no long run for a bad output name
+        check_target(out, [study_file], suffixes=(".xlsx", ".csv", ".json"))
     result = run_study(study_file, draws=draws, seed=seed,
                        series=any(o.lower().endswith(".xlsx") for o in outputs))
     inputs = study_inputs(result)
     for out in outputs:
-        from ..report.common import check_target
         check_target(out, inputs)
         suffix = Path(out).suffix.lower()
         if suffix not in (".xlsx", ".csv", ".json"):
