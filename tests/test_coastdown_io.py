@@ -229,6 +229,7 @@ def test_fitted_covariance_widens_the_study_interval(tmp_path, csv_log):
     d_m = 90 / 3.6 * 600
     sd_kwh = d_m * np.sqrt(g @ cov @ g) / 3.6e6
     assert width > 0
+    # 5 %: common-practice tolerance for a 20000-draw Monte Carlo interval
     assert width / (2 * stats.norm.ppf(0.975)) == pytest.approx(sd_kwh, rel=0.05)
     # the same coefficients without their covariance give a zero-width interval
     (tmp_path / "car.yaml").write_text(
@@ -267,7 +268,9 @@ def test_analysis_applies_the_factors_to_coefficients_and_covariance(csv_log):
     assert np.allclose(b.coefficients, a.coefficients * f, rtol=1e-12)
     assert np.allclose(b.covariance, a.covariance * np.outer(f, f), rtol=1e-12)
     assert np.allclose(b.measured, a.coefficients, rtol=1e-12)
-    # CdA = f2 / (rho_ref / 2) with the GTR 15 reference density (293 K, 100 kPa)
+    # CdA = f2 / (rho_ref / 2) with the GTR 15 reference density (293 K, 100 kPa; UN GTR
+    # No. 15 Annex 4 reference state, from memory, as the air factor K2 above) through the
+    # ideal-gas law with R = 287.05 J/(kg K) (ISA, ICAO Doc 7488)
     rho_ref = 100000.0 / (287.05 * 293.0)
     assert b.cda_m2 == pytest.approx(b.f2_n_per_kmh2 * 3.6 ** 2 / (0.5 * rho_ref), rel=1e-12)
 
@@ -304,10 +307,13 @@ def test_gpx_track_gives_speeds_headings_and_coefficients(tmp_path):
     inner = moving.copy()
     inner[[0, -1]] = False
     rel = np.abs(log.speed_ms[inner] - sim["speed_ms"][inner]) / sim["speed_ms"][inner]
-    assert np.median(rel) < 0.005
+    assert np.median(rel) < 0.005  # 0.5 %: common-practice tolerance
     east = inner & (sim["sign"] > 0)
+    # due east along a parallel is heading 90 deg (definition of azimuth); 0.5 deg:
+    # common-practice tolerance
     assert np.allclose(log.heading_deg[east], 90.0, atol=0.5)
     res = analyze_coastdown([path], mass_kg=MASS, reference="none")
+    # reference: the generated truth (solve_ivp); 3 % and 2 %: common-practice tolerances
     assert res.f0_n == pytest.approx(TRUTH[0], rel=0.03)
     assert res.f2_n_per_kmh2 == pytest.approx(TRUTH[2], rel=0.02)
 
@@ -320,7 +326,10 @@ def test_example_log_gives_back_its_truth():
     res = analyze_coastdown([EXAMPLE], mass_kg=1380.0, frontal_area_m2=2.2)
     truth = np.array([132.0, 0.52, 0.0315])
     lo, hi = res.interval95().T
+    # the generator's truth lies inside the reported 95 % intervals
     assert np.all((lo <= truth) & (truth <= hi)), (res.coefficients, res.std)
+    # reference: the generator's truth; 3 % is a common-practice tolerance for a log
+    # with a rejected run, a spike and a dropout
     assert res.f0_n == pytest.approx(132.0, rel=0.03)
     assert res.f2_n_per_kmh2 == pytest.approx(0.0315, rel=0.03)
     runs = {r.run.run_id: r.run for r in res.runs}

@@ -136,6 +136,8 @@ def test_mean_deceleration_shortcut_error_shrinks_with_the_square_of_the_interva
                                     low_kmh=lo, low_time_s=float(t_lo))
         errors.append(abs(est.mean_decel_f0_n - a))
         assert est.f0_n == pytest.approx(a, rel=1e-9)
+    # midpoint-rule error order 2 (numerical analysis): ratio 1/4; ±0.05 is a
+    # common-practice tolerance for the higher-order terms
     assert errors[1] / errors[0] == pytest.approx(0.25, abs=0.05)
 
 
@@ -151,6 +153,8 @@ def test_two_interval_estimate_refuses_impossible_times():
 
 
 def test_quick_command_json_matches_the_function():
+    # consistency check (no outside reference): the command's JSON carries the library
+    # result unchanged; the estimate itself is checked against solve_ivp above
     r = subprocess.run([sys.executable, "-m", "tractive", "coastdown-quick", "--mass-kg", "1400",
                         "--high", "110", "90", "17.1", "--low", "40", "20", "47.1", "--json"],
                        capture_output=True, text=True)
@@ -158,6 +162,8 @@ def test_quick_command_json_matches_the_function():
     data = json.loads(r.stdout)
     est = two_interval_estimate(mass_kg=1400, high_kmh=(110, 90), high_time_s=17.1,
                                 low_kmh=(40, 20), low_time_s=47.1)
+    # consistency check: CLI output equals the library call
     assert data["f0_n"] == pytest.approx(est.f0_n, rel=1e-12)
     assert data["f2_n_per_kmh2"] == pytest.approx(est.f2_n_per_kmh2, rel=1e-12)
+    # model definition: the estimate states its level-road assumption
     assert any("level road" in a for a in data["assumptions"])

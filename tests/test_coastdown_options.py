@@ -274,7 +274,8 @@ def test_json_output_file_is_the_json_document_and_feeds_a_vehicle(capsys, tmp_p
 @pytest.mark.parametrize("name, magic", [("fit.pdf", b"%PDF"), ("fit.svg", b"<?xml"),
                                          ("fit.PNG", b"\x89PNG")])
 def test_plot_formats_follow_the_ending(capsys, tmp_path, log_file, name, magic):
-    # file signatures: PDF 1.7 (ISO 32000-1, 7.5.2 "%PDF-"), XML 1.0 declaration, PNG (RFC 2083)
+    # file signatures: PDF 1.7 (ISO 32000-1, 7.5.2 "%PDF-"; section from memory), XML 1.0
+    # declaration, PNG (RFC 2083)
     code, _, err = cli(capsys, "coastdown", log_file, "--mass-kg", MASS, "--plot",
                        tmp_path / name)
     assert code == 0, err

@@ -22,8 +22,9 @@ DATA = Path(__file__).parent / "data"
 
 # exact unit factors, NIST SP 811 Appendix B
 MPH_MS = 0.44704
-# mean Earth radius R1 = 6 371 008.7714 m of GRS 80 (Moritz 2000), rounded to 0.1 m: the
-# sphere radius the GPX reader states for its haversine distances
+# mean Earth radius R1 = 6 371 008.7714 m of GRS 80 (Moritz 2000; value from memory, not
+# confirmed in the primary text), rounded to 0.1 m: the sphere radius the GPX reader states
+# for its haversine distances
 R_M = 6_371_008.8
 
 
@@ -147,10 +148,13 @@ def test_grade_from_elevation_follows_a_parabola_away_from_the_ends(tmp_path):
 
 def test_grade_from_elevation_is_clipped(tmp_path):
     # a 50 m cliff over 20 m of road would be a 250 % grade: clipped to the documented limit
+    # of 30 % (common practice: public roads steeper than about 30 % are rare, so a steeper
+    # grade from elevation data is taken as a data error)
     z = ["0"] * 10 + ["50"] * 11
     text = "time_s,speed_ms,elevation_m\n" + "".join(f"{i},2,{z[i]}\n" for i in range(21))
     p = read_speed_csv(write(tmp_path, "cliff.csv", text), grade_window_m=10.0)
-    assert p.grade_fraction.max() == pytest.approx(MAX_GRADE_FRACTION)
+    assert MAX_GRADE_FRACTION == 0.30  # the stated bound (common practice, see above)
+    assert p.grade_fraction.max() == pytest.approx(0.30)  # clipped at 30 % (common practice)
 
 
 def _csv_error(tmp_path, text, **kw):
@@ -251,6 +255,7 @@ def gpx_text(lats, lons, times_s=None, eles=None, *, drop_time_at=None):
 
 def test_stated_earth_radius():
     assert EARTH_RADIUS_M == R_M
+    # GRS 80 mean radius R1 (Moritz 2000; from memory)
     assert abs(EARTH_RADIUS_M - 6_371_008.7714) < 0.05
 
 
@@ -258,7 +263,7 @@ def test_gpx_along_a_meridian_distance_speed_and_grade(tmp_path):
     # 121 points 0.0001 degree apart along the meridian at 7 degrees east, one per second,
     # rising 5 % of the horizontal step at each point. Along a meridian the haversine
     # formula reduces to R * (difference of latitude in radians) (Sinnott 1984), with
-    # R = 6 371 008.8 m, the GRS 80 mean radius (Moritz 2000).
+    # R = 6 371 008.8 m, the GRS 80 mean radius (Moritz 2000; from memory).
     n = 121
     lats = 46.0 + 0.0001 * np.arange(n)
     step_m = R_M * math.radians(0.0001)
@@ -287,11 +292,14 @@ def test_gpx_speed_smoothing_keeps_a_steady_acceleration(tmp_path):
 
 
 def test_gpx_jitter_at_standstill_reads_as_zero(tmp_path):
-    # 0.1 m back-and-forth jitter for 30 s: well under the 0.5 m/s stop threshold
+    # model-definition check (no outside reference): the reader documents that speeds below
+    # stop_speed_ms (default 0.5 m/s) read as zero. 0.1 m back-and-forth jitter at 1 s steps
+    # moves at most 0.1 m/s (arithmetic), well under the threshold
     jitter = np.degrees(0.1 * (np.arange(30) % 2) / R_M)
     p = read_gpx(write(tmp_path, "stand.gpx", gpx_text(46.0 + jitter, [7.0] * 30)))
-    assert np.all(p.speed_ms == 0.0)
+    assert np.all(p.speed_ms == 0.0)  # model definition: below the stop threshold -> 0
     p = read_gpx(tmp_path / "stand.gpx", stop_speed_ms=0.0)
+    # consistency check: with the threshold off, the jitter shows as motion
     assert p.speed_ms.max() > 0
 
 

@@ -476,7 +476,8 @@ def test_formula_like_text_is_stored_as_text(case):
     for ws in wb:
         for line in ws.iter_rows():
             for cell in line:
-                # no cell of the workbook is a formula (ECMA-376 18.3.1.4: type "s")
+                # no cell of the workbook is a formula (ECMA-376 18.3.1.4, section from
+                # memory: type "s")
                 assert cell.data_type != "f", (ws.title, cell.coordinate, cell.value)
                 if cell.value in found:
                     assert cell.data_type == "s"
@@ -491,11 +492,15 @@ def test_formula_like_text_is_stored_as_text(case):
 
 def test_sheet_names_are_valid_and_unique(case):
     names = case["wb"].sheetnames
-    # Excel's rules for sheet names: 1..31 characters, none of \ / * ? : [ ],
-    # no leading or trailing apostrophe, unique regardless of case
+    # Excel's rules for sheet names (from memory, not confirmed in a primary text):
+    # 1..31 characters, none of \ / * ? : [ ], no leading or trailing apostrophe,
+    # unique regardless of case. The forbidden characters are also those of openpyxl's
+    # INVALID_TITLE_REGEX (general-purpose library).
+    from openpyxl.workbook.child import INVALID_TITLE_REGEX
     for n in names:
         assert 1 <= len(n) <= 31
         assert not re.search(r"[\\/*?:\[\]]", n)
+        assert not INVALID_TITLE_REGEX.search(n)
         assert not n.startswith("'") and not n.endswith("'")
     assert len({n.casefold() for n in names}) == len(names)
     assert names[:4] == ["Summary", "Attribution", "Energy parts", "Range vs speed"]
@@ -541,7 +546,8 @@ def test_charts_on_the_expected_sheets(case):
                 col = re.search(r"!\$([A-Z]+)\$3:", ref).group(1)
                 assert ws[f"{col}2"].value.startswith(quantity)
         assert len(charts[1].series) == len(case["result"].variants)
-    # every series of every chart reads its own sheet (quoted name, ECMA-376 18.17.2.2)
+    # every series of every chart reads its own sheet (quoted name, ECMA-376 18.17.2.2, section
+    # from memory)
     for ws in wb:
         for ch in ws._charts:
             for s in ch.series:

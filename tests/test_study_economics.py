@@ -1,7 +1,8 @@
 """Economics: payback, net present value, annual cost.
 
 References: present value of an ordinary annuity, a(r, L) = (1 - (1 + r)^-L) / r
-(Brealey, Myers & Allen, Principles of Corporate Finance, ch. 2; NIST Handbook 135,
+(Brealey, Myers & Allen, Principles of Corporate Finance, ch. 2, chapter from memory;
+NIST Handbook 135,
 uniform present value factor); simple payback = cost / annual saving (NIST
 Handbook 135).
 """
@@ -96,7 +97,9 @@ def money(tmp_path_factory):
 def test_annual_cost_is_energy_per_km_times_distance_times_price(money):
     for row in money.rows:
         m = row.metrics
-        # the powertrain states wall energy (charger efficiency); the money follows it
+        # the powertrain states wall energy (charger efficiency); the money follows it.
+        # Model definition (arithmetic): energy = Wh/km x 30 000 km; cost = kWh x 0.28 per
+        # kWh; CO2 = kWh x 200 g/kWh, all from the study file
         assert m["annual_grid_energy_kwh"] == pytest.approx(m["wall_wh_per_km"] * 30.0,
                                                             rel=1e-12)
         assert m["annual_energy_cost"] == pytest.approx(m["annual_grid_energy_kwh"] * 0.28,
@@ -112,19 +115,27 @@ def test_payback_is_cost_over_annual_saving(money):
             continue
         m = row.metrics
         base = money.row("baseline", row.profile).metrics
+        # definition: saving = baseline cost - variant cost
         assert m["annual_saving"] == pytest.approx(base["annual_energy_cost"]
                                                    - m["annual_energy_cost"], rel=1e-12)
         if m["annual_saving"] > 0:
+            # simple payback = cost / annual saving (NIST Handbook 135)
             assert m["payback_years"] == pytest.approx(m["modification_cost"]
                                                        / m["annual_saving"], rel=1e-12)
             n += 1
         else:
             assert m["payback_years"] is None
-        # NPV = -cost + saving * a(6 %, 4 years)
+        # NPV = -cost + saving * a(6 %, 4 years), annuity factor (NIST Handbook 135,
+        # uniform present value factor)
         assert m["npv"] == pytest.approx(-m["modification_cost"] + m["annual_saving"]
                                          * (1 - 1.06 ** -4) / 0.06, rel=1e-12)
+    # test-design check: the payback branch is exercised on at least three rows (tyres
+    # save on every profile)
     assert n >= 3
-    assert money.row("both", "duty").metrics["modification_cost"] == 630.0
+    # model definition: a combination costs the sum of its modifications, 480 + 150 from
+    # the study file (arithmetic)
+    assert money.row("both", "duty").metrics["modification_cost"] == 480.0 + 150.0 == 630.0
+    # consistency check: the currency label is echoed from the study file
     assert money.currency == "GBP"
 
 

@@ -199,8 +199,9 @@ def test_distance_weighted_harmonic_mean_worked_example():
 
 
 def test_low_rolling_resistance_tyres_at_constant_speed_save_the_analytic_amount(tmp_path):
-    # road-load equation (Gillespie ch. 4; Wong ch. 1): rolling force = Crr m g, so at
-    # constant speed on a level road the traction energy changes by dCrr * m * g * distance
+    # road-load equation (Gillespie ch. 4; Wong ch. 1; chapters from memory): rolling
+    # force = Crr m g, so at constant speed on a level road the traction energy changes
+    # by dCrr * m * g * distance
     mass = 1500.0
     path = _write(tmp_path, _steady_study(PHYS.format(mass=mass), "{crr: 0.0085}"))
     res = run_study(path)
@@ -264,7 +265,7 @@ def test_coefficient_road_load_refuses_what_it_cannot_know(tmp_path):
 
 def test_downforce_adds_rolling_resistance(tmp_path):
     # downforce load 1/2 rho ClA v^2 carried by the tyres adds Crr * that load (module doc of
-    # tractive.roadload; Katz, Race Car Aerodynamics, ch. 1)
+    # tractive.roadload; Katz, Race Car Aerodynamics, ch. 1, chapter from memory)
     v = 90 * KMH_MS
     rho = 1.2
     res = run_study(_write(tmp_path, _steady_study(
@@ -323,6 +324,7 @@ def test_shapley_values_of_an_additive_game_are_the_single_contributions():
     f2 = {s: f[s] + (4.0 if {"mass", "rolling"} <= s else 0.0) for s in subsets(w)}
     phi2 = shapley_values(list(w), f2)
     assert sum(phi2.values()) == pytest.approx(f2[frozenset(w)] - f2[frozenset()], abs=1e-12)
+    # symmetry axiom (Shapley 1953): the pair interaction 4.0 is split equally, 2.0 each
     assert phi2["mass"] - w["mass"] == pytest.approx(2.0) and \
         phi2["rolling"] - w["rolling"] == pytest.approx(2.0)
 
@@ -330,8 +332,10 @@ def test_shapley_values_of_an_additive_game_are_the_single_contributions():
 def test_time_series_match_the_totals(ev_result):
     s = [x for x in ev_result.series if x.variant == "rack" and x.profile == "udds"][0]
     row = ev_result.row("rack", "udds")
+    # consistency check (no outside reference): the series ends at the row's total
     assert s.cumulative_energy_kwh[-1] == pytest.approx(row.metrics["positive_energy_kwh"],
                                                         rel=1e-12)
+    # power = force x speed (definition of mechanical power), km/h -> m/s by 1/3.6 (exact)
     assert np.allclose(s.power_kw, s.force_n * s.speed_kmh / 3.6 / 1000)
 
 
@@ -367,12 +371,17 @@ def test_range_curves_in_the_result_equal_the_powertrain_sweep(ev_result):
     from tractive.powertrain import range_curve
     from tractive.vehicle import load_vehicle
 
+    # Mostly consistency checks (no outside reference): the study's range curves must
+    # equal the public range_curve() sweep of the same vehicles; range_curve itself is
+    # tested against outside references in tests/test_powertrain_electric.py. The range =
+    # energy / consumption and charger-efficiency lines below are definitions.
     folder = Path(ev_result.source).parent
     curves = {c.variant: c for c in ev_result.range_curves}
     assert list(curves) == [v.name for v in ev_result.variants]
     veh = load_vehicle(folder / "ev.yaml")
     speeds = np.arange(10.0, 161.0, 5.0)
     # the baseline curve is the unmodified vehicle file swept through the public API
+    # (consistency check: study vs range_curve)
     ref = range_curve(veh, speeds)
     base = curves["baseline"]
     assert base.speed_key == "speed_kmh" and base.consumption_key == "battery_wh_per_km"
@@ -388,15 +397,16 @@ def test_range_curves_in_the_result_equal_the_powertrain_sweep(ev_result):
         c = curves[name]
         np.testing.assert_allclose(c.columns["range_km"] * c.columns["battery_wh_per_km"]
                                    / 1000.0, usable, rtol=1e-12)
-    # the charger efficiency 0.9 relates wall and battery energy
+    # the charger efficiency 0.9 relates wall and battery energy (definition of efficiency)
     np.testing.assert_allclose(base.columns["wall_wh_per_km"] * 0.9,
                                base.columns["battery_wh_per_km"], rtol=1e-12)
     # a modified variant is its nominal vehicle: rack = CdA + 0.1, mass + 12 kg
+    # (consistency check: study vs range_curve of the hand-modified vehicle)
     rack = replace(veh, mass_kg=1812.0,
                    road_load=replace(veh.road_load, cda_m2=veh.road_load.cda_m2 + 0.1))
     np.testing.assert_allclose(curves["rack"].columns["range_km"],
                                range_curve(rack, speeds).range_km, rtol=1e-12)
-    # in the JSON, under range_curves, with their unit keys
+    # in the JSON, under range_curves, with their unit keys (consistency check: JSON echo)
     data = json.loads(json.dumps(ev_result.to_dict()))
     j = data["range_curves"][0]
     assert j["variant"] == "baseline" and j["powertrain"] == "electric"
@@ -629,9 +639,10 @@ road_load:
 
 
 def test_percent_crr_scales_the_whole_rolling_coefficient(tmp_path):
-    # road-load equation with a speed slope (Gillespie ch. 4): rolling force
-    # (Crr + k v) m g; a tyre's rolling coefficient scaled as a whole (common practice)
-    # changes both parts, and the coefficient form (f0 and f1 scaled) gives the same
+    # road-load equation with a speed slope (Gillespie ch. 4, chapter from memory):
+    # rolling force (Crr + k v) m g; a tyre's rolling coefficient scaled as a whole
+    # (common practice) changes both parts, and the coefficient form (f0 and f1 scaled)
+    # gives the same
     v_kmh, secs, mass = 90.0, 600, 1500.0
     d_m = v_kmh * KMH_MS * secs
     expected = -0.15 * (0.010 + 0.00002 * v_kmh) * mass * STANDARD_GRAVITY_MS2 * d_m / 3.6e6
@@ -768,8 +779,8 @@ powertrain:
 
 def test_a_drive_that_cannot_follow_the_profile_is_reported(tmp_path):
     # steady speed on a level road needs the road-load power F v = (Crr m g + 1/2 rho CdA
-    # v^2) v (Gillespie ch. 4), at the motor shaft F v / eta_gear: at 130 km/h that is
-    # above the 15 kW peak for the whole run, at 50 km/h below it
+    # v^2) v (Gillespie ch. 4, chapter from memory), at the motor shaft F v / eta_gear: at
+    # 130 km/h that is above the 15 kW peak for the whole run, at 50 km/h below it
     for v_kmh, over in ((130.0, True), (50.0, False)):
         v = v_kmh * KMH_MS
         shaft_w = (0.010 * 1500 * STANDARD_GRAVITY_MS2 + 0.5 * 1.2 * 0.62 * v ** 2) * v / 0.97
@@ -846,8 +857,9 @@ performance:
 
 
 def test_a_profile_beyond_the_peak_wheel_power_is_reported(tmp_path):
-    # steady-speed wheel power = road-load force x speed (Gillespie ch. 4): at 280 km/h
-    # (Crr m g + 1/2 rho CdA v^2) v exceeds 0.9 x 200 kW, at 150 km/h it does not
+    # steady-speed wheel power = road-load force x speed (Gillespie ch. 4, chapter from
+    # memory): at 280 km/h (Crr m g + 1/2 rho CdA v^2) v exceeds 0.9 x 200 kW, at
+    # 150 km/h it does not
     def wheel_kw(v_kmh):
         v = v_kmh * KMH_MS
         return (0.013 * 980 * STANDARD_GRAVITY_MS2 + 0.5 * 1.2 * 0.69 * v * v) * v / 1000

@@ -48,7 +48,8 @@ driving:
 def test_tyre_label_classes_of_regulation_1222_2009():
     # Regulation (EC) No 1222/2009 Annex I Part A, C2 class B: 5.6-6.7 kg/t, i.e. the
     # interval above class A's limit 5.5 up to 6.7; middle 6.1 kg/t = Crr 0.0061; a value
-    # known only to lie in an interval of width w has sd w / sqrt(12) (GUM 4.3.7)
+    # known only to lie in an interval of width w has sd w / sqrt(12) (GUM 4.3.7, section
+    # from memory)
     crr, sd = tyre_label_crr("C2/B 1222/2009")
     assert crr == pytest.approx(0.0061)
     assert sd == pytest.approx(0.0012 / math.sqrt(12))
@@ -140,8 +141,8 @@ def test_examples_run_with_json(name, capsys):
 
 def test_lap_trace_is_reproducible_and_within_its_limits(tmp_path):
     # make_lap.py rebuilds the committed lap.csv exactly, and the trace honours its own
-    # model: corner speed <= sqrt(mu g R) (point-mass lateral limit, Milliken ch. 2),
-    # v dv/ds <= a(v) forward and >= -a_brake backward
+    # model: corner speed <= sqrt(mu g R) (point-mass lateral limit, Milliken ch. 2,
+    # chapter from memory), v dv/ds <= a(v) forward and >= -a_brake backward
     folder = ROOT / "examples" / "track-wing"
     sys.path.insert(0, str(folder))
     try:
@@ -169,10 +170,10 @@ def test_lap_trace_is_reproducible_and_within_its_limits(tmp_path):
 
 def test_lap_trace_asks_no_more_than_the_club_racer_can_give():
     # the wheel force the committed lap asks, from Newton's second law with the road load
-    # (tractive's wheel demand, UN GTR 15 Annex 7 intervals), stays below the full-load
-    # force of club_racer.yaml at every step: F_avail = eta P(n) / v in the best gear,
-    # n = v i / r (gear kinematics), P(n) read from the full-load table with numpy.interp;
-    # and its power F v stays below the peak wheel power of tractive.performance
+    # (tractive's wheel demand, UN GTR 15 Annex 7 intervals, annex from memory), stays
+    # below the full-load force of club_racer.yaml at every step: F_avail = eta P(n) / v in
+    # the best gear, n = v i / r (gear kinematics), P(n) read from the full-load table
+    # with numpy.interp; and its power F v stays below the peak wheel power of tractive.performance
     import yaml
 
     from tractive.demand import wheel_demand

@@ -76,14 +76,25 @@ def test_linear_sensitivity_reproduces_the_analytic_standard_deviation(tmp_path)
     sd_kwh = 1500 * STANDARD_GRAVITY_MS2 * d * sd_crr / 3.6e6
     z = stats.norm.ppf(0.975)
     width = row.interval_high["positive_energy_kwh"] - row.interval_low["positive_energy_kwh"]
-    # the sample 2.5/97.5 % quantiles scatter by about 1.5 % of the width at n = 20000
+    # tolerance basis (arithmetic; the 5 % itself is a common-practice choice): a sample
+    # standard deviation has relative standard error about 1/sqrt(2(n-1)) = 0.5 % at
+    # n = 20000; the interval is read from the sample 2.5/97.5 % quantiles, whose
+    # asymptotic standard error sqrt(p(1-p)/n)/phi(z) (order statistics, normal output)
+    # gives about 0.67 % of the width. 5 % is then more than 7 standard errors.
+    se_sd = 1 / np.sqrt(2 * (n - 1))
+    se_q = np.sqrt(0.975 * 0.025 / n) / stats.norm.pdf(z)
+    se_width = np.sqrt(2 * se_q ** 2 - 2 * 0.025 ** 2 / n / stats.norm.pdf(z) ** 2) / (2 * z)
+    assert 0.05 > 9 * se_sd and 0.05 > 7 * se_width  # arithmetic of the tolerance basis
+    # analytic sd (JCGM 100 eq. 10) through the 95 % interval; 5 %: see above
     assert width / (2 * z) == pytest.approx(sd_kwh, rel=0.05)
-    # sampling error of the mean: sd / sqrt(n); allow 4 standard errors
+    # sampling error of the mean: sd / sqrt(n) (standard error of a mean); allow 4
+    # standard errors (common practice)
     assert abs(row.mean["positive_energy_kwh"] - row.metrics["positive_energy_kwh"]) < \
         4 * sd_kwh / np.sqrt(n)
     # the tyre change is -15 % of Crr: its own spread is 0.15 m g d sd(Crr)
     tyres = res.row("tyres", "steady:90kmh:600s")
     c_width = tyres.change_high["positive_energy_kwh"] - tyres.change_low["positive_energy_kwh"]
+    # analytic sd of the change (JCGM 100 eq. 10); 5 %: same basis as above
     assert c_width / (2 * z) == pytest.approx(0.15 * sd_kwh, rel=0.05)
     assert tyres.distinguishable["positive_energy_kwh"]
 
@@ -99,6 +110,7 @@ def test_common_random_numbers_cancel_shared_uncertainty(tmp_path):
     z = stats.norm.ppf(0.975)
     expected = 100 * STANDARD_GRAVITY_MS2 * d * sd_crr / 3.6e6
     c_width = row.change_high["positive_energy_kwh"] - row.change_low["positive_energy_kwh"]
+    # analytic sd (JCGM 100 eq. 10); 5 % at 20000 draws: basis in the test above
     assert c_width / (2 * z) == pytest.approx(expected, rel=0.05)
 
 
@@ -125,6 +137,7 @@ road_load:
     d = 90 * KMH_MS * 600
     sd_kwh = np.sqrt(g @ cov @ g) * d / 3.6e6
     width = row.interval_high["positive_energy_kwh"] - row.interval_low["positive_energy_kwh"]
+    # analytic sd (JCGM 100 eq. 13); 5 % at 20000 draws: basis in the linear-sensitivity test
     assert width / (2 * stats.norm.ppf(0.975)) == pytest.approx(sd_kwh, rel=0.05)
 
 
@@ -222,7 +235,10 @@ def test_electric_powertrain_uncertainty_matches_the_law_of_propagation(tmp_path
     # battery energy E = W+/eta_d - eta_r B + P_aux t is linear in eta_r, P_aux (and nearly
     # in eta_d for u/eta = 1 %); range R = U d / E. JCGM 100:2008 eq. (10):
     # u_c^2 = sum (df/dx_i)^2 u^2(x_i) for independent inputs, with sensitivities from the
-    # model at the nominal point (the traction and regenerated energy of one run)
+    # model at the nominal point (the traction and regenerated energy of one run).
+    # What this tests is the propagation (Monte Carlo vs the law of propagation): the
+    # sensitivities are taken from the code's own consume(), so the energies themselves
+    # are not checked against an outside value here (consistency of the model with itself).
     from tractive.demand import vehicle_wheel_demand
     from tractive.profiles import resolve_profile
     from tractive.vehicle import load_vehicle
@@ -243,12 +259,16 @@ def test_electric_powertrain_uncertainty_matches_the_law_of_propagation(tmp_path
          "aux_kw": r.duration_s / 3600.0}                     # kWh per kW
     sd_e = np.sqrt(sum((c[k] * u[k]) ** 2 for k in c))
     row = res.row("baseline", "nycc")
+    # consistency check: the study runs the same model as consume()
     assert row.metrics["battery_energy_kwh"] == pytest.approx(e_kwh, rel=1e-12)
+    # propagation check (JCGM 100 eq. 10, sensitivities from the model); 5 % at 20000
+    # draws: common-practice tolerance, basis in the linear-sensitivity test
     assert _sd_from_interval(row, "battery_energy_kwh") == pytest.approx(sd_e, rel=0.05)
     # range: dR/dU = d/E, dR/dE = -U d/E^2 (E itself carries sd_e)
     d_km = r.distance_km
     sd_r = np.sqrt((d_km / e_kwh * u["usable_kwh"]) ** 2 +
                    (60.0 * d_km / e_kwh ** 2 * sd_e) ** 2)
+    # propagation check as above (JCGM 100 eq. 10); 5 %: common practice
     assert _sd_from_interval(row, "range_km") == pytest.approx(sd_r, rel=0.05)
     # the ballast changes the wheel energy only: with common random numbers its change
     # keeps the spread of eta_d and eta_r acting on the difference, none of the auxiliaries
@@ -261,8 +281,10 @@ def test_electric_powertrain_uncertainty_matches_the_law_of_propagation(tmp_path
                            float(r.regenerated_energy_kwh)) / 0.7}
     sd_change = np.sqrt(sum((c_change[k] * u[k]) ** 2 for k in c_change))
     ballast = res.row("ballast", "nycc")
+    # propagation check (JCGM 100 eq. 10, sensitivities from the model); 5 %: common practice
     assert _sd_from_interval(ballast, "battery_energy_kwh", change=True) == \
         pytest.approx(sd_change, rel=0.05)
+    # consistency check: common random numbers leave the change less spread than the metric
     assert sd_change < 0.5 * sd_e
     text = " ".join(res.uncertainty["uncertain_parameters"])
     assert "powertrain.drive_efficiency" in text and "powertrain.battery_usable_kwh" in text
@@ -297,7 +319,9 @@ def test_combustion_powertrain_uncertainty_matches_the_law_of_propagation(tmp_pa
     # Willans line m_f = (P_e + P_0)/(e H) with the gear set by speed: fuel is linear in the
     # friction power P_0 and in the idle rate, so sensitivities from a finite difference of
     # one run are exact; 1/e is linearised by a central difference (u/e = 2.5 %).
-    # JCGM 100:2008 eq. (10) for independent inputs.
+    # JCGM 100:2008 eq. (10) for independent inputs. What this tests is the propagation
+    # (Monte Carlo vs the law of propagation): the sensitivities are taken from the code's
+    # own consume(), so the fuel itself is not checked against an outside value here.
     import dataclasses
 
     from tractive.demand import vehicle_wheel_demand
@@ -328,9 +352,12 @@ def test_combustion_powertrain_uncertainty_matches_the_law_of_propagation(tmp_pa
          "e": (fuel_l(e=0.401) - fuel_l(e=0.399)) / 0.002}       # central difference
     sd = np.sqrt(sum((c[k] * u[k]) ** 2 for k in c))
     row = res.row("baseline", trip)
+    # consistency check: the study runs the same model as consume()
     assert row.metrics["fuel_l"] == pytest.approx(f0, rel=1e-12)
+    # propagation check (JCGM 100 eq. 10, sensitivities from the model); 5 % at 20000
+    # draws: common practice, basis in the linear-sensitivity test
     assert _sd_from_interval(row, "fuel_l") == pytest.approx(sd, rel=0.05)
-    # each input contributes (none of the three is negligible in this case)
+    # test-design check: each input contributes (none of the three is negligible here)
     assert min(abs(c[k] * u[k]) for k in c) > 0.2 * sd
 
 
@@ -420,10 +447,10 @@ uncertainty: {{draws: 4000, seed: 2}}
 
 
 def test_tyre_label_crr_is_drawn_uniformly_over_its_class(tmp_path):
-    # JCGM 101:2008 6.4.2: a quantity known only to lie in [a, b] has a rectangular
-    # distribution and is propagated by sampling it; its standard deviation is
-    # (b - a) / sqrt(12) (JCGM 100:2008 4.3.7). Checked with scipy's Kolmogorov-Smirnov
-    # test against scipy.stats.uniform.
+    # JCGM 101:2008 6.4.2 (section from memory): a quantity known only to lie in [a, b]
+    # has a rectangular distribution and is propagated by sampling it; its standard
+    # deviation is (b - a) / sqrt(12) (JCGM 100:2008 4.3.7, section from memory). Checked
+    # with scipy's Kolmogorov-Smirnov test against scipy.stats.uniform.
     from tractive.spec import read_yaml
     from tractive.study import modify
     from tractive.study.spec import Change
@@ -455,10 +482,11 @@ def test_tyre_label_crr_is_drawn_uniformly_over_its_class(tmp_path):
 
 def test_tyre_label_interval_is_the_rectangular_one(tmp_path):
     # at constant speed the traction energy is linear in Crr (road-load equation,
-    # Gillespie ch. 4), so the 95 % interval of the change maps the 2.5 % and 97.5 %
-    # quantiles of the rectangular distribution of Crr over the class: a + 0.025 (b - a)
-    # and a + 0.975 (b - a) (JCGM 101:2008 6.4.2); a normal distribution with the same
-    # standard deviation would give the middle -/+ 1.96 (b - a) / sqrt(12), outside it
+    # Gillespie ch. 4, chapter from memory), so the 95 % interval of the change maps the
+    # 2.5 % and 97.5 % quantiles of the rectangular distribution of Crr over the class:
+    # a + 0.025 (b - a) and a + 0.975 (b - a) (JCGM 101:2008 6.4.2, section from memory);
+    # a normal distribution with the same standard deviation would give the middle
+    # -/+ 1.96 (b - a) / sqrt(12), outside it
     (tmp_path / "car.yaml").write_text(CAR.format(extra=""))
     (tmp_path / "study.yaml").write_text("""\
 baseline: {vehicle: car.yaml}
