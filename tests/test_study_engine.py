@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import csv
 import json
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -856,7 +857,7 @@ performance:
 """
 
 
-def test_a_profile_beyond_the_peak_wheel_power_is_reported(tmp_path):
+def test_a_profile_beyond_the_available_wheel_force_is_reported(tmp_path):
     # steady-speed wheel power = road-load force x speed (Gillespie ch. 4, chapter from
     # memory): at 280 km/h (Crr m g + 1/2 rho CdA v^2) v exceeds 0.9 x 200 kW, at
     # 150 km/h it does not
@@ -869,10 +870,37 @@ def test_a_profile_beyond_the_peak_wheel_power_is_reported(tmp_path):
         'profiles: ["steady:280kmh:30s"]', 'profiles: ["steady:280kmh:30s", '
         '"steady:150kmh:30s"]')
     res = run_study(_write(tmp_path, study))
-    notes = [w for w in res.warnings if "peak wheel power" in w]
+    notes = [w for w in res.warnings if "cannot follow" in w]
     assert any(w.startswith("baseline cannot follow the profile 'steady:280kmh:30s': for "
-                            "30.0 s") and "180 kW peak wheel power" in w for w in notes)
+                            "30.0 s") and "more wheel force than its drive" in w for w in notes)
     assert not any("steady:150kmh" in w for w in notes)
+
+
+def test_available_wheel_force_is_the_drive_envelope_capped_by_traction():
+    # electric van (one reduction gear): below base speed the force is torque-limited,
+    # T i η / r, above it power-limited, P η / v (Gillespie ch. 2, chapter from memory;
+    # F v = T ω η); values of examples/vehicles/electric_van.yaml: 300 N m, 150 kW,
+    # i = 10.2, η = 0.97, r = 0.34 m
+    from tractive.performance import available_wheel_force_n
+    from tractive.vehicle import load_vehicle
+
+    van = load_vehicle(Path(__file__).resolve().parents[1] / "examples" / "vehicles"
+                       / "electric_van.yaml")
+    v = np.array([0.0, 5.0, 20.0, 30.0, 40.0])
+    got = available_wheel_force_n(van, v)
+    expected = np.minimum(300 * 10.2 * 0.97 / 0.34, 150e3 * 0.97 / np.maximum(v, 1e-9))
+    np.testing.assert_allclose(got, expected, rtol=1e-12)
+    # on ice (μ = 0.1) the tyres limit instead. Front drive with load transfer under
+    # acceleration (Gillespie ch. 2, chapter from memory): F ≤ μ (W_f − (h/L) m a) with
+    # m_inertial a = F − R(v), so F = μ (W_f + (h/L)(m/m_i) R) / (1 + μ (h/L)(m/m_i));
+    # W_f = 0.55 m g, h = 0.75 m, L = 3.3 m, m/m_i = 1/1.04 (the van's file)
+    icy = replace(van, performance=replace(van.performance, tyre_road_friction=0.1))
+    got = available_wheel_force_n(icy, v)
+    w = 2250 * STANDARD_GRAVITY_MS2
+    k = 0.75 / 3.3 / 1.04
+    road = np.asarray(van.resistance().force_n(v))
+    np.testing.assert_allclose(got, 0.1 * (0.55 * w + k * road) / (1 + 0.1 * k), rtol=1e-12)
+    assert np.all(got < expected)
 
 
 def test_the_reference_air_used_is_echoed_with_its_source(tmp_path):

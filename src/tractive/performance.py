@@ -861,6 +861,46 @@ def _peak_wheel_power_w(m: _Model):
     return (shaft * m.eff)[:, 0]
 
 
+def available_wheel_force_n(vehicle, speed_ms, sin_grade=0.0):
+    """Largest tractive force [N] the drive and the tyres give at each speed.
+
+    The best gear at each speed (full-load curve or motor envelope through the
+    gearing and driveline efficiency), capped by the traction limit of the
+    driven axle (with load transfer and downforce as in :func:`top_speed`),
+    calm air.
+
+    Parameters
+    ----------
+    vehicle : Vehicle
+        With a ``performance`` block; fields may carry a vehicle axis (N,).
+    speed_ms : (T,) array
+        Speeds [m/s].
+    sin_grade : float or (T,) array
+        Sine of the road angle [-] at each speed (grade changes the normal load).
+
+    Returns
+    -------
+    (T,) array for a scalar vehicle, (N, T) with a vehicle axis.
+
+    References
+    ----------
+    .. [1] T. D. Gillespie, *Fundamentals of Vehicle Dynamics*, SAE 1992, ch. 2
+       (power-limited and traction-limited acceleration; chapter from memory).
+    """
+    m = _model(vehicle)
+    v = np.atleast_1d(np.asarray(speed_ms, float))[None, :]             # (1, T)
+    theta = np.arcsin(np.clip(np.broadcast_to(np.asarray(sin_grade, float),
+                                              v.shape[-1:]), -1.0, 1.0))[None, :]
+    first = (np.arange(m.n_gears) == 0)[:, None, None]
+    drive = m.drive_force_n(v, m.overall(), first)                      # (G, N, T)
+    road = m.road_load_n(v, theta, 0.0)
+    trac = m.traction_limit_n(v, theta, 0.0, road)
+    best = np.max(np.minimum(drive, trac), axis=0)                      # (N, T)
+    best = np.broadcast_to(best, (m.n, v.shape[-1]))
+    scalar = np.ndim(vehicle.mass_kg) == 0
+    return best[0] if scalar else best
+
+
 def top_speed(vehicle, *, grade_pct=0.0, wind_kmh=0.0):
     """Top speed [km/h], its limit and gear, and the per-gear table.
 

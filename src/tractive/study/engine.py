@@ -515,33 +515,32 @@ def _performance(ps, chunk_size: int | None = None) -> dict:
 
 
 def _note_wheel_power(name, ps, demands: dict, warnings) -> None:
-    """Warn where a profile asks more wheel power than the performance data's peak.
+    """Warn where a profile asks more wheel force than the drive and tyres give.
 
-    For a vehicle with performance data but no powertrain block: the nominal
-    vehicle's wheel power F·v on each interval against its peak wheel power
-    (:func:`tractive.performance.performance_summary`). A profile above it
-    cannot be driven at all; one below it may still ask more than the drive
-    gives at a particular speed, so this is a necessary check, not a
-    sufficient one.
+    For a vehicle with performance data but no powertrain block: on each
+    interval the nominal vehicle's wheel force is compared with the largest
+    force its drive (best gear of the full-load curve or motor envelope) and
+    its tyres (traction limit) give at that speed and grade
+    (:func:`tractive.performance.available_wheel_force_n`).
     """
-    from ..performance import performance_summary
+    from ..performance import available_wheel_force_n
 
-    peak_kw = performance_summary(ps.vehicle(0)).peak_wheel_power_kw
-    if peak_kw is None or not np.isfinite(peak_kw):
-        return
+    vehicle = ps.vehicle(0)
     for profile, d in demands.items():
         force = np.asarray(d.force_n)
         force = force[0] if force.ndim == 2 else force
         iv = d.intervals
-        power_w = force * np.asarray(iv.speed_ms, float)
-        over = power_w > peak_kw * 1000.0 * (1.0 + 1e-9)
+        speed = np.asarray(iv.speed_ms, float)
+        avail = available_wheel_force_n(vehicle, speed, iv.sin_grade)
+        over = (force > 0.0) & (force > avail * (1.0 + 1e-9) + 1e-9)
         if np.any(over):
             secs = float(np.sum(np.where(over, np.asarray(iv.dt_s, float), 0.0)))
+            worst = float(np.max(np.where(over, force - avail, 0.0)))
             warnings.append(
-                f"{name} cannot follow the profile '{profile}': for {secs:.1f} s it asks up "
-                f"to {np.max(power_w) / 1000.0:.0f} kW at the wheels, more than the "
-                f"{peak_kw:.0f} kW peak wheel power of its performance data; its energy "
-                f"figures are for the profile as written, which it cannot drive")
+                f"{name} cannot follow the profile '{profile}': for {secs:.1f} s it asks "
+                f"more wheel force than its drive and tyres give at that speed (up to "
+                f"{worst:.0f} N more); its energy figures are for the profile as written, "
+                f"which it cannot drive")
 
 
 def _note_limits(name, per_profile: dict, n: int, warnings) -> None:
