@@ -40,7 +40,10 @@ and numpy evaluates both over the whole lap at once (S by the trapezoidal
 rule on a fine speed grid, S⁻¹ by interpolation). To make the lap periodic
 (the car crosses the line at the speed it started with) the circuit is laid
 out three times and the middle lap kept. Time follows from t = ∫ ds / v
-(trapezoidal), and the trace is written at 0.5 s steps.
+(trapezoidal), and the trace is written at 0.5 s steps; time is stretched by
+the small factor (under 0.3 %) that makes the lap a whole number of steps, and
+speed by its inverse, so the lap closes on a sample and repeated laps join
+without a gap (read it with dt_s 0.5 or a divisor of it).
 
 References: W. F. Milliken, D. L. Milliken, *Race Car Vehicle Dynamics*,
 SAE 1995, ch. 2 (lap-time simulation with a point-mass vehicle);
@@ -191,8 +194,13 @@ def make_lap():
     v = lap_speed_ms(s, v_lim)[n:2 * n + 1]           # the middle lap, closed at the line
     ds = np.full(v.size - 1, STEP_M)
     t = np.concatenate([[0.0], np.cumsum(ds / (0.5 * (v[1:] + v[:-1])))])
-    grid = np.arange(0.0, t[-1] + 1e-9, DT_S)
-    return grid, np.interp(grid, t, v) * 3.6
+    # close the lap on the time grid: stretch time by the small factor that makes the
+    # lap a whole number of steps and scale speed by its inverse (distance unchanged),
+    # so the last sample is the first one again and laps join without a gap
+    steps = max(1, round(t[-1] / DT_S))
+    factor = steps * DT_S / t[-1]
+    grid = np.arange(steps + 1) * DT_S
+    return grid, np.interp(grid, t * factor, v / factor) * 3.6
 
 
 def main():
