@@ -170,3 +170,22 @@ def test_cycles_with_named_profiles_reports_their_statistics():
     assert rows["steady:90kmh:600s"]["positive_kinetic_energy_m_per_s2"] == 0.0
     r = run("cycles", "nope")
     assert r.returncode == 2 and len(r.stderr.strip().splitlines()) == 1
+
+
+def test_energy_mix_of_wheel_energy_without_a_powertrain():
+    # 40 CFR 600 App. II combines city and highway 55/45 harmonically in economy; per
+    # distance that is the share-weighted mean of Wh/km (consumption = 1 / economy)
+    r = run("energy", HATCH, "-c", "udds", "-c", "hwfet", "--mix-shares", "0.55,0.45",
+            "--json")
+    assert r.returncode == 0, r.stderr
+    data = json.loads(r.stdout)
+    udds, hwfet = data["results"]
+    mix = data["mix"]
+    assert mix["positive_energy_wh_per_km"] == pytest.approx(
+        0.55 * udds["positive_energy_wh_per_km"] + 0.45 * hwfet["positive_energy_wh_per_km"],
+        rel=1e-14)
+    economy = 1 / (0.55 / (1 / udds["positive_energy_wh_per_km"])
+                   + 0.45 / (1 / hwfet["positive_energy_wh_per_km"]))
+    assert 1 / mix["positive_energy_wh_per_km"] == pytest.approx(economy, rel=1e-12)
+    r = run("energy", HATCH, "-c", "udds", "-c", "hwfet", "--mix-shares", "0.5,0.6")
+    assert r.returncode == 2 and "--mix-shares" in r.stderr

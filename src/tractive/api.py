@@ -118,3 +118,46 @@ def energy(vehicle: Vehicle | str | os.PathLike, profiles: Sequence[Profile | st
             pt = vehicle.powertrain.consume(vehicle, demand, prof)
         results.append(EnergyResult(prof, demand, pt))
     return EnergyReport(vehicle, results)
+
+
+def energy_mix(report: EnergyReport, shares: Sequence[float]) -> dict:
+    """Weighted mix of an energy report's profiles by distance share.
+
+    Every per-distance value of the mix is the share-weighted mean of the
+    profiles' per-distance values (wheel Wh/km, battery or wall Wh/km, L/100 km,
+    CO2 g/km), which is the harmonic combination of economies used by
+    40 CFR 600 (55 % city / 45 % highway); range follows from the mixed
+    consumption.
+
+    Parameters
+    ----------
+    report : EnergyReport
+    shares : sequence of float
+        Distance shares [-], one per result, ≥ 0, adding up to 1.
+    """
+    from .errors import InputError
+
+    shares = [float(x) for x in shares]
+    results = list(report.results)
+    if len(shares) != len(results):
+        raise InputError(f"needs one share per cycle ({len(results)}), got {len(shares)}",
+                         field="shares")
+    if any(not (x >= 0) or x == float("inf") for x in shares) or abs(sum(shares) - 1.0) > 1e-6:
+        raise InputError("shares must be 0 or more and add up to 1", field="shares")
+    for r in results:
+        if not r.wheel.distance_km > 0:
+            raise InputError(f"profile '{r.profile.name}' has no distance; it cannot be part "
+                             "of a mix by distance", field="shares")
+    rows = [r.to_dict() for r in results]
+    out = {"cycle": "mix", "profiles": [r.profile.name for r in results], "shares": shares}
+    for key in ("positive_energy_wh_per_km", "negative_energy_wh_per_km"):
+        out[key] = sum(x * row[key] for x, row in zip(shares, rows))
+    if report.vehicle.powertrain is not None:
+        from .powertrain import mix_results
+
+        out.update(mix_results([r.powertrain for r in results], shares).to_dict())
+        out["cycle"] = "mix"
+        if all(row.get("wall_wh_per_km") is not None for row in rows):
+            out["wall_wh_per_km"] = sum(x * row["wall_wh_per_km"] for x, row in zip(shares, rows))
+    return out
+

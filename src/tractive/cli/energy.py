@@ -5,6 +5,7 @@ from __future__ import annotations
 import click
 
 from .. import api
+from ..errors import InputError
 from ..vehicle import load_vehicle
 from . import cli
 from ._checks import Number, ranged
@@ -27,7 +28,8 @@ DT = Number(0.01, 60.0, unit="s")
                           "contains a bundled cycle is read at 1 s throughout.", DT))
 @click.option("--mix-shares", default=None, metavar="S1,S2,...",
               help="Distance shares of the cycles (in --cycle order, adding up to 1) for a "
-                   "weighted-mix row of consumption and range; needs a powertrain.")
+                   "weighted-mix row: wheel Wh/km, and with a powertrain consumption, CO2 "
+                   "and range (share-weighted per-km values).")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
 def energy_command(vehicle_file, cycles, dt_s, mix_shares, as_json):
     """Wheel energy of a vehicle over drive cycles (UN GTR No. 15 Annex 7 method).
@@ -64,28 +66,25 @@ def energy_command(vehicle_file, cycles, dt_s, mix_shares, as_json):
             ("rolling_kwh", "rolling", ".3f"), ("aero_kwh", "aero", ".3f"),
             ("inertia_kwh", "inertia", ".3f"), ("grade_kwh", "grade", ".3f")]
     click.echo(table(rows, cols))
+    if "mix" in data:
+        m = data["mix"]
+        click.echo(f"mix ({', '.join(f'{p} {x:g}' for p, x in zip(m['profiles'], m['shares']))}):"
+                   f" {m['positive_energy_wh_per_km']:.1f} Wh/km positive, "
+                   f"{m['negative_energy_wh_per_km']:.1f} Wh/km braking")
     if vehicle.powertrain is not None:
         _powertrain_table(vehicle, data)
 
 
 def _mix(vehicle, report, text):
-    from ..powertrain import mix_results
-
-    if vehicle.powertrain is None:
-        raise click.BadParameter("needs a vehicle with a powertrain block",
-                                 param_hint="--mix-shares")
     try:
         shares = [float(x) for x in text.split(",")]
     except ValueError:
         raise click.BadParameter(f"must be numbers separated by commas, got '{text}'",
                                  param_hint="--mix-shares") from None
-    if len(shares) != len(report.results):
-        raise click.BadParameter(f"needs one share per cycle ({len(report.results)}), got "
-                                 f"{len(shares)}", param_hint="--mix-shares")
-    if any(not (s >= 0) for s in shares) or abs(sum(shares) - 1.0) > 1e-6:
-        raise click.BadParameter("shares must be 0 or more and add up to 1",
-                                 param_hint="--mix-shares")
-    return mix_results([r.powertrain for r in report.results], shares).to_dict()
+    try:
+        return api.energy_mix(report, shares)
+    except InputError as exc:
+        raise click.BadParameter(exc.message, param_hint="--mix-shares") from None
 
 
 def _powertrain_table(vehicle, data):
