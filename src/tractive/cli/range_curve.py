@@ -70,10 +70,13 @@ def range_curve_command(vehicle_file, from_kmh, to_kmh, step_kmh, ambient_c, as_
             cols.append(("fuel_kg_per_100km", "kg/100km", ".2f"))
         cols += [("co2_g_per_km", "CO2 g/km", ".0f"), ("gear", "gear", ".0f"),
                  ("engine_speed_rpm", "rpm", ".0f"), ("range_km", "range km", ".0f")]
+    gov = getattr(vehicle.performance, "governor_kmh", None)
     rows = []
     for r in data["rows"]:
         row = dict(r)
-        row["note"] = "" if r["feasible"] else "beyond the drive's limits"
+        row["note"] = "" if r["feasible"] else (
+            "above the governor" if gov is not None and r["speed_kmh"] > gov * (1 + 1e-12)
+            else "beyond the drive's limits")
         rows.append(row)
     if not all(r["feasible"] for r in data["rows"]):
         cols.append(("note", "note", ""))

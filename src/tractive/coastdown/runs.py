@@ -464,7 +464,7 @@ def assign_directions(runs):
                 continue
             diff = (r.heading_deg - ref + 180.0) % 360.0 - 180.0
             out.append(replace(r, group="A" if abs(diff) < 90.0 else "B",
-                               direction=f"{r.heading_deg:03.0f}°"))
+                               direction=f"{round(r.heading_deg) % 360:03d}°"))
         means = {}
         for g in "AB":
             hs = [r.heading_deg for r in out if r.used and r.group == g]
