@@ -168,7 +168,7 @@ def _read_csv(path: Path, speed_column: str | None) -> CoastdownLog:
                          file=src, line=header_line)
     if len(speeds) > 1:
         raise InputError(f"several speed columns ({', '.join(speeds)}); keep one or choose "
-                         "one with speed_column", file=src, line=header_line)
+                         "one with --speed-column (speed_column= in Python)", file=src, line=header_line)
     speed_col = speeds[0]
     rows = list(csv.reader([t for _, t in numbered[1:]]))
     line_no = np.array([n for n, _ in numbered[1:]], dtype=int)
