@@ -149,6 +149,25 @@ def test_unknown_profile(tmp_path, capsys):
     _assert_one_line_error(tmp_path, capsys, study, ["study.yaml", "driving.profiles[2]"])
 
 
+def test_missing_profile_file_names_the_study_field_and_line(tmp_path, capsys):
+    study = GOOD.replace("[udds, hwfet]", "[udds, hwfet, nope.csv]")
+    path = _setup(tmp_path, study)
+    line = study.splitlines().index("  profiles: [udds, hwfet, nope.csv]") + 1
+    code, _, err = _run(["compare", str(path), "-o", str(tmp_path / "out.csv")], capsys)
+    assert code == 2
+    assert err.strip().splitlines() == [
+        f"tractive: error: {path}:{line}: driving.profiles[2]: {tmp_path / 'nope.csv'}: "
+        f"file not found"]
+    assert not (tmp_path / "out.csv").exists()
+
+
+def test_bad_profile_file_keeps_its_own_line(tmp_path, capsys):
+    (tmp_path / "trip.csv").write_text("time_s,speed_kmh\n0,0\n1,abc\n")
+    study = GOOD.replace("[udds, hwfet]", "[udds, hwfet, trip.csv]")
+    _assert_one_line_error(tmp_path, capsys, study,
+                           ["study.yaml:", "driving.profiles[2]", "trip.csv:3", "speed_kmh"])
+
+
 def test_missing_vehicle_file(tmp_path, capsys):
     study = GOOD.replace("vehicle: car.yaml", "vehicle: nowhere.yaml")
     _assert_one_line_error(tmp_path, capsys, study, ["study.yaml", "baseline.vehicle",

@@ -89,8 +89,11 @@ def compare_command(study_file, outputs, as_json, draws, seed):
         if suffix not in (".xlsx", ".csv", ".json"):
             raise InputError("unknown output type; use a name ending in .xlsx, .csv or .json",
                              file=out)
-    for out in outputs:
-        write_output(result, out, inputs=inputs)
+    from ..report.common import all_or_nothing
+
+    with all_or_nothing():       # no output is created or replaced unless all were written
+        for out in outputs:
+            write_output(result, out, inputs=inputs)
     if as_json:
         emit_json(result.to_dict())
         for w in result.warnings:

@@ -9,6 +9,18 @@ Atomic writing
     an :class:`~tractive.errors.InputError` naming the output file
     ("cannot write: permission denied").
 
+Several outputs: all or nothing
+    Inside ``with all_or_nothing():`` every :func:`atomic_write` writes its
+    whole temporary file but renames nothing; when the block ends without an
+    error, the temporary files are renamed over their targets one after the
+    other. Guarantee: **no output is created or replaced unless every output
+    was written in full.** A failure while writing (or any exception in the
+    block) removes all temporary files and leaves every target as it was. A
+    failure of a rename (rare: the temporary file sits in the target's own
+    folder) undoes the renames already done: a replaced target gets its
+    previous content back (kept as a hard link, or a copy where links are not
+    possible, until the end), a new one is removed.
+
 Missing folders
     The folder of an output file must exist; it is never created (a typing
     mistake in a folder name would otherwise scatter files). A missing folder
@@ -46,9 +58,11 @@ References
 from __future__ import annotations
 
 import contextlib
+import contextvars
 import errno
 import os
 import secrets
+import shutil
 import stat
 from pathlib import Path
 from typing import Callable, Iterable
@@ -197,6 +211,10 @@ def atomic_write(path, write: Callable[[Path], None], *, inputs: Iterable = ()) 
         tmp = _new_temp_file(folder, target)
         write(tmp)
         _keep_target_mode(tmp, target)
+        batch = _BATCH.get()
+        if batch is not None:
+            batch.add(tmp, target)
+            return target
         os.replace(tmp, target)
     except OSError as exc:
         if tmp is not None:
@@ -210,6 +228,119 @@ def atomic_write(path, write: Callable[[Path], None], *, inputs: Iterable = ()) 
                 tmp.unlink()
         raise
     return target
+
+
+class _Batch:
+    """Temporary files written inside :func:`all_or_nothing`, waiting for their rename."""
+
+    def __init__(self):
+        self.pending: list = []         # (temporary file, target), in writing order
+
+    def add(self, tmp: Path, target: Path) -> None:
+        for i, (old_tmp, old_target) in enumerate(self.pending):
+            if _same_file(old_target, target) or old_target == target:
+                # the same target twice: the later content wins, as without a batch
+                with contextlib.suppress(OSError):
+                    old_tmp.unlink()
+                del self.pending[i]
+                break
+        self.pending.append((tmp, target))
+
+    def discard(self) -> None:
+        for tmp, _ in self.pending:
+            with contextlib.suppress(OSError):
+                tmp.unlink()
+        self.pending = []
+
+    def commit(self) -> None:
+        done = []                       # (target, backup or None) renamed so far
+        backups = []
+        current = None
+        try:
+            for tmp, target in self.pending:
+                current = target
+                backup = _backup(target)
+                if backup is not None:
+                    backups.append(backup)
+                os.replace(tmp, target)
+                done.append((target, backup))
+        except OSError as exc:
+            for target, backup in reversed(done):
+                with contextlib.suppress(OSError):
+                    if backup is not None:
+                        os.replace(backup, target)
+                    else:
+                        target.unlink()
+            self.discard()
+            for b in backups:
+                with contextlib.suppress(OSError):
+                    b.unlink()
+            raise InputError(f"cannot write: {_reason(exc, current.parent)}; no output "
+                             f"was written", file=str(current)) from None
+        for b in backups:
+            with contextlib.suppress(OSError):
+                b.unlink()
+        self.pending = []
+
+
+def _backup(target: Path) -> Path | None:
+    """Keep the present content of ``target`` under a new name next to it (None: no file).
+
+    A hard link when the file system allows it (no copying), else a copy.
+    """
+    try:
+        if not target.is_file():
+            return None
+    except OSError:
+        return None
+    for _ in range(100):
+        bak = target.parent / f".{target.name}.{secrets.token_hex(6)}.bak"
+        try:
+            os.link(target, bak)
+            return bak
+        except FileExistsError:
+            continue
+        except OSError:
+            if bak.exists():
+                continue
+            shutil.copy2(target, bak)
+            return bak
+    raise OSError(errno.EEXIST, "no free backup file name in the output folder")
+
+
+_BATCH: contextvars.ContextVar = contextvars.ContextVar("tractive_output_batch",
+                                                        default=None)
+
+
+@contextlib.contextmanager
+def all_or_nothing():
+    """Write several outputs so that either all of them appear or none changes.
+
+    Every :func:`atomic_write` (and the writers built on it) inside the block
+    writes its temporary file only; the renames happen together when the
+    block ends without an error (see the module doc for the guarantee).
+
+    Examples
+    --------
+    >>> with all_or_nothing():                       # doctest: +SKIP
+    ...     write_text_atomic("a.csv", text_a)
+    ...     write_text_atomic("b.json", text_b)
+
+    Raises
+    ------
+    InputError
+        When a rename fails (naming that output); nothing is then changed.
+    """
+    batch = _Batch()
+    token = _BATCH.set(batch)
+    try:
+        yield batch
+    except BaseException:
+        _BATCH.reset(token)
+        batch.discard()
+        raise
+    _BATCH.reset(token)
+    batch.commit()
 
 
 def _new_temp_file(folder: Path, target: Path) -> Path:

@@ -24,8 +24,9 @@ with openpyxl. Sheets, in order:
     :func:`tractive.powertrain.range_curve`), with a chart; the speed of
     greatest range. Left out when no variant has a powertrain.
 one sheet per profile
-    The nominal time series of every variant side by side (speed, wheel
-    force, wheel power, cumulative traction energy) with charts of speed,
+    The nominal time series of every variant side by side (speed in km/h,
+    or in mph in US studies; wheel force in N, wheel power in kW and
+    cumulative traction energy in kWh in every study) with charts of speed,
     power and cumulative energy over time.
 ``All results``
     Every metric of every row, one line per row and metric, with unit, value,
@@ -63,6 +64,7 @@ from typing import Iterable
 
 import numpy as np
 
+from ..units import MILE_M
 from .common import atomic_write, check_target, set_text_cell
 
 __all__ = ["write_workbook", "build_workbook", "sheet_title"]
@@ -76,7 +78,7 @@ SUMMARY_METRICS = ("positive_energy_wh_per_km", "positive_energy_wh_per_mi",
                    "battery_wh_per_km", "battery_wh_per_mi",
                    "fuel_l_per_100km", "fuel_economy_mpg", "co2_g_per_km", "co2_g_per_mi",
                    "range_km", "range_mi", "top_speed_kmh", "top_speed_mph",
-                   "accel_0_100_kmh_s", "annual_energy_cost")
+                   "accel_0_100_kmh_s", "accel_0_60_mph_s", "annual_energy_cost")
 #: money columns of the summary sheet (value with interval; change is not defined)
 MONEY_METRICS = ("modification_cost", "annual_saving", "payback_years", "npv")
 #: wheel-energy parts, per distance
@@ -697,6 +699,7 @@ def _profile_sheets(wb, result, st, taken):
         taken.append(title)
         ws = wb.create_sheet(title)
         first = series[0]
+        v_unit, v_of = _series_speed(result)
         shared = all(np.array_equal(np.asarray(s.time_s), np.asarray(first.time_s)) and
                      np.array_equal(np.asarray(s.speed_kmh), np.asarray(first.speed_kmh))
                      for s in series)
@@ -706,9 +709,9 @@ def _profile_sheets(wb, result, st, taken):
             _header(ws, h1, 1, None, st)
             _header(ws, h1, 2, None, st)
             _header(ws, h2, 1, "time at the end of the interval [s]", st)
-            _header(ws, h2, 2, "speed, interval mean [km/h]", st)
+            _header(ws, h2, 2, f"speed, interval mean [{v_unit}]", st)
             _write_column(ws, r0, 1, first.time_s, "0.0")
-            _write_column(ws, r0, 2, first.speed_kmh, number_format("km/h"))
+            _write_column(ws, r0, 2, v_of(first), number_format(v_unit))
             col = 3
         else:
             col = 1
@@ -720,9 +723,9 @@ def _profile_sheets(wb, result, st, taken):
             else:
                 t_col, v_col = col, col + 1
                 _header(ws, h2, t_col, "time [s]", st)
-                _header(ws, h2, v_col, "speed [km/h]", st)
+                _header(ws, h2, v_col, f"speed [{v_unit}]", st)
                 _write_column(ws, r0, t_col, s.time_s, "0.0")
-                _write_column(ws, r0, v_col, s.speed_kmh, number_format("km/h"))
+                _write_column(ws, r0, v_col, v_of(s), number_format(v_unit))
                 col += 2
             _header(ws, h2, col, "wheel force [N]", st)
             _header(ws, h2, col + 1, "wheel power [kW]", st)
@@ -744,7 +747,7 @@ def _profile_sheets(wb, result, st, taken):
         # charts to the right of the data
         gx = get_column_letter(last_col + 2)
         name_cell = lambda c: f"${get_column_letter(c)}${h1}"  # noqa: E731
-        speed = _scatter(f"Speed over time: {p}", "time [s]", "speed [km/h]")
+        speed = _scatter(f"Speed over time: {p}", "time [s]", f"speed [{v_unit}]")
         if shared:
             sp = _line_series(ws, 1, 2, r0, r1, f"${get_column_letter(2)}${h2}")
             speed.series.append(sp)
@@ -775,6 +778,18 @@ def _profile_sheets(wb, result, st, taken):
         _print_setup(ws, landscape=False)
         made.append(ws)
     return made
+
+
+def _series_speed(result):
+    """Unit and getter of the profile sheets' speed: km/h, or mph in US studies.
+
+    The mph values are the km/h values over 1.609344 (the exact mile). Wheel
+    force stays in N, power in kW and energy in kWh in every study.
+    """
+    if result.units == "us":
+        km_per_mi = MILE_M / 1000.0
+        return "mph", lambda s: np.asarray(s.speed_kmh, float) / km_per_mi
+    return "km/h", lambda s: np.asarray(s.speed_kmh, float)
 
 
 def _write_column(ws, r0, col, values, fmt):
@@ -864,7 +879,8 @@ _DEFINITIONS = (
                  "share-weighted means, range combines harmonically; totals over a "
                  "single run are not given for a mix."),
     ("Time series", "nominal values (no Monte Carlo) per interval of the sampled "
-                    "profile: mean speed, wheel force, wheel power = force × mean speed, "
+                    "profile: mean speed (km/h, or mph in US studies), wheel force [N], "
+                    "wheel power = force × mean speed [kW], "
                     "running sum of the positive (traction) wheel energy."),
 )
 
@@ -934,7 +950,9 @@ def _study_sheet(wb, result, st, notes):
     # profiles
     row += 1
     section("Profiles and duty mixes")
-    heads = ["Name", "Kind", "Profile", "Distance [km]", "Duration [s]", "Shares [%]"]
+    dist_unit = "mi" if result.units == "us" else "km"
+    heads = ["Name", "Kind", "Profile", f"Distance [{dist_unit}]", "Duration [s]",
+             "Shares [%]"]
     for j, h in enumerate(heads, start=1):
         _header(ws, row, j, h, st)
     row += 1
@@ -942,7 +960,7 @@ def _study_sheet(wb, result, st, notes):
         _put(ws, row, 1, p.name)
         _put(ws, row, 2, p.kind)
         _put(ws, row, 3, p.spec)
-        _put(ws, row, 4, p.distance_km, f'#,##0.000{_fmt_unit("km")}')
+        _put(ws, row, 4, p.distance()[1], f'#,##0.000{_fmt_unit(dist_unit)}')
         _put(ws, row, 5, p.duration_s, f'#,##0.0{_fmt_unit("s")}')
         shares = "; ".join(f"{k} {v:g} %" for k, v in p.shares_pct.items()) \
             if p.shares_pct else None

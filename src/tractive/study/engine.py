@@ -80,11 +80,17 @@ LIMIT_KEYS = {"motor_limit_exceeded_s": "the motor's peak power or torque",
               "engine_limit_exceeded_s": "the engine's full load or rev limit"}
 #: keys taken from performance_summary(...).to_dict()
 PERFORMANCE_KEYS = ("top_speed_kmh", "accel_0_100_kmh_s", "accel_80_120_kmh_s")
+#: acceleration times of US studies: key -> (from, to) [mph], computed by
+#: tractive.performance.acceleration_time_s with the exact mile (1 mi = 1609.344 m)
+US_ACCEL_MPH = {"accel_0_60_mph_s": (0.0, 60.0), "accel_50_70_mph_s": (50.0, 70.0)}
+#: metric acceleration keys, replaced by US_ACCEL_MPH in US studies
+METRIC_ACCEL_KEYS = ("accel_0_100_kmh_s", "accel_80_120_kmh_s")
 #: metrics attributed to parameter groups (when present)
 ATTRIBUTED = ("positive_energy_wh_per_km", "rolling_energy_wh_per_km", "aero_energy_wh_per_km",
               "battery_wh_per_km", "fuel_l_per_100km",
               "co2_g_per_km", "range_km", "top_speed_kmh", "accel_0_100_kmh_s",
-              "accel_80_120_kmh_s", "annual_energy_cost", "annual_co2_kg")
+              "accel_80_120_kmh_s", "accel_0_60_mph_s", "accel_50_70_mph_s",
+              "annual_energy_cost", "annual_co2_kg")
 #: metrics that compare a variant with the baseline (never on baseline rows)
 COMPARATIVE = ("annual_saving", "modification_cost", "payback_years", "npv")
 
@@ -138,19 +144,17 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
         try:
             prof = resolve_profile(ps_.text, base_dir=spec.base_dir, dt_s=spec.dt_s)
         except InputError as exc:
-            if exc.file:
-                raise
-            raise InputError(exc.message, file=spec.file, field=ps_.field,
-                             line=ps_.line) from None
+            raise _profile_error(exc, spec, ps_) from None
         profiles.append((ps_.name, prof))
         stats = profile_statistics(prof).to_dict()
         infos.append(ProfileInfo(ps_.name, "profile", ps_.text, stats.get("distance_km"),
-                                 stats.get("duration_s")))
+                                 stats.get("duration_s"), units=spec.units))
         if prof.distance_m <= 0:
             raise InputError("the profile covers no distance (the vehicle never moves)",
                              file=spec.file, field=ps_.field, line=ps_.line)
     for mx in spec.mixes:
-        infos.append(ProfileInfo(mx.name, "mix", "", None, None, dict(mx.shares_pct)))
+        infos.append(ProfileInfo(mx.name, "mix", "", None, None, dict(mx.shares_pct),
+                                 units=spec.units))
 
     # -- variants -----------------------------------------------------------
     z_base = {name: standard_normal_draws(rng, n)
@@ -208,7 +212,7 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
     for name, role, ps, cost, members, desc in variants:
         raw_results[name], demands[name] = _evaluate(ps, profiles,
                                                      spec.ambient_temperature_c,
-                                                     chunk_size=chunk_size)
+                                                     chunk_size=chunk_size, units=spec.units)
     for name, role, ps, *_ in variants:
         _note_limits(name, raw_results[name], n, warnings)
         if ps.powertrain is None and ps.performance is not None:
@@ -263,14 +267,12 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
     econ = {}
     if spec.economics is not None:
         e = spec.economics
-        econ = {"annual_distance_km": e.annual_distance_km,
-                "fuel_price_per_l": e.fuel_price_per_l,
-                "electricity_price_per_kwh": e.electricity_price_per_kwh,
-                "charging_efficiency": e.charging_efficiency,
-                "electricity_co2_g_per_kwh": e.electricity_co2_g_per_kwh,
-                "fuel_co2_g_per_l": e.fuel_co2_g_per_l,
-                "discount_rate_pct": e.discount_rate * 100.0,
-                "service_life_years": e.service_life_years, "currency": spec.currency}
+        econ = _economics_echo(e, spec.units)
+        econ.update({"electricity_price_per_kwh": e.electricity_price_per_kwh,
+                     "charging_efficiency": e.charging_efficiency,
+                     "electricity_co2_g_per_kwh": e.electricity_co2_g_per_kwh,
+                     "discount_rate_pct": e.discount_rate * 100.0,
+                     "service_life_years": e.service_life_years, "currency": spec.currency})
     unc = {"draws": n, "seed": seed, "confidence_pct": spec.confidence_pct,
            "uncertain_parameters": sorted(set(uncertain)),
            "method": "Monte Carlo (JCGM 101:2008), common random numbers across variants"}
@@ -338,6 +340,17 @@ def _build_variant(spec, members, base_mc, z_base, z_changes, n, warnings, label
     return replace(ps, params=p, pt_values=pt_values), uncertain
 
 
+def _profile_error(exc: InputError, spec: StudySpec, ps_) -> InputError:
+    """A profile that cannot be resolved, named at its place in the study file.
+
+    One line: ``study.yaml:LINE: driving.profiles[i]: <the profile's own error>``,
+    the profile's error keeping its file and line (``nope.csv: file not found``).
+    """
+    if exc.file and exc.field and os.path.abspath(exc.file) == os.path.abspath(spec.file):
+        return exc                  # already located in the study file
+    return InputError(exc.one_line(), file=spec.file, field=ps_.field, line=ps_.line)
+
+
 def _label_uncertainty(label) -> str:
     """How a tyre-label class enters the Monte Carlo (for the uncertainty summary)."""
     lo, hi = label.interval_kg_t()
@@ -403,7 +416,8 @@ def chunk_size_for(ps, profiles, memory_bytes: int = CHUNK_MEMORY_BYTES) -> int:
     return max(1, int(memory_bytes // per_vehicle))
 
 
-def _evaluate(ps, profiles, ambient_temperature_c=None, chunk_size=None) -> tuple:
+def _evaluate(ps, profiles, ambient_temperature_c=None, chunk_size=None,
+              units: str = "metric") -> tuple:
     """Metric arrays (vehicle axis) per profile, and the wheel demands.
 
     The vehicles are evaluated in chunks along the vehicle axis of at most
@@ -413,7 +427,7 @@ def _evaluate(ps, profiles, ambient_temperature_c=None, chunk_size=None) -> tupl
     vehicle, index 0).
     """
     size = ps.size
-    perf = _performance(ps)
+    perf = _performance(ps, units=units)
     step = chunk_size_for(ps, profiles) if chunk_size is None else max(1, int(chunk_size))
     if step >= size:
         out, demands = _evaluate_chunk(ps, profiles, ambient_temperature_c)
@@ -486,7 +500,7 @@ def _evaluate_chunk(ps, profiles, ambient_temperature_c=None) -> tuple:
 PERFORMANCE_CHUNK = 4096
 
 
-def _performance(ps, chunk_size: int | None = None) -> dict:
+def _performance(ps, chunk_size: int | None = None, units: str = "metric") -> dict:
     """Top speed and acceleration arrays of every vehicle of the set (vehicle axis).
 
     All vehicles (nominal and draws) go through
@@ -494,23 +508,34 @@ def _performance(ps, chunk_size: int | None = None) -> dict:
     arrays, in chunks of at most ``chunk_size`` (default
     :data:`PERFORMANCE_CHUNK`) vehicles; entry i equals the one-vehicle
     result of vehicle i. A time not reached is NaN; a metric not reached by
-    any vehicle is left out.
+    any vehicle is left out. In US studies (``units="us"``) the 0-60 and
+    50-70 mph times of :data:`US_ACCEL_MPH` are added, from
+    :func:`tractive.performance.acceleration_time_s` with the speeds in km/h
+    by the exact mile.
     """
     if ps.performance is None:
         return {}
-    from ..performance import performance_summary
+    from ..performance import acceleration_time_s, performance_summary
 
     size = ps.size
     step = PERFORMANCE_CHUNK if chunk_size is None else max(1, int(chunk_size))
-    out = {key: np.full(size, np.nan) for key in PERFORMANCE_KEYS}
+    keys = PERFORMANCE_KEYS + (tuple(US_ACCEL_MPH) if units == "us" else ())
+    out = {key: np.full(size, np.nan) for key in keys}
     for start in range(0, size, step):
         part = ps if step >= size else ps.take(slice(start, start + step))
-        res = performance_summary(part.vehicle())
+        vehicle = part.vehicle()
+        res = performance_summary(vehicle)
         for key in PERFORMANCE_KEYS:
             value = getattr(res, key)
             if value is None:
                 continue
             out[key][start:start + part.size] = np.asarray(value, float)
+        if units == "us":
+            for key, (lo_mph, hi_mph) in US_ACCEL_MPH.items():
+                t, _ = acceleration_time_s(vehicle, lo_mph * _KMH_PER_MPH,
+                                           hi_mph * _KMH_PER_MPH)
+                if t is not None:
+                    out[key][start:start + part.size] = np.asarray(t, float)
     return {k: v for k, v in out.items() if not np.all(np.isnan(v))}
 
 
@@ -687,6 +712,8 @@ def _compare_economics(spec: StudySpec, derived: dict, base: dict, cost) -> None
 # ---------------------------------------------------------------------------
 
 _KM_PER_MI = MILE_M / 1000.0
+#: km/h per mph (exact: 1 mi = 1.609344 km)
+_KMH_PER_MPH = _KM_PER_MI
 
 
 def _to_units(met: dict, units: str) -> dict:
@@ -710,9 +737,27 @@ def _to_units(met: dict, units: str) -> dict:
             out["co2_g_per_mi"] = value * _KM_PER_MI
         elif key == "top_speed_kmh":
             out["top_speed_mph"] = value / _KM_PER_MI
+        elif key in METRIC_ACCEL_KEYS:
+            continue            # US studies give 0-60 and 50-70 mph (US_ACCEL_MPH) instead
         else:
             out[key] = value
     return out
+
+
+def _economics_echo(e, units: str) -> dict:
+    """Annual distance, fuel price and fuel CO2 as used, in the study's units.
+
+    US studies state them per mile and per US gallon (exact factors of
+    :mod:`tractive.units`), whichever unit the study file used.
+    """
+    if units != "us":
+        return {"annual_distance_km": e.annual_distance_km,
+                "fuel_price_per_l": e.fuel_price_per_l,
+                "fuel_co2_g_per_l": e.fuel_co2_g_per_l}
+    per_gal = lambda x: None if x is None else x * US_GALLON_L  # noqa: E731
+    return {"annual_distance_mi": e.annual_distance_km / _KM_PER_MI,
+            "fuel_price_per_gal": per_gal(e.fuel_price_per_l),
+            "fuel_co2_g_per_gal": per_gal(e.fuel_co2_g_per_l)}
 
 
 # ---------------------------------------------------------------------------
@@ -789,7 +834,8 @@ def _attribute(spec, name, groups, base_nominal, var_nominal, profiles, order, o
         pt_values = {k: np.concatenate([m.pt_values[k] for _, m in items])
                      for k in first.pt_values}
         batch = replace(first, params=params, pt_values=pt_values)
-        per_profile, _ = _evaluate(batch, profiles, spec.ambient_temperature_c)
+        per_profile, _ = _evaluate(batch, profiles, spec.ambient_temperature_c,
+                                   units=spec.units)
         for j, (s, _) in enumerate(items):
             one = {p: {k: v[j:j + 1] for k, v in met.items()} for p, met in per_profile.items()}
             derived = _derive(spec, one)

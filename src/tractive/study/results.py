@@ -100,6 +100,8 @@ METRICS: dict[str, MetricInfo] = {m.key: m for m in [
     _m("top_speed_mph", "top speed", "mph", "higher"),
     _m("accel_0_100_kmh_s", "0-100 km/h", "s", "lower"),
     _m("accel_80_120_kmh_s", "80-120 km/h", "s", "lower"),
+    _m("accel_0_60_mph_s", "0-60 mph", "s", "lower"),
+    _m("accel_50_70_mph_s", "50-70 mph", "s", "lower"),
     _m("annual_distance_km", "annual distance", "km"),
     _m("annual_distance_mi", "annual distance", "mi"),
     _m("annual_battery_energy_kwh", "annual battery energy", "kWh", "lower"),
@@ -116,7 +118,8 @@ METRICS: dict[str, MetricInfo] = {m.key: m for m in [
 
 #: metrics that are the same on every profile of a variant (no profile dependence)
 PROFILE_INDEPENDENT = ("top_speed_kmh", "top_speed_mph", "accel_0_100_kmh_s",
-                       "accel_80_120_kmh_s", "modification_cost")
+                       "accel_80_120_kmh_s", "accel_0_60_mph_s", "accel_50_70_mph_s",
+                       "modification_cost")
 
 
 def metric_unit(key: str, currency: str = "") -> str:
@@ -367,7 +370,11 @@ class VariantInfo:
 
 @dataclass(frozen=True)
 class ProfileInfo:
-    """A profile or duty mix as run: distance, duration, and mix shares."""
+    """A profile or duty mix as run: distance, duration, and mix shares.
+
+    ``distance_km`` is kept in km; :meth:`to_dict` and :meth:`distance` state it
+    in the study's ``units`` (``distance_mi`` in US studies, exact mile).
+    """
 
     name: str
     kind: str               # "profile" or "mix"
@@ -375,10 +382,21 @@ class ProfileInfo:
     distance_km: float | None = None
     duration_s: float | None = None
     shares_pct: dict = field(default_factory=dict)
+    units: str = "metric"   # "metric" or "us": unit of the distance in the output
+
+    def distance(self) -> tuple:
+        """(key, value) of the distance in the output units: ``distance_km`` or
+        ``distance_mi`` (None when not known, e.g. for a mix)."""
+        if self.units == "us":
+            from ..units import MILE_M
+            value = None if self.distance_km is None else self.distance_km / (MILE_M / 1000.0)
+            return "distance_mi", value
+        return "distance_km", self.distance_km
 
     def to_dict(self) -> dict:
+        key, value = self.distance()
         out = {"name": self.name, "kind": self.kind, "spec": self.spec,
-               "distance_km": self.distance_km, "duration_s": self.duration_s}
+               key: value, "duration_s": self.duration_s}
         if self.shares_pct:
             out["shares_pct"] = dict(self.shares_pct)
         return out

@@ -686,8 +686,15 @@ def _read_economics(sec: Section, rd: _Reader) -> EconomicsSpec | None:
     if e.has("electricity_co2_g_per_kwh"):
         grid_co2 = rd.num(e, "electricity_co2_g_per_kwh", "economics", "g/kWh", min=0.0)
     loc("electricity_co2_g_per_kwh")
+    if e.has("fuel_co2_g_per_l") and e.has("fuel_co2_g_per_gal"):
+        raise e.error("give fuel_co2_g_per_l or fuel_co2_g_per_gal, not both",
+                      "fuel_co2_g_per_gal")
     fuel_co2 = None
-    if e.has("fuel_co2_g_per_l"):
+    if e.has("fuel_co2_g_per_gal"):
+        from ..units import US_GALLON_L
+        fuel_co2 = rd.num(e, "fuel_co2_g_per_gal", "economics", "g/US gal", min=0.0) \
+            / US_GALLON_L
+    elif e.has("fuel_co2_g_per_l"):
         fuel_co2 = rd.num(e, "fuel_co2_g_per_l", "economics", "g/L", min=0.0)
     loc("fuel_co2_g_per_l")
     rate = rd.num(e, "discount_rate_pct", "economics", "%/year", default=0.0, min=-50.0,
