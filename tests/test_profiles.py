@@ -13,7 +13,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from tractive.errors import InputError
-from tractive.profiles import (EARTH_RADIUS_M, MAX_GRADE_FRACTION, Phase, Profile, concatenate,
+from tractive.profiles import (EARTH_RADIUS_M, MAX_GRADE_FRACTION, PAUSE_RADIUS_M,
+                               STOP_SPEED_MS, Phase, Profile, concatenate,
                                constant_speed, haversine_distance_m, list_cycles, load_cycle,
                                profile_statistics, read_gpx, read_speed_csv, repeat, resample,
                                resolve_profile)
@@ -349,8 +350,13 @@ def test_gpx_time_not_increasing_and_gap(tmp_path):
     lats = 46.0 + 0.0001 * np.arange(5)
     err = _gpx_error(tmp_path, gpx_text(lats, [7.0] * 5, times_s=[0, 1, 2, 2, 3]))
     assert "track point 4" in str(err) and "increase" in str(err) and err.line is not None
-    err = _gpx_error(tmp_path, gpx_text(lats, [7.0] * 5, times_s=[0, 1, 2, 200, 201]))
-    assert "track point 4" in str(err) and "max_gap_s" in str(err)
+    # a 198 s gap across which the position jumps 0.01 degree of latitude = 1112 m
+    # (R * radians(0.01), haversine along a meridian): not a pause, an error
+    jumped = lats + np.array([0, 0, 0, 0.01, 0.01])
+    err = _gpx_error(tmp_path, gpx_text(jumped, [7.0] * 5, times_s=[0, 1, 2, 200, 201]))
+    assert "track point 4" in str(err) and "max_gap_s" in str(err) and err.line is not None
+    assert f"moved {R_M * math.radians(0.0101):.0f} m" in str(err)  # 0.0101 degree step
+    assert "split the track" in str(err)  # the workaround is named
 
 
 @pytest.mark.parametrize("text, words", [
@@ -368,6 +374,217 @@ def test_gpx_malformed(tmp_path, text, words):
 def test_gpx_missing_file(tmp_path):
     with pytest.raises(InputError, match="file not found"):
         read_gpx(tmp_path / "nope.gpx")
+
+
+# GPS noise, edges, pauses, stated speeds
+
+
+def en_to_latlon(east_m, north_m, lat0=46.0, lon0=7.0):
+    """Inverse of the reader's documented east-north map: north = R (phi - phi0), each
+    east step = R cos(phi_mid) (lambda_i - lambda_(i-1))."""
+    phi = math.radians(lat0) + np.asarray(north_m, float) / R_M
+    mid = 0.5 * (phi[1:] + phi[:-1])
+    dlam = np.diff(np.asarray(east_m, float)) / (R_M * np.cos(mid))
+    lam = math.radians(lon0) + np.concatenate([[0.0], np.cumsum(dlam)])
+    return np.degrees(phi), np.degrees(lam)
+
+
+def drive_m(t, a=1.0, v_max=10.0, length_m=600.0):
+    """Distance [m] along a drive from rest to rest: a up to v_max, cruise, -a down to rest
+    (kinematics of constant acceleration: s = a t^2 / 2)."""
+    t_a = v_max / a
+    s_a = 0.5 * a * t_a ** 2
+    t_end = 2 * t_a + (length_m - 2 * s_a) / v_max
+    t = np.clip(np.asarray(t, float), 0.0, t_end)
+    return np.where(t < t_a, 0.5 * a * t ** 2,
+                    np.where(t < t_end - t_a, s_a + v_max * (t - t_a),
+                             length_m - 0.5 * a * (t_end - t) ** 2)), t_end
+
+
+def test_local_east_north_steps_match_the_haversine_distance():
+    from tractive.profiles import _local_east_north_m
+
+    # steps of up to 1 km in every direction: sqrt(de^2 + dn^2) equals the haversine
+    # great-circle distance (Sinnott 1984) to a relative (step / R)^2 ~ 1e-8
+    rng = np.random.default_rng(3)
+    lat = 46.0 + np.cumsum(rng.uniform(-0.009, 0.009, 200))
+    lon = 7.0 + np.cumsum(rng.uniform(-0.013, 0.013, 200))
+    east, north = _local_east_north_m(lat, lon, R_M)
+    ours = np.hypot(np.diff(east), np.diff(north))
+    theirs = haversine_distance_m(lat[:-1], lon[:-1], lat[1:], lon[1:])
+    np.testing.assert_allclose(ours, theirs, rtol=1e-7)
+    # and the test helper inverts it (round trip)
+    back_lat, back_lon = en_to_latlon(east, north, lat[0], lon[0])
+    np.testing.assert_allclose(back_lat, lat, rtol=0, atol=1e-11)
+    np.testing.assert_allclose(back_lon, lon, rtol=0, atol=1e-11)
+
+
+def test_gpx_stop_and_go_with_1_m_noise(tmp_path):
+    # 10 s at rest, a 600 m drive (1 m/s^2 to 36 km/h, cruise, 1 m/s^2 to rest), 60 s stop,
+    # the same drive again, 10 s at rest; Gaussian noise of 1 m standard deviation on the
+    # east and on the north position of every 1 s point (seeded)
+    one, t_drive = drive_m(np.arange(0.0, 71.0))
+    assert t_drive == 70.0
+    t = np.arange(0.0, 10 + 70 + 60 + 70 + 10 + 1)
+    s = np.where(t < 80, drive_m(t - 10)[0], 600.0 + drive_m(t - 140)[0])
+    rng = np.random.default_rng(20240501)
+    east = s + rng.normal(0.0, 1.0, t.size)
+    north = rng.normal(0.0, 1.0, t.size)
+    lat, lon = en_to_latlon(east, north)
+    path = write(tmp_path, "stopgo.gpx", gpx_text(lat, lon))
+    p = read_gpx(path)
+    stats = profile_statistics(p)
+    # distance: the true 1200 m (kinematics) within 1 %
+    assert abs(stats.distance_km * 1000 / 1200.0 - 1) < 0.01
+    # idle: true idle steps 10 + 60 + 10 = 80 of 220; the 11 s window rounds each of the
+    # four corners between rest and 1 m/s^2, where the smoothed speed passes the 0.5 m/s
+    # stop threshold up to 3 samples early or late (model bound), so within 4 x 3 steps
+    idle_steps = round(stats.idle_share * p.duration_s)
+    assert 80 - 12 <= idle_steps <= 80
+    # during the stop, more than a half-window from its ends, the smoothed speed (without
+    # the stop threshold) stays below the stop threshold (model definition)
+    raw = read_gpx(path, stop_speed_ms=0.0)
+    inside = (p.time_s >= 80 + 6) & (p.time_s <= 140 - 6)
+    assert raw.speed_ms[inside].max() < STOP_SPEED_MS
+    assert np.all(p.speed_ms[inside] == 0.0)
+    # the clean track: the same distance to 0.2 % (stated band: the stop threshold drops
+    # the slowest samples of each rounded corner, under 1 m per corner)
+    lat0, lon0 = en_to_latlon(s, np.zeros_like(s))
+    clean = read_gpx(write(tmp_path, "clean.gpx", gpx_text(lat0, lon0)))
+    assert abs(clean.distance_m / 1200.0 - 1) < 0.002
+    assert 80 - 12 <= round(profile_statistics(clean).idle_share * clean.duration_s) <= 80
+
+
+def test_gpx_noise_barely_changes_positive_kinetic_energy(tmp_path):
+    # a 9 km loop (a circle) driven at v = 15 + 5 sin(2 pi t / 60) m/s for 10 periods.
+    # Over whole periods the positive increments of v^2 add up to v_max^2 - v_min^2 =
+    # 400 - 100 m^2/s^2 per period over 15 x 60 m: PKE = 1/3 m/s^2 (calculus identity)
+    t = np.arange(0.0, 601.0)
+    s = 15 * t - 5 * 60 / (2 * math.pi) * (np.cos(2 * math.pi * t / 60) - 1)
+    radius = s[-1] / (2 * math.pi)
+    east, north = radius * np.sin(s / radius), radius * (1 - np.cos(s / radius))
+    lat, lon = en_to_latlon(east, north)
+    clean = profile_statistics(read_gpx(write(tmp_path, "loop.gpx", gpx_text(lat, lon))))
+    # the 11 s window flattens a 60 s swing by a few percent (stated band: 5 %)
+    assert abs(clean.positive_kinetic_energy_m_per_s2 * 3 - 1) < 0.05
+    assert clean.distance_km * 1000 == pytest.approx(s[-1], rel=1e-3)
+    rng = np.random.default_rng(77)
+    lat, lon = en_to_latlon(east + rng.normal(0, 1, t.size), north + rng.normal(0, 1, t.size))
+    noisy = profile_statistics(read_gpx(write(tmp_path, "noisy.gpx", gpx_text(lat, lon))))
+    # 1 m white position noise: PKE within 5 % of the clean track's (stated band)
+    assert abs(noisy.positive_kinetic_energy_m_per_s2
+               / clean.positive_kinetic_energy_m_per_s2 - 1) < 0.05
+    assert abs(noisy.distance_km / clean.distance_km - 1) < 0.005
+
+
+def test_gpx_start_and_end_at_rest_and_joins(tmp_path):
+    # from rest at 1 m/s^2 for 10 s, 10 m/s for 20 s, 1 m/s^2 down to rest: speed is a t
+    # (kinematics), so 0, 1, 2 m/s at 0, 1, 2 s, and mirrored at the end
+    t = np.arange(0.0, 41.0)
+    s, t_end = drive_m(t, length_m=300.0)
+    assert t_end == 40.0
+    lat, lon = en_to_latlon(np.zeros_like(s), s)
+    write(tmp_path, "lap.gpx", gpx_text(lat, lon))
+    p = read_gpx(tmp_path / "lap.gpx")
+    np.testing.assert_allclose(p.speed_ms[:3], [0.0, 1.0, 2.0], rtol=0, atol=1e-6)
+    np.testing.assert_allclose(p.speed_ms[-3:], [2.0, 1.0, 0.0], rtol=0, atol=1e-6)
+    assert p.speed_ms[0] == 0.0 and p.speed_ms[-1] == 0.0
+    # starts and ends at rest on level road: the two laps share the sample at rest
+    two = resolve_profile("lap.gpx*2", base_dir=tmp_path)
+    assert len(two) == 2 * len(p) - 1
+    assert two.distance_m == pytest.approx(2 * p.distance_m, rel=1e-12)
+
+
+def _two_segments(times_a, times_b, north_a, north_b, version="1.1"):
+    def seg(times, north):
+        lat, _ = en_to_latlon(np.zeros_like(north), north)
+        return "".join(
+            f'<trkpt lat="{float(la)!r}" lon="7.0"><time>'
+            f"{(T0 + timedelta(seconds=float(ti))).strftime('%Y-%m-%dT%H:%M:%SZ')}"
+            "</time></trkpt>\n" for la, ti in zip(lat, times))
+    return (f'<?xml version="1.0"?>\n<gpx version="1.1" creator="test" '
+            f'xmlns="http://www.topografix.com/GPX/1/1">\n<trk><trkseg>\n'
+            + seg(times_a, north_a) + "</trkseg>\n<trkseg>\n" + seg(times_b, north_b)
+            + "</trkseg></trk>\n</gpx>\n")
+
+
+def test_gpx_cafe_stop_between_segments_is_standing_still(tmp_path):
+    # two drives of 300 m (kinematics as above) with a 10-minute stop between two
+    # segments; the second starts 3 m from where the first ended (GPS fix after a restart)
+    t = np.arange(0.0, 41.0)
+    s, _ = drive_m(t, length_m=300.0)
+    text = _two_segments(t, t + 40 + 601, s, 303.0 + s)
+    p = read_gpx(write(tmp_path, "cafe.gpx", text))
+    assert PAUSE_RADIUS_M == 50.0
+    assert p.duration_s == 40 + 601 + 40
+    # the pause is standing still: the same profile as a track that logs the stop point
+    # every second for the 601 s, without the 3 m offset (consistency check)
+    still = np.concatenate([s, np.full(600, 300.0), 300.0 + s])
+    times = np.concatenate([t, 40 + np.arange(1.0, 601.0), t + 40 + 601])
+    lat, lon = en_to_latlon(np.zeros_like(still), still)
+    ref = read_gpx(write(tmp_path, "still.gpx", gpx_text(lat, lon, times_s=times)))
+    np.testing.assert_allclose(p.speed_ms, ref.speed_ms, rtol=0, atol=1e-9)
+    # speed 0 more than a half-window (5 s) from the ends of the stop; the distance is the
+    # two drives (2 x 300 m, kinematics) less the rounding of the corner from 1 m/s^2 to
+    # cruise at the two ends of the file (about a h^2 / 8 = 3.1 m each for h = 5 s, model
+    # bound) and the stop threshold (under 1 m per corner)
+    assert np.all(p.speed_ms[46:636] == 0.0)
+    assert 600.0 - 2 * 3.2 - 4 * 1.0 <= p.distance_m <= 600.0
+    idle = profile_statistics(p).idle_share
+    assert idle * p.duration_s >= 601 - 2 * 3
+    # the same gap with a 2 km move across it is an error naming point, line and workaround
+    text = _two_segments(t, t + 40 + 601, s, 2300.0 + s)
+    err = _gpx_error(tmp_path, text)
+    line = [i + 1 for i, ln in enumerate(text.splitlines()) if "<trkpt" in ln][41]
+    assert "track point 42" in str(err) and err.line == line
+    assert "max_gap_s" in str(err) and "split the track" in str(err)
+    # the workaround: a larger max_gap_s interpolates straight across the gap
+    assert read_gpx(tmp_path / "bad.gpx", max_gap_s=700).distance_m > 2500
+
+
+def test_gpx_stated_point_speeds_are_used_when_every_point_has_one(tmp_path):
+    # GPX 1.0 <speed> [m/s] on every point: the profile is numpy.interp of those speeds
+    speeds = [0.0, 2.0, 5.0, 7.5, 7.5, 3.0, 0.0]
+    times = [0, 2, 4, 6, 8, 9, 12]
+    pts = "".join(
+        f'<trkpt lat="{46 + 0.0001 * i!r}" lon="7.0"><time>'
+        f"{(T0 + timedelta(seconds=ti)).strftime('%Y-%m-%dT%H:%M:%SZ')}</time>"
+        f"<speed>{v!r}</speed></trkpt>\n" for i, (ti, v) in enumerate(zip(times, speeds)))
+    text = ('<?xml version="1.0"?>\n<gpx version="1.0" creator="test" '
+            'xmlns="http://www.topografix.com/GPX/1/0"><trk><trkseg>\n' + pts
+            + "</trkseg></trk></gpx>\n")
+    p = read_gpx(write(tmp_path, "speeds.gpx", text), stop_speed_ms=0.0)
+    np.testing.assert_allclose(p.speed_ms, np.interp(np.arange(13.0), times, speeds),
+                               rtol=1e-12)
+    # the same in a GPX 1.1 extension (any namespace)
+    ext = text.replace('version="1.0"', 'version="1.1"').replace(
+        "GPX/1/0", "GPX/1/1").replace("<speed>", "<extensions><x:TrackPointExtension "
+                                      'xmlns:x="urn:test"><x:speed>').replace(
+        "</speed>", "</x:speed></x:TrackPointExtension></extensions>")
+    q = read_gpx(write(tmp_path, "ext.gpx", ext), stop_speed_ms=0.0)
+    np.testing.assert_allclose(q.speed_ms, p.speed_ms, rtol=1e-15)
+    # one point without a speed: speed from the positions instead (steps of R radians(1e-4))
+    partial = text.replace("<speed>7.5</speed>", "", 1)
+    r = read_gpx(write(tmp_path, "partial.gpx", partial), use_elevation=False)
+    assert not np.allclose(r.speed_ms, p.speed_ms)
+    assert r.distance_m == pytest.approx(6 * R_M * math.radians(0.0001), rel=0.05)
+    bad = text.replace("<speed>5.0</speed>", "<speed>-1</speed>")
+    err = _gpx_error(tmp_path, bad)
+    assert "track point 3" in str(err) and "speed" in str(err) and err.line == 5  # 3rd <trkpt> line
+
+
+def test_steady_errors_name_the_profile_text():
+    with pytest.raises(InputError) as info:
+        resolve_profile("steady:90kmh:0s")
+    assert "'steady:90kmh:0s'" in str(info.value) and "duration" in str(info.value)
+    with pytest.raises(InputError) as info:
+        resolve_profile("udds+steady:90kmh:0.5s")
+    assert "'steady:90kmh:0.5s'" in str(info.value)
+
+
+def test_csv_gap_message_names_the_workaround(tmp_path):
+    err = _csv_error(tmp_path, "time_s,speed_kmh\n0,0\n1,0\n700,0\n")
+    assert err.line == 4 and "max_gap_s" in str(err) and "speed 0" in str(err)
 
 
 # ---------------------------------------------------------------------------

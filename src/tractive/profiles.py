@@ -150,7 +150,7 @@ from .units import kmh_to_ms, mph_to_ms
 
 __all__ = [
     "EARTH_RADIUS_M", "IDLE_SPEED_MS", "GRADE_WINDOW_M", "MAX_GRADE_FRACTION",
-    "SPEED_WINDOW_S", "STOP_SPEED_MS", "MAX_REPEAT", "MAX_USER_SPEED_KMH",
+    "SPEED_WINDOW_S", "STOP_SPEED_MS", "PAUSE_RADIUS_M", "MAX_REPEAT", "MAX_USER_SPEED_KMH",
     "MAX_USER_ACCEL_MS2", "BUNDLED_STEP_S",
     "Phase", "Profile", "CycleInfo", "ProfileStats",
     "list_cycles", "cycle_info", "load_cycle", "read_speed_csv", "read_gpx",
@@ -167,7 +167,10 @@ GRADE_WINDOW_M = 100.0
 #: default limit on |grade| computed from elevation [-] (common practice)
 MAX_GRADE_FRACTION = 0.30
 #: default window for GPS speed smoothing [s]
-SPEED_WINDOW_S = 5.0
+SPEED_WINDOW_S = 11.0
+#: default largest displacement across a long time gap in a GPS track for the gap to
+#: count as standing still [m] (a car park; a design choice)
+PAUSE_RADIUS_M = 50.0
 #: default speed below which a GPS track counts as standing still [m/s]
 STOP_SPEED_MS = 0.5
 #: largest repetition count accepted by :func:`repeat` and ``A*n``
@@ -655,16 +658,54 @@ def _grade_from_elevation(distance_m: np.ndarray, elevation_m: np.ndarray, windo
     return np.clip(np.interp(s, grid, slope), -max_grade, max_grade)
 
 
-def _smoothed_rate(values: np.ndarray, dt_s: float, window_s: float) -> np.ndarray:
-    """Least-squares slope over a centred window of ``window_s`` (Savitzky-Golay order 1)."""
+def _window_samples(window_s: float, dt_s: float, n: int) -> int:
+    """Odd number of samples nearest to ``window_s / dt_s``, at least 3, at most ``n``."""
+    w = 2 * int(math.floor((window_s / dt_s - 1.0) / 2.0 + 0.5)) + 1
+    w = max(w, 3)
+    return min(w, n if n % 2 else n - 1)
+
+
+def _smoothed_velocity(values: np.ndarray, dt_s: float, window_s: float) -> np.ndarray:
+    """Rate of change [unit/s] of uniformly sampled positions, smoothed over ``window_s``.
+
+    Savitzky-Golay first derivative of a local quadratic [1]_: inside the
+    trace it is the least-squares slope over a centred window (a quadratic
+    and a straight line have the same slope at the centre of a symmetric
+    window); in the first and last half-window it is the slope, at each
+    sample, of the quadratic fitted to the first or last whole window, so a
+    trace that starts from rest at constant acceleration gets 0, a dt, 2 a dt.
+    """
     from scipy.signal import savgol_filter
 
     n = len(values)
-    w = 2 * int(round(window_s / dt_s / 2.0)) + 1
-    w = min(w, n if n % 2 else n - 1)
-    if w >= 3:
-        return savgol_filter(values, w, 1, deriv=1, delta=dt_s, mode="interp")
-    return np.gradient(values, dt_s)
+    if n < 2:
+        return np.zeros(n)
+    if n == 2:
+        return np.full(2, (values[1] - values[0]) / dt_s)
+    w = _window_samples(window_s, dt_s, n)
+    return savgol_filter(values, w, 2, deriv=1, delta=dt_s, mode="interp")
+
+
+def _local_east_north_m(lat_deg: np.ndarray, lon_deg: np.ndarray,
+                        radius_m: float) -> tuple[np.ndarray, np.ndarray]:
+    """East and north [m] of each point from the first one, on the sphere of ``radius_m``.
+
+    North is R (phi - phi_0). East is the sum over the steps between
+    successive points of R cos(phi_mid) (lambda_i - lambda_(i-1)), the
+    east-west part of each step on the plane tangent at its middle latitude
+    (longitude steps are taken across the antimeridian the short way). Each
+    step's length sqrt(de² + dn²) is its great-circle length to within a
+    relative (step/R)², so steps of seconds are exact to far below a
+    millimetre; over a long track the east-north map drifts from any map
+    projection, which does not matter because only the steps are used.
+    """
+    phi = np.radians(np.asarray(lat_deg, float))
+    lam = np.radians(np.asarray(lon_deg, float))
+    dlam = (np.diff(lam) + math.pi) % (2.0 * math.pi) - math.pi
+    mid = 0.5 * (phi[1:] + phi[:-1])
+    east = np.concatenate([[0.0], np.cumsum(radius_m * np.cos(mid) * dlam)])
+    north = radius_m * (phi - phi[0])
+    return east, north
 
 
 # ---------------------------------------------------------------------------
@@ -834,7 +875,10 @@ def read_speed_csv(path, dt_s: float = 1.0, max_gap_s: float = 60.0, *,
     if gaps.size:
         i = gaps[0] + 1
         raise InputError(f"time gap of {steps[i - 1]:g} s before this row is longer than "
-                         f"max_gap_s = {max_gap_s:g} s", file=file, field="time_s", line=lines[i])
+                         f"max_gap_s = {max_gap_s:g} s: the speed in between is unknown; if "
+                         "the vehicle stood still, add rows at speed 0 across the gap, or pass "
+                         "a larger max_gap_s to read_speed_csv to interpolate straight across "
+                         "it", file=file, field="time_s", line=lines[i])
     span = t[-1] - t[0]
     if span < dt_s * (1 - 1e-9):
         raise InputError(f"the rows span {span:g} s, less than one time step dt_s = {dt_s:g} s",
@@ -884,8 +928,28 @@ def _tag_lines(text: str, tag: str) -> list[int]:
     return (np.searchsorted(newlines, np.array(starts, dtype=np.int64)) + 1).tolist()
 
 
+def _point_speed_ms(point) -> float | None:
+    """The speed a GPS point states [m/s]: GPX 1.0 ``<speed>`` or a ``speed`` element
+    (any namespace, at any depth) in its ``<extensions>``; None when it states none."""
+    speed = getattr(point, "speed", None)
+    if speed is not None:
+        return float(speed)
+    stack = list(getattr(point, "extensions", None) or [])
+    while stack:
+        el = stack.pop(0)
+        tag = str(getattr(el, "tag", ""))
+        if tag.rsplit("}", 1)[-1].lower() == "speed" and (el.text or "").strip():
+            try:
+                return float(el.text)
+            except ValueError:
+                return math.nan
+        stack.extend(list(el))
+    return None
+
+
 def read_gpx(path, dt_s: float = 1.0, *, speed_window_s: float = SPEED_WINDOW_S,
              stop_speed_ms: float = STOP_SPEED_MS, max_gap_s: float = 60.0,
+             pause_radius_m: float = PAUSE_RADIUS_M, use_point_speed: bool = True,
              use_elevation: bool = True, grade_window_m: float = GRADE_WINDOW_M,
              max_grade_fraction: float = MAX_GRADE_FRACTION,
              radius_m: float = EARTH_RADIUS_M, name: str | None = None) -> Profile:
@@ -898,12 +962,20 @@ def read_gpx(path, dt_s: float = 1.0, *, speed_window_s: float = SPEED_WINDOW_S,
     dt_s : float
         Time step [s] of the returned profile.
     speed_window_s : float
-        Width of the centred least-squares window for speed [s].
+        Width of the centred smoothing window for speed from positions [s].
     stop_speed_ms : float
         Speeds below this [m/s] are set to 0 (GPS jitter at standstill);
         0 keeps every speed.
     max_gap_s : float
-        Longest time between successive points [s]; longer is an error.
+        Longest time between successive points [s] that is bridged by
+        interpolation. A longer gap is a pause (standing still) when the
+        position across it moved at most ``pause_radius_m``, else an error.
+    pause_radius_m : float
+        Largest distance [m] between the points on either side of a gap
+        longer than ``max_gap_s`` for the gap to count as standing still.
+    use_point_speed : bool
+        Take the speed the points state (GPX 1.0 ``<speed>`` or a ``speed``
+        extension) when every point states one, instead of the positions.
     use_elevation : bool
         Compute grade from the points' elevation (else level road).
     grade_window_m : float
@@ -911,7 +983,7 @@ def read_gpx(path, dt_s: float = 1.0, *, speed_window_s: float = SPEED_WINDOW_S,
     max_grade_fraction : float
         Limit on |grade| from elevation [-].
     radius_m : float
-        Earth radius for the haversine distance [m].
+        Earth radius for distances [m].
     name : str, optional
         Profile name (default: the file name).
 
@@ -925,7 +997,9 @@ def read_gpx(path, dt_s: float = 1.0, *, speed_window_s: float = SPEED_WINDOW_S,
     ------
     InputError
         Unreadable or malformed file, no points, a point without time (its
-        number and line), time not increasing or a gap over ``max_gap_s``.
+        number and line), time not increasing, a gap over ``max_gap_s``
+        across which the position moved more than ``pause_radius_m``, a
+        position jump faster than :data:`MAX_USER_SPEED_KMH`.
 
     References
     ----------
@@ -944,9 +1018,9 @@ def read_gpx(path, dt_s: float = 1.0, *, speed_window_s: float = SPEED_WINDOW_S,
     grade_window_m = _positive(grade_window_m, "grade_window_m")
     max_grade_fraction = _positive(max_grade_fraction, "max_grade_fraction")
     radius_m = _positive(radius_m, "radius_m")
-    if not (math.isfinite(float(stop_speed_ms)) and float(stop_speed_ms) >= 0):
-        raise InputError(f"must be a finite number >= 0, got {stop_speed_ms!r}",
-                         field="stop_speed_ms")
+    for value, what in ((stop_speed_ms, "stop_speed_ms"), (pause_radius_m, "pause_radius_m")):
+        if not (math.isfinite(float(value)) and float(value) >= 0):
+            raise InputError(f"must be a finite number >= 0, got {value!r}", field=what)
     text = _read_text(path, "GPX")
     try:
         gpx = gpxpy.parse(text)
@@ -990,30 +1064,75 @@ def read_gpx(path, dt_s: float = 1.0, *, speed_window_s: float = SPEED_WINDOW_S,
         i = back[0] + 1
         raise point_error(i, f"time must increase from point to point: {times[i]} follows "
                              f"{times[i - 1]}")
-    gaps = np.flatnonzero(steps > max_gap_s)
-    if gaps.size:
-        i = gaps[0] + 1
-        raise point_error(i, f"time gap of {steps[i - 1]:g} s before this point is longer than "
-                             f"max_gap_s = {max_gap_s:g} s")
     if t[-1] < dt_s * (1 - 1e-9):
         raise InputError(f"the track spans {t[-1]:g} s, less than one time step "
                          f"dt_s = {dt_s:g} s", file=file)
 
     step_m = haversine_distance_m(lat[:-1], lon[:-1], lat[1:], lon[1:], radius_m)
-    dist_m = np.concatenate([[0.0], np.cumsum(step_m)])
+    max_ms = MAX_USER_SPEED_KMH / 3.6
+    # a step between two points faster than any road vehicle (over at least 1 s, so that
+    # the metre-scale noise of loggers that record many times a second does not count)
+    leap = np.flatnonzero(step_m > max_ms * np.maximum(steps, 1.0))
+    if leap.size:
+        i = leap[0] + 1
+        raise point_error(i, f"the position moves {step_m[i - 1]:.0f} m within "
+                             f"{steps[i - 1]:g} s of the previous point "
+                             f"({step_m[i - 1] / steps[i - 1] * 3.6:.0f} km/h), above the "
+                             f"{MAX_USER_SPEED_KMH:g} km/h no road vehicle exceeds; a position "
+                             "jump? check the coordinates of this point")
+    long_gap = np.flatnonzero(steps > max_gap_s)
+    moved = long_gap[step_m[long_gap] > pause_radius_m]
+    if moved.size:
+        i = moved[0] + 1
+        raise point_error(i, f"time gap of {steps[i - 1]:g} s before this point is longer than "
+                             f"max_gap_s = {max_gap_s:g} s, and the position moved "
+                             f"{step_m[i - 1]:.0f} m across it (more than pause_radius_m = "
+                             f"{pause_radius_m:g} m, so not a pause): the speed in between "
+                             "is unknown; split the track here, or pass a larger max_gap_s "
+                             "to read_gpx to interpolate straight across the gap")
+
+    stated = None
+    if use_point_speed:
+        stated = [_point_speed_ms(p) for p in points]
+        if any(v is None for v in stated):
+            stated = None
+        else:
+            stated = np.array(stated, dtype=float)
+            bad = np.flatnonzero(~np.isfinite(stated) | (stated < 0))
+            if bad.size:
+                raise point_error(int(bad[0]), "its <speed> must be a finite number >= 0 "
+                                               "[m/s]")
+
+    # a pause holds the position: the small move across it is taken out (the points after
+    # it shift by that offset), so the vehicle stands where it stopped for the whole gap
     grid = _uniform_grid(t[-1], dt_s)
-    s = np.interp(grid, t, dist_m)
-    speed = np.clip(_smoothed_rate(s, dt_s, speed_window_s), 0.0, None)
+    paused = np.zeros_like(grid, dtype=bool)
+    for i in long_gap:
+        paused |= (grid > t[i]) & (grid < t[i + 1])
+    if stated is not None:
+        speed = np.interp(grid, t, stated)
+        speed[paused] = 0.0
+    else:
+        east, north = _local_east_north_m(lat, lon, radius_m)
+        d_east, d_north = np.diff(east), np.diff(north)
+        d_east[long_gap] = 0.0
+        d_north[long_gap] = 0.0
+        east = np.concatenate([[0.0], np.cumsum(d_east)])
+        north = np.concatenate([[0.0], np.cumsum(d_north)])
+        vx = _smoothed_velocity(np.interp(grid, t, east), dt_s, speed_window_s)
+        vy = _smoothed_velocity(np.interp(grid, t, north), dt_s, speed_window_s)
+        speed = np.hypot(vx, vy)
     speed[speed < stop_speed_ms] = 0.0
 
     def nearest_point(time_s):
         return int(np.clip(np.searchsorted(t, time_s), 0, len(t) - 1))
 
+    what = "the speed the points state" if stated is not None else "the speed from the positions"
     fast = np.flatnonzero(speed * 3.6 > MAX_USER_SPEED_KMH)
     if fast.size:
         j = fast[0]
         raise point_error(nearest_point(grid[j]),
-                          f"the speed from the positions reaches {speed[j] * 3.6:.0f} km/h "
+                          f"{what} reaches {speed[j] * 3.6:.0f} km/h "
                           f"near {grid[j]:g} s, above the {MAX_USER_SPEED_KMH:g} km/h no road "
                           "vehicle exceeds; a position jump? check the coordinates near "
                           "this point")
@@ -1026,6 +1145,7 @@ def read_gpx(path, dt_s: float = 1.0, *, speed_window_s: float = SPEED_WINDOW_S,
 
     has_ele = np.isfinite(ele)
     if use_elevation and np.count_nonzero(has_ele) >= 2:
+        s = np.concatenate([[0.0], np.cumsum(0.5 * (speed[1:] + speed[:-1]) * dt_s)])
         z = np.interp(grid, t[has_ele], ele[has_ele])
         grade = _grade_from_elevation(s, z, grade_window_m, max_grade_fraction)
     else:
@@ -1318,7 +1438,11 @@ def _resolve_atom(text: str, quoted: bool, base_dir, dt_s: float) -> Profile:
         duration = 3600.0
         if m["dur"] is not None:
             duration = float(m["dur"]) * _DURATION_S[m["dunit"].lower()]
-        return constant_speed(speed, duration_s=duration, dt_s=dt_s, name=atom)
+        try:
+            return constant_speed(speed, duration_s=duration, dt_s=dt_s, name=atom)
+        except InputError as err:
+            field = f"{err.field}: " if err.field else ""
+            raise InputError(f"'{atom}': {field}{err.message}") from None
     cycle = atom.partition(":")[0].strip().lower()
     if cycle not in _cycle_names():
         raise _unknown_cycle(atom.partition(":")[0].strip(),
