@@ -90,18 +90,55 @@ GPS tracks
 ----------
 :func:`read_gpx` reads GPX 1.0/1.1 files with gpxpy: all track points of all
 tracks and segments in file order, or all route points when there is no
-track. Every point needs a time. The horizontal distance between successive
-points is the haversine great-circle distance on a sphere of radius
-:data:`EARTH_RADIUS_M` [2]_ [3]_. Cumulative distance is interpolated onto the
-uniform time grid, and speed is the slope of a least-squares straight line
-through the distance samples in a centred window of ``speed_window_s``
-(default 5 s; the odd number of samples nearest to ``speed_window_s/dt_s``, at
-least 3): a first-derivative Savitzky-Golay filter of order 1 [1]_, which
-never gives a negative speed from non-decreasing distance. Speeds below
-``stop_speed_ms`` (default 0.5 m/s = 1.8 km/h) are set to 0, as GPS position
-jitter reads as slow motion when the vehicle stands still. Grade comes from
-the points' elevation as described above (zero when the track has no
-elevation).
+track. Every point needs a time.
+
+Speed from positions. Each point becomes east and north metres from the first
+point: north = R (phi - phi_0), and each step east = R cos(phi_mid)
+(lambda_i - lambda_(i-1)), on the sphere of radius :data:`EARTH_RADIUS_M`
+[3]_; a step's length sqrt(de² + dn²) is its haversine great-circle length
+[2]_ to within a relative (step/R)². East and north are linearly interpolated
+onto the uniform time grid, and each is differentiated with a Savitzky-Golay
+filter [1]_ over a centred window of ``speed_window_s`` (default 11 s; the
+odd number of samples nearest to ``speed_window_s/dt_s``, at least 3): inside
+the track the least-squares slope of the position over the window; in the
+first and last half-window the slope, at each sample, of a quadratic fitted
+to the first or last whole window, so a track that starts from rest at
+constant acceleration reads 0, a dt, 2 a dt. Speed is the magnitude of that
+velocity, and distance is its integral (the trapezoid rule of every profile),
+so position noise no longer adds up: with 1 m of white noise on east and north
+at 1 s, the least-squares slope over 11 s has a standard deviation of about
+0.1 m/s on each axis. Speeds below ``stop_speed_ms`` (default 0.5 m/s = 1.8
+km/h) are set to 0 (what remains of the jitter when the vehicle stands still).
+The smoothing rounds each corner of the speed trace over the window: a
+change from rest to an acceleration is spread over the window, and
+at a track's first or last point, where the rounding has no counterpart, a
+track that starts or ends in motion within a half-window of its end is about
+a h²/8 short (3 m for a = 1 m/s² and h = 5 s, the half-window); inside the
+track the gains and losses of the corners cancel.
+
+Stated speeds. When every point states a speed (GPX 1.0 ``<speed>``, or an
+element named ``speed`` in any namespace inside its ``<extensions>``, as
+several loggers write the receiver's Doppler speed) [m/s], those speeds are
+linearly interpolated onto the grid instead, without smoothing (Doppler speed
+has no position jitter), and the stop threshold applies; distance is their
+integral. ``use_point_speed=False`` uses the positions anyway.
+
+Gaps and pauses. Successive points up to ``max_gap_s`` apart (default 60 s),
+in one segment or across segments, are interpolated. A longer gap is a pause
+when the points on either side of it are at most ``pause_radius_m`` apart
+(default 50 m, a car park; haversine distance): the vehicle stands still for
+the whole gap (its time is kept, the small move across it is dropped), which
+is the honest reading of a café stop or an auto-paused logger for energy
+(auxiliary loads keep running in a traffic jam) and idle share; split the
+file where the vehicle was switched off and auxiliary power should not count.
+A longer gap across which the position moved further is an error naming the
+point and its line (the speed in between is unknown); pass a larger
+``max_gap_s`` to interpolate straight across it, or split the file. A step
+between successive points faster than :data:`MAX_USER_SPEED_KMH` (over at
+least 1 s) is refused as a position jump.
+
+Grade comes from the points' elevation as described above, along the
+distance of the speed trace (zero when the track has no elevation).
 
 Statistics
 ----------
