@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 from scipy import integrate
 
-from tractive.demand import interval_kinematics, wheel_demand
+from tractive.demand import wheel_demand
 from tractive.roadload import RoadLoad
 
 F0, F1, F2 = 130.0, 0.40, 0.032          # N, N/(km/h), N/(km/h)² (invented example)

@@ -109,7 +109,7 @@ def vehicle_from_section(sec: Section, *, name_default: str | None = None) -> Ve
     mass_std_kg = sec.number("mass_std_kg", required=False, default=0.0, min=0.0, unit="kg")
     rmf = sec.number("rotating_mass_fraction", required=False,
                      default=DEFAULT_ROTATING_MASS_FRACTION, min=0.0, max=1.0)
-    road_load = parse_road_load(sec.section("road_load"), mass_kg=mass_kg)
+    road_load = parse_road_load(sec.section("road_load"))
     powertrain = None
     if sec.has("powertrain"):
         from .powertrain import parse_powertrain
@@ -125,7 +125,7 @@ def vehicle_from_section(sec: Section, *, name_default: str | None = None) -> Ve
                    extras={"mass_std_kg": mass_std_kg} if mass_std_kg else {})
 
 
-def parse_road_load(sec: Section, *, mass_kg: float | None = None):
+def parse_road_load(sec: Section):
     """Parse a ``road_load`` block in exactly one of its three forms."""
     if sec.has("from_coastdown"):
         return _parse_from_coastdown(sec)
