@@ -690,6 +690,7 @@ def _profile_sheets(wb, result, st, taken):
     for s in result.series:
         by_profile.setdefault(s.profile, []).append(s)
     vorder = {v: i for i, v in enumerate(_variant_order(result))}
+    v_unit, v_of = _series_speed(result)
     made = []
     for p in _profile_order(result):
         series = sorted(by_profile.get(p, []), key=lambda s: vorder.get(s.variant, 1e9))
@@ -699,7 +700,6 @@ def _profile_sheets(wb, result, st, taken):
         taken.append(title)
         ws = wb.create_sheet(title)
         first = series[0]
-        v_unit, v_of = _series_speed(result)
         shared = all(np.array_equal(np.asarray(s.time_s), np.asarray(first.time_s)) and
                      np.array_equal(np.asarray(s.speed_kmh), np.asarray(first.speed_kmh))
                      for s in series)
@@ -1035,7 +1035,7 @@ def _range_sheet(wb, result, st):
     """Range and consumption against constant speed, from ``result.range_curves``."""
     from openpyxl.utils import get_column_letter
 
-    curves = list(getattr(result, "range_curves", ()) or ())
+    curves = list(result.range_curves)
     if not curves:
         return None
     ws = wb.create_sheet("Range vs speed")
@@ -1051,7 +1051,7 @@ def _range_sheet(wb, result, st):
     _header(ws, h2, 1, f"constant speed [{sp_unit}]", st)
     _write_column(ws, r0, 1, speeds, number_format(sp_unit))
     col = 2
-    refs = []
+    value_cols = []          # first column (range) of each variant
     for c in curves:
         c_key = c.consumption_key
         c_label, c_unit = _CONSUMPTION_LABELS.get(c_key, (c_key.replace("_", " "), ""))
@@ -1068,7 +1068,7 @@ def _range_sheet(wb, result, st):
             ok = j is not None and feasible[j]
             _put(ws, r0 + i, col, rng[j] if ok else None, number_format(r_unit))
             _put(ws, r0 + i, col + 1, per[j] if ok else None, number_format(c_unit))
-        refs.append((c.variant, col))
+        value_cols.append(col)
         col += 2
     last = col - 1
     r1 = r0 + len(speeds) - 1
@@ -1096,7 +1096,7 @@ def _range_sheet(wb, result, st):
                  tc + 3: 13})
     chart = _scatter("Range against constant speed", f"speed [{sp_unit}]",
                      f"range [{r_unit}]")
-    for n, c in refs:
+    for c in value_cols:
         chart.series.append(_line_series(ws, 1, c, r0, r1, f"${get_column_letter(c)}${h1}"))
     _colour(chart)
     chart.x_axis.scaling.min = 0.0

@@ -266,13 +266,7 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
 
     econ = {}
     if spec.economics is not None:
-        e = spec.economics
-        econ = _economics_echo(e, spec.units)
-        econ.update({"electricity_price_per_kwh": e.electricity_price_per_kwh,
-                     "charging_efficiency": e.charging_efficiency,
-                     "electricity_co2_g_per_kwh": e.electricity_co2_g_per_kwh,
-                     "discount_rate_pct": e.discount_rate * 100.0,
-                     "service_life_years": e.service_life_years, "currency": spec.currency})
+        econ = _economics_echo(spec.economics, spec.units, spec.currency)
     unc = {"draws": n, "seed": seed, "confidence_pct": spec.confidence_pct,
            "uncertain_parameters": sorted(set(uncertain)),
            "method": "Monte Carlo (JCGM 101:2008), common random numbers across variants"}
@@ -465,11 +459,14 @@ def _evaluate_chunk(ps, profiles, ambient_temperature_c=None) -> tuple:
                 consume_kw["ambient_temperature_c"] = ambient_temperature_c
         except (TypeError, ValueError):
             pass
+
+    def full(x):
+        return np.broadcast_to(np.asarray(x, float), (size,)).copy()
+
     for name, prof in profiles:
         d = wheel_demand(rl, mass, inertial, prof.time_s, prof.speed_ms, prof.grade_fraction,
                          profile=name)
         km = d.distance_m / 1000.0
-        full = lambda x: np.broadcast_to(np.asarray(x, float), (size,)).copy()  # noqa: E731
         met = {"distance_km": full(km),
                "positive_energy_kwh": full(d.positive_energy_j / KWH_J),
                "negative_energy_kwh": full(d.negative_energy_j / KWH_J)}
@@ -552,8 +549,7 @@ def _note_wheel_power(name, ps, demands: dict, warnings) -> None:
 
     vehicle = ps.vehicle(0)
     for profile, d in demands.items():
-        force = np.asarray(d.force_n)
-        force = force[0] if force.ndim == 2 else force
+        force = _nominal_force_n(d)
         iv = d.intervals
         speed = np.asarray(iv.speed_ms, float)
         avail = available_wheel_force_n(vehicle, speed, iv.sin_grade)
@@ -629,13 +625,10 @@ def _mix(per_profile: dict, shares_pct: dict) -> dict:
     """Duty-mix metrics from per-profile metrics (distance-weighted, see module doc)."""
     members = [per_profile[k] for k in shares_pct]
     weights = [v / 100.0 for v in shares_pct.values()]
-    keys = set(members[0])
-    for m in members[1:]:
-        keys &= set(m)
     out = {}
     for key in members[0]:
-        if key not in keys:
-            continue
+        if not all(key in m for m in members[1:]):
+            continue                # not computed on every profile of the mix
         if key.endswith("_per_km") or key.endswith("_per_100km"):
             out[key] = sum(w * m[key] for w, m in zip(weights, members))
         elif key == "range_km":
@@ -744,20 +737,29 @@ def _to_units(met: dict, units: str) -> dict:
     return out
 
 
-def _economics_echo(e, units: str) -> dict:
-    """Annual distance, fuel price and fuel CO2 as used, in the study's units.
+def _economics_echo(e, units: str, currency: str) -> dict:
+    """The economics inputs as used, for the result's ``economics``.
 
-    US studies state them per mile and per US gallon (exact factors of
-    :mod:`tractive.units`), whichever unit the study file used.
+    Annual distance, fuel price and fuel CO2 are in the study's units: US
+    studies state them per mile and per US gallon (exact factors of
+    :mod:`tractive.units`), whichever unit the study file used. Electricity
+    price and CO2 are per kWh, the discount rate in percent.
     """
     if units != "us":
-        return {"annual_distance_km": e.annual_distance_km,
-                "fuel_price_per_l": e.fuel_price_per_l,
-                "fuel_co2_g_per_l": e.fuel_co2_g_per_l}
-    per_gal = lambda x: None if x is None else x * US_GALLON_L  # noqa: E731
-    return {"annual_distance_mi": e.annual_distance_km / _KM_PER_MI,
-            "fuel_price_per_gal": per_gal(e.fuel_price_per_l),
-            "fuel_co2_g_per_gal": per_gal(e.fuel_co2_g_per_l)}
+        out = {"annual_distance_km": e.annual_distance_km,
+               "fuel_price_per_l": e.fuel_price_per_l,
+               "fuel_co2_g_per_l": e.fuel_co2_g_per_l}
+    else:
+        per_gal = lambda x: None if x is None else x * US_GALLON_L  # noqa: E731
+        out = {"annual_distance_mi": e.annual_distance_km / _KM_PER_MI,
+               "fuel_price_per_gal": per_gal(e.fuel_price_per_l),
+               "fuel_co2_g_per_gal": per_gal(e.fuel_co2_g_per_l)}
+    out.update({"electricity_price_per_kwh": e.electricity_price_per_kwh,
+                "charging_efficiency": e.charging_efficiency,
+                "electricity_co2_g_per_kwh": e.electricity_co2_g_per_kwh,
+                "discount_rate_pct": e.discount_rate * 100.0,
+                "service_life_years": e.service_life_years, "currency": currency})
+    return out
 
 
 # ---------------------------------------------------------------------------
@@ -783,10 +785,11 @@ def _row(name, role, profile, kind, met, base, n, conf) -> ResultRow:
         if role == BASELINE or key in COMPARATIVE or key not in base:
             continue
         b = np.asarray(base[key], float)
-        if metrics[key] is None or _nominal(b) is None:
+        b0 = _nominal(b)
+        if metrics[key] is None or b0 is None:
             continue
-        change[key] = metrics[key] - _nominal(b)
-        change_pct[key] = 100.0 * change[key] / _nominal(b) if _nominal(b) != 0 else None
+        change[key] = metrics[key] - b0
+        change_pct[key] = 100.0 * change[key] / b0 if b0 != 0 else None
         diff = arr - b
         d_samples = diff[1:] if n > 0 else np.array([change[key]])
         c_mean[key], c_low[key], c_high[key] = interval(d_samples, conf)
@@ -917,9 +920,14 @@ def _range_curve(name, ps, spec) -> RangeCurveSeries:
 # time series
 # ---------------------------------------------------------------------------
 
-def _series(name, profile, prof, d) -> TimeSeries:
+def _nominal_force_n(d) -> np.ndarray:
+    """Wheel force [N] per interval of the nominal vehicle (index 0) of a wheel demand."""
     force = np.asarray(d.force_n)
-    force = force[0] if force.ndim == 2 else force
+    return force[0] if force.ndim == 2 else force
+
+
+def _series(name, profile, prof, d) -> TimeSeries:
+    force = _nominal_force_n(d)
     iv = d.intervals
     positive = np.where(force > 0, force * iv.distance_m, 0.0)
     return TimeSeries(variant=name, profile=profile, time_s=np.asarray(prof.time_s[1:], float),

@@ -181,16 +181,14 @@ class ResultRow:
         out = {"variant": self.variant, "role": self.role, "profile": self.profile,
                "profile_kind": self.profile_kind}
         out.update(self.metrics)
-        out["change"] = dict(self.change)
-        out["change_pct"] = dict(self.change_pct)
-        out["mean"] = dict(self.mean)
-        out["interval_low"] = dict(self.interval_low)
-        out["interval_high"] = dict(self.interval_high)
-        out["change_mean"] = dict(self.change_mean)
-        out["change_low"] = dict(self.change_low)
-        out["change_high"] = dict(self.change_high)
-        out["distinguishable"] = dict(self.distinguishable)
+        for name in _ROW_DICTS:
+            out[name] = dict(getattr(self, name))
         return out
+
+
+#: the per-metric dicts of a ResultRow besides ``metrics``, in output order
+_ROW_DICTS = ("change", "change_pct", "mean", "interval_low", "interval_high", "change_mean",
+              "change_low", "change_high", "distinguishable")
 
 
 @dataclass(frozen=True)
