@@ -4,8 +4,8 @@ Wheel force available in gear g at speed v [m/s]:
 
 * engine: F = T_fl(ω)·i_g·i_fd·η / r with ω = v·i_g·i_fd / r between the
   lowest speed of the full-load curve and the rev limit; in first gear below
-  the launch speed the clutch slips and the engine holds the launch speed
-  (F = T_fl(ω_launch)·i_1·i_fd·η / r);
+  the launch speed the clutch slips and the engine holds the launch speed,
+  unless it gives more torque in gear (F = max(T_fl(ω), T_fl(ω_launch))·i_1·i_fd·η / r);
 * motor: F = T_max(ω)·i·η / r with the constant-torque / constant-power
   envelope, zero above the motor speed limit.
 

@@ -8,12 +8,12 @@ import click
 import numpy as np
 
 from ..coastdown import analyze_coastdown, plot_coastdown, two_interval_estimate
-from ..coastdown.output import write_road_load
 from ..coastdown.corrections import REFERENCES
 from ..coastdown.fitting import COMBINES, METHODS
-from ..coastdown.output import PLOT_SUFFIXES, ROAD_LOAD_SUFFIXES
+from ..coastdown.output import PLOT_SUFFIXES, ROAD_LOAD_SUFFIXES, write_road_load
 from ..errors import InputError
 from ..report.common import check_target
+from ..units import KMH_MS
 from . import cli
 from ._checks import Number, ranged
 from ._output import emit_json, fmt, table
@@ -243,7 +243,7 @@ def _print_text(result, data):
         click.echo(f"steady wind along the road {fit.wind_ms:.2f} ± {fit.wind_std_ms:.2f} m/s "
                    f"against direction {dir_a}; slope {100 * fit.grade:.3f} ± "
                    f"{100 * fit.grade_std:.3f} % uphill in direction {dir_a}")
-    rms = (f"{fit.residual_rms / (1 / 3.6):.3f} km/h" if result.method == "speed-time"
+    rms = (f"{fit.residual_rms / KMH_MS:.3f} km/h" if result.method == "speed-time"
            else f"{fit.residual_rms:.1f} N")
     click.echo(f"fit: R² {fit.r_squared:.6f}, residual rms {rms}")
     click.echo(f"agreement of runs within their noise: chi2 {fit.homogeneity_chi2:.1f} with "

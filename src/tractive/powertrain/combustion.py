@@ -300,7 +300,8 @@ class CombustionResult:
     @property
     def tank_to_wheel_efficiency(self):
         """Positive wheel energy / fuel energy (lower heating value) [-]."""
-        return safe_divide(np.asarray(self.positive_wheel_energy_kwh) * 3.6, self.fuel_energy_mj)
+        return safe_divide(np.asarray(self.positive_wheel_energy_kwh) * (KWH_J / 1e6),
+                           self.fuel_energy_mj)
 
     @property
     def store_used(self):

@@ -41,8 +41,8 @@ class RangeCurve:
     speed_kmh : (S,) array
     range_km : (S,) array
     columns : dict
-        Further (S,) columns: ``battery_wh_per_km`` (and ``wall_wh_per_km``) for
-        electric; ``fuel_l_per_100km``, ``fuel_kg_per_100km``, ``co2_g_per_km``,
+        Further (S,) columns: ``battery_wh_per_km``, ``power_kw`` (battery power)
+        (and ``wall_wh_per_km``) for electric; ``fuel_l_per_100km``, ``fuel_kg_per_100km``, ``co2_g_per_km``,
         ``gear``, ``engine_speed_rpm`` for combustion.
     feasible : (S,) bool array
         False where the motor or engine cannot hold the speed, or above a

@@ -34,11 +34,6 @@ RPM_RADS = 2.0 * math.pi / 60.0
 """One revolution per minute in rad/s (exact)."""
 
 
-def rpm_to_rads(speed_rpm):
-    """Shaft speed [rpm] → [rad/s]."""
-    return np.asarray(speed_rpm, float) * RPM_RADS
-
-
 def rads_to_rpm(speed_rads):
     """Shaft speed [rad/s] → [rpm]."""
     return np.asarray(speed_rads, float) / RPM_RADS
@@ -73,16 +68,6 @@ class Gearing:
     def overall_ratios(self) -> np.ndarray:
         """Total ratio shaft-to-wheel of every gear [-]."""
         return np.asarray(self.gear_ratios, float) * self.final_drive_ratio
-
-    def shaft_speed_rads(self, speed_ms):
-        """Shaft speed [rad/s] in every gear, shape (G,) + shape of ``speed_ms`` [m/s]."""
-        v = np.asarray(speed_ms, float)
-        ratios = self.overall_ratios.reshape((-1,) + (1,) * v.ndim)
-        return v * ratios / self.tyre_radius_m
-
-    def speed_at_shaft_ms(self, shaft_rads):
-        """Vehicle speed [m/s] in every gear (G,) at shaft speed [rad/s]."""
-        return float(shaft_rads) * self.tyre_radius_m / self.overall_ratios
 
     def to_dict(self) -> dict:
         return {"gear_ratios": list(self.gear_ratios), "final_drive_ratio": self.final_drive_ratio,

@@ -43,7 +43,7 @@ import numpy as np
 from ..spec import Section
 from ..units import KMH_MS, KWH_J
 from ._common import STANDSTILL_MS, col, plain, range_from, safe_divide
-from .drive import Gearing, MotorEnvelope, parse_motor, rads_to_rpm
+from .drive import MotorEnvelope, parse_motor, rads_to_rpm
 from .maps import SpeedTorqueMap, parse_speed_torque_map
 
 
@@ -96,6 +96,7 @@ class ElectricResult:
     wall_energy_kwh : energy from the wall to recharge it [kWh] (None without a
         charging efficiency)
     usable_battery_kwh : usable battery energy [kWh]
+    auxiliary_power_kw : auxiliary power drawn over the whole profile [kW]
     motor_limit_exceeded_s : time the profile asks more than the motor's peak
         envelope [s] (None when no motor is given)
     """
@@ -205,15 +206,6 @@ class ElectricPowertrain:
     charger_efficiency: object = None
 
     kind = "electric"
-
-    # -- data for the performance model -------------------------------------
-    def gearing(self) -> Gearing | None:
-        """Single-reduction gearing (None when ratio or radius is missing)."""
-        if self.gear_ratio is None or self.tyre_radius_m is None:
-            return None
-        eff = self.gear_efficiency
-        return Gearing((float(self.gear_ratio),), 1.0, float(self.tyre_radius_m),
-                       None if eff is None else float(eff))
 
     # -- pieces of the model ------------------------------------------------
     def auxiliary_power(self, ambient_temperature_c=None):
