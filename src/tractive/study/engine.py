@@ -202,6 +202,7 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
                              file=spec.file, field=f"{c.field}.modifications", line=c.line)
         ps, _ = _build_variant(spec, members, base_mc, z_base, z_changes, n, warnings,
                                c.name)
+        warnings += _override_notes(c.name, members)
         costs = [m.cost for m in members]
         cost = None if any(x is None for x in costs) else float(sum(costs))
         variants.append((c.name, COMBINATION, ps, cost, tuple(c.members), _describe(members)))
@@ -288,13 +289,43 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
 # ---------------------------------------------------------------------------
 
 def _describe(members) -> tuple:
+    """The changes of a variant in the order they are applied.
+
+    A whole-vehicle member is applied first, wherever it is listed; then every
+    member's changes in the order listed (those of the whole-vehicle member too).
+    """
     out = []
     for m in members:
-        prefix = f"{m.name}: " if len(members) > 1 else ""
         if m.vehicle is not None:
+            prefix = f"{m.name}: " if len(members) > 1 else ""
             out.append(f"{prefix}vehicle {m.vehicle.name} ({m.vehicle.source or 'inline'})")
+    for m in members:
+        prefix = f"{m.name}: " if len(members) > 1 else ""
         out += [prefix + ch.describe() for ch in m.changes]
     return tuple(out)
+
+
+def _override_notes(label, members) -> list:
+    """Warnings for a combination in which a new value replaces another member's change.
+
+    An absolute value (``mass_kg: 1600``, ``crr: 0.007``) or a tyre label (a new
+    Crr) wipes out what an earlier member did to the same value: that member's
+    change has no effect in the combination, although its cost is counted.
+    """
+    notes = []
+    last = {}
+    for m in members:
+        for ch in m.changes:
+            if ch.mode == "add" and ch.value == 0.0:
+                continue        # a lone standard uncertainty: no change of the value
+            key = "crr" if ch.key == "tyre_label" else ch.key
+            earlier = last.get(key)
+            if ch.mode == "set" and earlier is not None and earlier[0] != m.name:
+                notes.append(f"combination '{label}': {ch.key} {ch.text} of '{m.name}' "
+                             f"replaces {earlier[1]} of '{earlier[0]}' made before it; "
+                             f"that change has no effect in the combination")
+            last[key] = (m.name, f"{ch.key} {ch.text}")
+    return notes
 
 
 def _build_variant(spec, members, base_mc, z_base, z_changes, n, warnings, label):

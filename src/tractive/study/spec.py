@@ -205,7 +205,7 @@ def _raw_scalars(path: Path) -> dict:
     return out
 
 
-_NUMBER = r"[0-9]*\.?[0-9]+(?:[eE][-+]?[0-9]+)?"
+_NUMBER = r"(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][-+]?[0-9]+)?"
 _PCT_RE = re.compile(rf"^\s*([-+])\s*({_NUMBER})\s*%\s*$")
 _SIGNED_RE = re.compile(rf"^\s*([-+])\s*({_NUMBER})\s*$")
 
@@ -508,6 +508,11 @@ def _read_changes(sec: Section, rd: _Reader, section: str, own_values: bool = Fa
             elif m_sign:
                 amount = float(m_sign.group(2)) * (-1.0 if m_sign.group(1) == "-" else 1.0)
                 mode, val, text = "add", amount, f"{amount:+g}"
+            elif isinstance(value, (int, float)) and raw.lstrip()[:1] in ("+", "-"):
+                # a signed number in another YAML spelling (+1_000, +0x10): the sign
+                # written makes it a signed amount; YAML has already applied it
+                amount = float(value)
+                mode, val, text = "add", amount, f"{amount:+g}"
             elif isinstance(value, (int, float)):
                 mode, val, text = "set", float(value), f"{float(value):g}"
             else:
@@ -623,8 +628,10 @@ def _read_driving(sec: Section, rd: _Reader):
             raise m.error("list the profiles and their distance shares", "shares_pct")
         total = sum(shares.values())
         if abs(total - 100.0) > 1e-6:
-            raise m.error(f"shares must add up to 100 %, they add up to {total:g} %",
-                          "shares_pct")
+            # no rounding tolerance: shares that add up to 99.99 % would silently
+            # weight the mix differently from what is written
+            raise m.error(f"shares must add up to 100 %, they add up to {total:.10g} %; "
+                          "round one share so that they do (33.33 + 66.67)", "shares_pct")
         profile_names = [p.name for p in profiles]
         for key in shares:
             if key not in profile_names:
