@@ -133,7 +133,7 @@ writes a road_load block with its covariance for a vehicle or study file.
               help="Least speed drop a run must cover in the window [km/h]. Accepted: above "
                    "0 and at most HIGH − LOW of the window.")
 @click.option("--max-gap-s", type=GAP, default=None,
-              help=ranged("Longest gap allowed inside a run [s] (default max(2 s, 2.5 "
+              help=ranged("Longest gap allowed inside a run [s] (default max(4.5 s, 2.5 "
                           "samples)).", GAP))
 @click.option("--keep", type=int, multiple=True, metavar="N",
               help="Use run N despite its rejection (repeatable).")

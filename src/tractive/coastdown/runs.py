@@ -72,7 +72,10 @@ class DetectionSettings:
         Least speed drop [km/h] a run must cover inside the window.
     max_gap_s : float or None
         Longest gap between samples [s] a run may contain; None means
-        max(2 s, 2.5 sample periods).
+        max(4.5 s, 2.5 sample periods): a 1 Hz phone log that misses up to
+        three fixes (a 4 s gap, plus timing jitter) keeps its run (the
+        speed-time fit needs no uniform sampling, and a brake touch hidden in
+        such a gap still shows as excess deceleration across it).
     decel_min_ms2 : float
         Deceleration [m/s²] above which the vehicle counts as slowing down.
     detect_window_s : float
@@ -374,12 +377,12 @@ def _judge(seg, run_id, log, clean, ref, thr, scan, s: DetectionSettings) -> Run
                      f"{dev / KMH_MS:+.1f} km/h off its neighbours)")
     if not reason and len(sel) > 1:
         gaps = np.diff(log.time_s[sel])
-        max_gap = s.max_gap_s if s.max_gap_s is not None else max(2.0, 2.5 * dt0)
+        max_gap = s.max_gap_s if s.max_gap_s is not None else max(4.5, 2.5 * dt0)
         big = np.flatnonzero(gaps > max_gap)
         if big.size:
             i = big[0]
             reason = (f"dropout: no data for {gaps[i]:.1f} s at {log.time_s[sel[i]]:.1f} s "
-                      f"(longest gap allowed {max_gap:g} s)")
+                      f"(longest gap allowed {max_gap:.3g} s)")
             problem = "dropout"
     span = gv[0] - gv[1]
     if not reason and (span < s.min_span_kmh or len(sel) < 10):
