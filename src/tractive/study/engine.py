@@ -919,7 +919,7 @@ def _range_curve(name, ps, spec) -> RangeCurveSeries:
     from ..powertrain import range_curve
 
     us = spec.units == "us"
-    speeds_kmh = np.asarray(RANGE_SPEEDS_MPH) * (MPH_MS / KMH_MS) if us \
+    speeds_kmh = np.asarray(RANGE_SPEEDS_MPH) * _KMH_PER_MPH if us \
         else np.asarray(RANGE_SPEEDS_KMH)
     vehicle = ps.vehicle(0)
     curve = range_curve(vehicle, speeds_kmh, ambient_temperature_c=spec.ambient_temperature_c)
