@@ -25,22 +25,8 @@ from tractive.report.xlsx import build_workbook, sheet_title, write_workbook
 from tractive.study import METRICS, run_study
 from tractive.study.results import ResultRow, StudyResult
 from tractive.vehicle import load_vehicle
+from study_vehicles import DIESEL, EV
 
-EV = """\
-name: Test EV
-mass_kg: 1800
-road_load:
-  cda_m2: 0.60
-  crr: 0.009
-  crr_std: 0.0006
-  cda_std_m2: 0.02
-powertrain:
-  kind: electric
-  battery_usable_kwh: 60
-  drive_efficiency: 0.88
-  charger_efficiency: 0.9
-  auxiliary_power_kw: 0.3
-"""
 
 #: variant and profile names a spreadsheet would take for formulas
 HYPER = '=HYPERLINK("http://example.invalid","open")'
@@ -387,31 +373,6 @@ def test_range_sheet_comes_from_the_result_alone(tmp_path):
         np.testing.assert_array_equal(rng[ok], np.array(curve["range_km"])[ok])
         np.testing.assert_array_equal(per[ok], np.array(curve["battery_wh_per_km"])[ok])
         assert np.all(np.isnan(rng[~ok]))
-
-
-DIESEL = """\
-name: small diesel
-mass_kg: 1500
-road_load:
-  cda_m2: 0.65
-  crr: 0.009
-powertrain:
-  kind: combustion
-  fuel: diesel
-  tank_l: 50
-  gear_ratios: [3.8, 2.1, 1.3, 0.95, 0.75]
-  final_drive_ratio: 3.7
-  tyre_radius_m: 0.31
-  transmission_efficiency: 0.93
-  idle_speed_rpm: 800
-  rev_limit_rpm: 4500
-  upshift_speeds_kmh: [18, 32, 50, 70]
-  willans:
-    marginal_efficiency: 0.40
-    friction_mep_kpa: 120
-    displacement_l: 1.6
-  idle_fuel_l_per_h: 0.6
-"""
 
 
 def test_range_sheet_of_a_combustion_study(tmp_path):

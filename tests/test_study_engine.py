@@ -17,22 +17,8 @@ from tractive.study import engine
 from tractive.study.attribution import one_at_a_time, shapley_values, subsets
 from tractive.study.engine import run_study
 from tractive.units import KMH_MS, MILE_M, STANDARD_GRAVITY_MS2, US_GALLON_L
+from study_vehicles import DIESEL, EV
 
-EV = """\
-name: Test EV
-mass_kg: 1800
-road_load:
-  cda_m2: 0.60
-  crr: 0.009
-  crr_std: 0.0006
-  cda_std_m2: 0.02
-powertrain:
-  kind: electric
-  battery_usable_kwh: 60
-  drive_efficiency: 0.88
-  charger_efficiency: 0.9
-  auxiliary_power_kw: 0.3
-"""
 
 EV_STUDY = """\
 name: ev study
@@ -435,31 +421,6 @@ def test_range_curves_in_us_units(tmp_path):
                                60.0, rtol=1e-12)
     assert c.best["best_speed_mph"] == pytest.approx(ref.best_speed_kmh / 1.609344, rel=1e-12)
     assert set(c.to_dict()) >= {"speed_mph", "range_mi", "best_range_mi", "feasible"}
-
-
-DIESEL = """\
-name: small diesel
-mass_kg: 1500
-road_load:
-  cda_m2: 0.65
-  crr: 0.009
-powertrain:
-  kind: combustion
-  fuel: diesel
-  tank_l: 50
-  gear_ratios: [3.8, 2.1, 1.3, 0.95, 0.75]
-  final_drive_ratio: 3.7
-  tyre_radius_m: 0.31
-  transmission_efficiency: 0.93
-  idle_speed_rpm: 800
-  rev_limit_rpm: 4500
-  upshift_speeds_kmh: [18, 32, 50, 70]
-  willans:
-    marginal_efficiency: 0.40
-    friction_mep_kpa: 120
-    displacement_l: 1.6
-  idle_fuel_l_per_h: 0.6
-"""
 
 
 def test_range_curves_of_a_combustion_vehicle(tmp_path):
