@@ -48,6 +48,17 @@ from .units import KWH_J, STANDARD_GRAVITY_MS2
 COMPONENTS = ("rolling", "aero", "inertia", "grade")
 
 
+def inertial_mass_kg(mass_kg, rotating_mass_fraction):
+    """Mass for acceleration [kg] = mass_kg × (1 + rotating_mass_fraction).
+
+    The rotating parts (wheels, driveline) store kinetic energy as if the
+    vehicle were heavier by their equivalent mass, stated as a fraction of the
+    test mass (UN GTR No. 15 Annex 4 uses 3 % of the test mass when it is not
+    measured; from memory). Scalars or arrays of any matching shape.
+    """
+    return mass_kg * (1.0 + rotating_mass_fraction)
+
+
 @dataclass(frozen=True)
 class Intervals:
     """Kinematics of the T-1 intervals of a sampled trace (GTR 15 Annex 7).

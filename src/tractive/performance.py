@@ -84,6 +84,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from .demand import inertial_mass_kg
 from .errors import InputError
 from .powertrain.drive import (RPM_RADS, FullLoadCurve, Gearing, MotorEnvelope, parse_full_load,
                                parse_gear_ratios, parse_motor)
@@ -493,7 +494,7 @@ def _model(vehicle) -> _Model:
                share=c("driven_axle_load_share"), df_share=c("downforce_driven_share"), hl=hl,
                shift_s=c("shift_time_s"), governor_kmh=c("governor_kmh"),
                grade_speed_kmh=c("gradeability_speed_kmh"), mass_kg=mass,
-               inertial_mass_kg=mass * (1.0 + c("rotating_mass_fraction")),
+               inertial_mass_kg=inertial_mass_kg(mass, c("rotating_mass_fraction")),
                f0=c("road_load.f0_n"), f1=c("road_load.f1_n_per_ms"),
                f2_aero=c("road_load.f2_aero_n_per_ms2"),
                f2_rolling=c("road_load.f2_rolling_n_per_ms2"),

@@ -19,7 +19,9 @@ from typing import Any
 import numpy as np
 
 from .atmosphere import ambient_air
+from .demand import inertial_mass_kg
 from .errors import InputError
+from .limits import MAX_MASS_KG
 from .roadload import (DEFAULT_FRONTAL_AREA_FACTOR, CoefficientRoadLoad, PhysicalRoadLoad,
                        RoadLoad, frontal_area_m2)
 from .spec import Section, load_section
@@ -66,7 +68,7 @@ class Vehicle:
     @property
     def inertial_mass_kg(self) -> float:
         """Mass for acceleration [kg] = mass_kg × (1 + rotating_mass_fraction)."""
-        return self.mass_kg * (1.0 + self.rotating_mass_fraction)
+        return inertial_mass_kg(self.mass_kg, self.rotating_mass_fraction)
 
     def resistance(self) -> RoadLoad:
         """The level-road resistance in SI coefficients."""
@@ -103,7 +105,7 @@ def vehicle_from_section(sec: Section, *, name_default: str | None = None) -> Ve
     """Build a :class:`Vehicle` from a mapping (a file's top level or an inline block)."""
     name = sec.string("name", required=name_default is None, default=name_default)
     mass_kg = sec.number("mass_kg", min=0.0, min_inclusive=False, unit="kg")
-    if mass_kg > 100000:
+    if mass_kg > MAX_MASS_KG:
         raise sec.error(f"{mass_kg:g} kg is not a plausible road-vehicle mass; is the unit kg?",
                         "mass_kg")
     mass_std_kg = sec.number("mass_std_kg", required=False, default=0.0, min=0.0, unit="kg")

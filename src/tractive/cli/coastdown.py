@@ -12,6 +12,7 @@ from ..coastdown.corrections import REFERENCES
 from ..coastdown.fitting import COMBINES, METHODS
 from ..coastdown.output import PLOT_SUFFIXES, ROAD_LOAD_SUFFIXES, write_road_load
 from ..errors import InputError
+from ..limits import MAX_MASS_KG
 from ..report.common import check_target
 from ..units import KMH_MS
 from . import cli
@@ -27,8 +28,8 @@ and the track's rules."""
 
 
 #: checked numeric options (finite, physical ranges)
-MASS = Number(0.0, 100000.0, low_open=True, unit="kg")
-MASS_STD = Number(0.0, 100000.0, unit="kg")
+MASS = Number(0.0, MAX_MASS_KG, low_open=True, unit="kg")
+MASS_STD = Number(0.0, MAX_MASS_KG, unit="kg")
 ROTATING = Number(0.0, 1.0, unit="")
 AREA = Number(0.0, 30.0, low_open=True, unit="m²")
 WINDOW_SPEED = Number(0.0, 400.0, unit="km/h")

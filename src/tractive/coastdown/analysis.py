@@ -19,7 +19,9 @@ from typing import Sequence
 
 import numpy as np
 
+from ..demand import inertial_mass_kg
 from ..errors import InputError
+from ..limits import MAX_MASS_KG
 from ..units import KMH_MS, STANDARD_GRAVITY_MS2
 from .corrections import REFERENCES, correction_factors
 from .fitting import COMBINES, METHODS, FitOutcome, FitRun, fit_runs
@@ -343,7 +345,7 @@ def analyze_coastdown(logs: Sequence, *, mass_kg: float,
     """
     if not logs:
         raise InputError("give at least one log", field="logs")
-    if not (mass_kg > 0) or mass_kg > 100000:
+    if not (mass_kg > 0) or mass_kg > MAX_MASS_KG:
         raise InputError(f"must be a plausible vehicle mass in kg, got {mass_kg:g}",
                          field="mass_kg")
     if not (0.0 <= rotating_mass_fraction <= 1.0):
@@ -428,7 +430,7 @@ def analyze_coastdown(logs: Sequence, *, mass_kg: float,
                      "are averaged, not removed")
     if combine == "none" and len({r.group for r in used}) < 2:
         notes.append("one direction only: a steady wind or a road slope stays in the result")
-    inertial = mass_kg * (1.0 + rotating_mass_fraction)
+    inertial = inertial_mass_kg(mass_kg, rotating_mass_fraction)
     fit_runs_in, extra = [], {}
     for r in used:
         log = logs[r.log_index]

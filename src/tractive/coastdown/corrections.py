@@ -38,73 +38,15 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
 
-from ..atmosphere import (J2263_REFERENCE_PRESSURE_PA, J2263_REFERENCE_TEMPERATURE_C,
-                          ZERO_CELSIUS_K, air_density_kg_m3)
+from ..atmosphere import REFERENCE_STATES, ZERO_CELSIUS_K, ReferenceState, air_density_kg_m3  # noqa: F401
 from ..errors import InputError
 
-#: UN GTR No. 15 Annex 4 reference temperature [°C] (from memory)
-GTR15_REFERENCE_TEMPERATURE_C = 20.0
-#: UN GTR No. 15 Annex 4 reference temperature in its K2 factor [K] (from memory)
-GTR15_REFERENCE_TEMPERATURE_K = 293.0
-#: UN GTR No. 15 Annex 4 reference pressure [Pa] (from memory)
-GTR15_REFERENCE_PRESSURE_PA = 100000.0
-#: UN GTR No. 15 Annex 4 rolling-resistance temperature factor K0 [1/K] (from memory)
-GTR15_ROLLING_FACTOR_PER_K = 8.6e-3
 #: accepted range of the rolling correction factor 1 + K0·(T − T_ref) [-]: a linear
 #: correction that changes f0 by half or more is no longer a correction (common practice)
 ROLLING_CORRECTION_LIMITS = (0.5, 1.5)
 
-
-@dataclass(frozen=True)
-class ReferenceState:
-    """A standard's reference conditions for road load.
-
-    Attributes
-    ----------
-    key, standard : str
-        Short key and the standard's name.
-    temperature_c : float
-        Reference air temperature [°C] for the rolling terms.
-    temperature_k : float
-        Reference temperature [K] in the aerodynamic factor.
-    pressure_pa : float
-        Reference air pressure [Pa].
-    rolling_factor_per_k : float or None
-        K0 [1/K]; None when the standard's rolling correction is not applied.
-    basis : str
-        Where the values come from.
-    """
-
-    key: str
-    standard: str
-    temperature_c: float
-    temperature_k: float
-    pressure_pa: float
-    rolling_factor_per_k: float | None
-    basis: str
-
-    @property
-    def air_density_kg_m3(self) -> float:
-        """Reference dry-air density [kg/m³] (ideal gas)."""
-        return float(air_density_kg_m3(self.temperature_k - ZERO_CELSIUS_K, self.pressure_pa))
-
-
-REFERENCE_STATES = {
-    "gtr15": ReferenceState("gtr15", "UN GTR No. 15 Annex 4", GTR15_REFERENCE_TEMPERATURE_C,
-                            GTR15_REFERENCE_TEMPERATURE_K, GTR15_REFERENCE_PRESSURE_PA,
-                            GTR15_ROLLING_FACTOR_PER_K,
-                            "20 °C, 100 kPa, K0 = 8.6e-3/K (values from memory of the "
-                            "regulation)"),
-    "j2263": ReferenceState("j2263", "SAE J2263", J2263_REFERENCE_TEMPERATURE_C,
-                            J2263_REFERENCE_TEMPERATURE_C + ZERO_CELSIUS_K,
-                            J2263_REFERENCE_PRESSURE_PA, None,
-                            "20 °C, 98.21 kPa (SAE J2263, 40 CFR 1066.805); rolling terms "
-                            "not temperature-corrected"),
-}
 REFERENCES = tuple(REFERENCE_STATES) + ("none",)
 
 

@@ -38,13 +38,14 @@ from scipy.optimize import brentq
 
 from ..errors import InputError
 from ..units import KMH_MS, STANDARD_GRAVITY_MS2
+from ..demand import inertial_mass_kg
+from ..limits import MAX_MASS_KG, MAX_TEST_SPEED_KMH
 from .motion import coast_time_s
 
 _F2_MS_TO_KMH = KMH_MS ** 2   # N/(m/s)² → N/(km/h)²
 #: accepted inputs: test mass [kg], speeds [km/h], coast times [s], air density [kg/m³]
 #: (air at -60 °C and 110 kPa is about 1.8 kg/m³, at 6 km altitude about 0.66)
-MAX_MASS_KG = 100000.0
-MAX_SPEED_KMH = 400.0
+MAX_SPEED_KMH = MAX_TEST_SPEED_KMH
 MAX_TIME_S = 3600.0
 AIR_DENSITY_RANGE_KG_M3 = (0.5, 2.0)
 
@@ -175,7 +176,7 @@ def two_interval_estimate(*, mass_kg, high_kmh, high_time_s, low_kmh, low_time_s
     if v1 * v2 <= v3 * v4:
         raise InputError("the high interval must lie at higher speeds than the low one",
                          field="high_kmh")
-    m = mass_kg * (1.0 + rotating_mass_fraction)
+    m = inertial_mass_kg(mass_kg, rotating_mass_fraction)
     ratio = high_time_s / low_time_s
 
     def ratio_at(x):  # x = B/A [1/(m/s)²]; A = 1

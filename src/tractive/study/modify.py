@@ -89,9 +89,10 @@ from typing import Any
 
 import numpy as np
 
-from ..atmosphere import (J2263_REFERENCE_PRESSURE_PA, J2263_REFERENCE_TEMPERATURE_C,
-                          ZERO_CELSIUS_K, air_density_kg_m3)
+from ..atmosphere import REFERENCE_STATES
+from ..demand import inertial_mass_kg
 from ..errors import InputError
+from ..limits import MAX_MASS_KG
 from ..roadload import CoefficientRoadLoad, PhysicalRoadLoad, RoadLoad
 from ..spec import Section
 from ..units import KMH_MS, STANDARD_GRAVITY_MS2
@@ -121,7 +122,7 @@ TARGETS_COEFFICIENT = ("mass_kg", "rotating_mass_fraction", "f0_n", "f1_n_per_km
                        "f2_n_per_kmh2", "cda_m2", "crr", "crr_per_kmh")
 
 #: plausible ranges of changed values (a change outside is a mistake)
-_LIMITS = {"mass_kg": (1e-6, 100000.0), "rotating_mass_fraction": (0.0, 1.0),
+_LIMITS = {"mass_kg": (1e-6, MAX_MASS_KG), "rotating_mass_fraction": (0.0, 1.0),
            "cda_m2": (1e-6, 30.0), "crr": (0.0, 0.1), "crr_per_kmh": (0.0, 1e-3),
            "cla_m2": (-5.0, 20.0), "f0_n": (0.0, 1e6), "f2_n_per_kmh2": (1e-9, 1e3)}
 
@@ -403,7 +404,7 @@ class ParamSet:
         return self.params["mass_kg"]
 
     def inertial_mass_kg(self):
-        return self.params["mass_kg"] * (1.0 + self.params["rotating_mass_fraction"])
+        return inertial_mass_kg(self.params["mass_kg"], self.params["rotating_mass_fraction"])
 
     def coefficients(self):
         """Effective f0 [N], f1 [N/(km/h)], f2 [N/(km/h)²] of a coefficient set.
@@ -468,21 +469,14 @@ class ParamSet:
                        performance=self.performance)
 
 
-#: UN GTR No. 15 Annex 4 road-load reference state: 293 K, 100 kPa (from memory; the
-#: coast-down corrections use the same values)
-GTR15_REFERENCE_TEMPERATURE_K = 293.0
-GTR15_REFERENCE_PRESSURE_PA = 100000.0
-
-
 def gtr15_air_density_kg_m3() -> float:
     """Dry-air density [kg/m³] at the UN GTR No. 15 reference state (293 K, 100 kPa)."""
-    return float(air_density_kg_m3(GTR15_REFERENCE_TEMPERATURE_K - ZERO_CELSIUS_K,
-                                   GTR15_REFERENCE_PRESSURE_PA))
+    return REFERENCE_STATES["gtr15"].air_density_kg_m3
 
 
 def j2263_air_density_kg_m3() -> float:
     """Dry-air density [kg/m³] at the SAE J2263 reference state (20 °C, 98.21 kPa)."""
-    return float(air_density_kg_m3(J2263_REFERENCE_TEMPERATURE_C, J2263_REFERENCE_PRESSURE_PA))
+    return REFERENCE_STATES["j2263"].air_density_kg_m3
 
 
 def reference_air_density(rl) -> tuple:

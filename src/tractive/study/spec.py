@@ -29,6 +29,7 @@ import yaml
 
 from ..atmosphere import ambient_air
 from ..errors import InputError
+from ..limits import MAX_DRAWS
 from ..spec import Section, load_section, read_yaml
 from ..vehicle import Vehicle, load_vehicle, vehicle_from_section
 from ..roadload import CoefficientRoadLoad
@@ -41,8 +42,6 @@ DEFAULT_DRAWS = 2000
 DEFAULT_SEED = 20240601
 #: confidence level of the reported intervals when the study does not say [%]
 DEFAULT_CONFIDENCE_PCT = 95.0
-#: most Monte Carlo draws a study (or the command line) may ask for
-MAX_DRAWS = 200000
 
 
 @dataclass(frozen=True)
