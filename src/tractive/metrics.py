@@ -94,8 +94,10 @@ class USForm:
     ----------
     key, unit, label : str
         The US key (with its unit suffix), unit text and label.
-    factor : float
-        US value = metric value × factor (ignored when ``convert`` is given).
+    factor, divisor : float
+        US value = metric value × factor / divisor (ignored when ``convert`` is
+        given); a conversion states the exact factor it is defined by (km per
+        mile, litres per gallon) on the side where it belongs.
     convert : callable, optional
         US value = convert(metric value), for conversions that are no factor
         (an economy from a consumption).
@@ -110,6 +112,7 @@ class USForm:
     unit: str
     label: str = ""
     factor: float = 1.0
+    divisor: float = 1.0
     convert: Callable | None = None
     better: str | None = None
     kind: str | None = None
@@ -118,8 +121,9 @@ class USForm:
         """The US value of a metric value (arrays keep their shape)."""
         if self.convert is not None:
             return self.convert(value)
-        return np.asarray(value, float) * self.factor if isinstance(value, np.ndarray) \
-            else value * self.factor
+        if self.divisor != 1.0:
+            return value / self.divisor
+        return value * self.factor
 
 
 @dataclass(frozen=True)
@@ -182,7 +186,7 @@ def _per_mi(key: str, label: str) -> USForm:
 #: every metric in report order (metric system; US forms inside)
 METRICS: tuple[Metric, ...] = (
     _m("distance_km", "distance", "km", TOTAL,
-       us=USForm("distance_mi", "mi", "distance", factor=1.0 / KM_PER_MI)),
+       us=USForm("distance_mi", "mi", "distance", divisor=KM_PER_MI)),
     _m("positive_energy_kwh", "wheel energy (traction)", "kWh", TOTAL, "lower"),
     _m("negative_energy_kwh", "braking energy", "kWh", TOTAL, "lower"),
     _m("rolling_energy_kwh", "wheel energy: rolling", "kWh", TOTAL, "lower"),
@@ -192,6 +196,8 @@ METRICS: tuple[Metric, ...] = (
     _m("positive_energy_wh_per_km", "wheel energy per km", "Wh/km", PER_DISTANCE, "lower",
        _per_mi("positive_energy_wh_per_mi", "wheel energy per mile"), attributed=True,
        headline=True),
+    _m("negative_energy_wh_per_km", "braking energy per km", "Wh/km", PER_DISTANCE, "lower",
+       _per_mi("negative_energy_wh_per_mi", "braking energy per mile")),
     _m("rolling_energy_wh_per_km", "rolling per km", "Wh/km", PER_DISTANCE, "lower",
        _per_mi("rolling_energy_wh_per_mi", "rolling per mile"), attributed=True),
     _m("aero_energy_wh_per_km", "aero per km", "Wh/km", PER_DISTANCE, "lower",
@@ -207,19 +213,23 @@ METRICS: tuple[Metric, ...] = (
     _m("wall_wh_per_km", "energy from the wall per km", "Wh/km", PER_DISTANCE, "lower",
        _per_mi("wall_wh_per_mi", "energy from the wall per mile")),
     _m("fuel_l", "fuel", "L", TOTAL, "lower",
-       us=USForm("fuel_gal", "US gal", "fuel", factor=1.0 / US_GALLON_L)),
+       us=USForm("fuel_gal", "US gal", "fuel", divisor=US_GALLON_L)),
     _m("fuel_l_per_100km", "fuel consumption", "L/100 km", PER_DISTANCE, "lower",
        us=USForm("fuel_economy_mpg", "mpg (US)", "fuel economy", convert=l_per_100km_to_mpg,
                  better="higher", kind=DISTANCE_PER), attributed=True, headline=True),
+    _m("fuel_kg_per_100km", "fuel consumption (by mass)", "kg/100 km", PER_DISTANCE,
+       "lower"),
+    _m("mpg_us", "fuel economy (US gallon)", "mpg (US)", DISTANCE_PER, "higher"),
+    _m("mpg_uk", "fuel economy (UK gallon)", "mpg (UK)", DISTANCE_PER, "higher"),
     _m("co2_g_per_km", "CO2 per km", "g/km", PER_DISTANCE, "lower",
        us=USForm("co2_g_per_mi", "g/mi", "CO2 per mile", factor=KM_PER_MI), attributed=True),
     _m("motor_limit_exceeded_s", "time beyond the motor's limit", "s", TOTAL, "lower"),
     _m("engine_limit_exceeded_s", "time beyond the engine's limit", "s", TOTAL, "lower"),
     _m("range_km", "range", "km", DISTANCE_PER, "higher",
-       us=USForm("range_mi", "mi", "range", factor=1.0 / KM_PER_MI), attributed=True,
+       us=USForm("range_mi", "mi", "range", divisor=KM_PER_MI), attributed=True,
        headline=True),
     _m("top_speed_kmh", "top speed", "km/h", INDEPENDENT, "higher",
-       us=USForm("top_speed_mph", "mph", "top speed", factor=1.0 / KM_PER_MI),
+       us=USForm("top_speed_mph", "mph", "top speed", divisor=KM_PER_MI),
        attributed=True, headline=True),
     _m("accel_0_100_kmh_s", "0-100 km/h", "s", INDEPENDENT, "lower", attributed=True,
        metric_only=True),
@@ -230,11 +240,11 @@ METRICS: tuple[Metric, ...] = (
     _m("accel_50_70_mph_s", "50-70 mph", "s", INDEPENDENT, "lower", attributed=True,
        us_only=True),
     _m("annual_distance_km", "annual distance", "km", ANNUAL,
-       us=USForm("annual_distance_mi", "mi", "annual distance", factor=1.0 / KM_PER_MI)),
+       us=USForm("annual_distance_mi", "mi", "annual distance", divisor=KM_PER_MI)),
     _m("annual_battery_energy_kwh", "annual battery energy", "kWh", ANNUAL, "lower"),
     _m("annual_grid_energy_kwh", "annual energy from the grid", "kWh", ANNUAL, "lower"),
     _m("annual_fuel_l", "annual fuel", "L", ANNUAL, "lower",
-       us=USForm("annual_fuel_gal", "US gal", "annual fuel", factor=1.0 / US_GALLON_L)),
+       us=USForm("annual_fuel_gal", "US gal", "annual fuel", divisor=US_GALLON_L)),
     _m("annual_energy_cost", "annual energy cost", MONEY, ANNUAL, "lower", attributed=True,
        headline=True),
     _m("annual_co2_kg", "annual CO2", "kg", ANNUAL, "lower", attributed=True),

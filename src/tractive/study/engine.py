@@ -54,17 +54,19 @@ References
 from __future__ import annotations
 
 import os
-from dataclasses import replace
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from ..demand import COMPONENTS, wheel_demand
 from ..errors import InputError
-from ..units import KMH_MS, KWH_J, MILE_M, MPH_MS, US_GALLON_L
+from ..metrics import (ECONOMICS, INDEPENDENT, KM_PER_MI, attributed_keys, lookup, mix,
+                       to_units)
+from ..units import KMH_MS, KWH_J, MPH_MS, US_GALLON_L
 from . import modify
 from .attribution import one_at_a_time, shapley_values, subsets
 from .economics import annual_amount, net_present_value, simple_payback_years
-from .results import (BASELINE, COMBINATION, MODIFICATION, PROFILE_INDEPENDENT, AttributionRow,
+from .results import (BASELINE, COMBINATION, MODIFICATION, AttributionRow,
                       InputItem, ProfileInfo, RangeCurveSeries, ResultRow, StudyResult,
                       TimeSeries, VariantInfo)
 from .spec import MAX_DRAWS, StudySpec, load_study
@@ -83,17 +85,6 @@ PERFORMANCE_KEYS = ("top_speed_kmh", "accel_0_100_kmh_s", "accel_80_120_kmh_s")
 #: acceleration times of US studies: key -> (from, to) [mph], computed by
 #: tractive.performance.acceleration_time_s with the exact mile (1 mi = 1609.344 m)
 US_ACCEL_MPH = {"accel_0_60_mph_s": (0.0, 60.0), "accel_50_70_mph_s": (50.0, 70.0)}
-#: metric acceleration keys, replaced by US_ACCEL_MPH in US studies
-METRIC_ACCEL_KEYS = ("accel_0_100_kmh_s", "accel_80_120_kmh_s")
-#: metrics attributed to parameter groups (when present)
-ATTRIBUTED = ("positive_energy_wh_per_km", "rolling_energy_wh_per_km", "aero_energy_wh_per_km",
-              "battery_wh_per_km", "fuel_l_per_100km",
-              "co2_g_per_km", "range_km", "top_speed_kmh", "accel_0_100_kmh_s",
-              "accel_80_120_kmh_s", "accel_0_60_mph_s", "accel_50_70_mph_s",
-              "annual_energy_cost", "annual_co2_kg")
-#: metrics that compare a variant with the baseline (never on baseline rows)
-COMPARATIVE = ("annual_saving", "modification_cost", "payback_years", "npv")
-
 
 def run_study(path: str | os.PathLike, *, draws: int | None = None, seed: int | None = None,
               series: bool = True, chunk_size: int | None = None) -> StudyResult:
@@ -118,28 +109,99 @@ def run_study(path: str | os.PathLike, *, draws: int | None = None, seed: int | 
     return run_spec(spec, draws=draws, seed=seed, series=series, chunk_size=chunk_size)
 
 
+@dataclass(frozen=True)
+class Variant:
+    """A variant of the study as built: its parameter set and what defines it.
+
+    Attributes
+    ----------
+    name, role : str
+        Variant name and role (baseline, modification, combination).
+    params : ParamSet
+        Nominal vehicle (index 0) and its Monte Carlo draws along the vehicle axis.
+    cost : float or None
+        Cost of the modification in the study currency (None: not given).
+    members : tuple of str
+        Modification names (a combination's members; a modification's own name).
+    changes : tuple of str
+        Human-readable changes in the order they are applied.
+    """
+
+    name: str
+    role: str
+    params: object
+    cost: float | None
+    members: tuple
+    changes: tuple
+
+
 def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = None,
              series: bool = True, chunk_size: int | None = None) -> StudyResult:
     """Run a validated study (see :func:`run_study`)."""
-    from ..profiles import profile_statistics, resolve_profile
+    n, seed, inputs = _draw_settings(spec, draws, seed)
+    rng = np.random.default_rng(seed)
+    warnings: list[str] = []
+    profiles, infos = _resolve_profiles(spec)
+    variants, uncertain = _build_variants(spec, rng, n, warnings)
 
+    raw_results, demands = {}, {}
+    for v in variants:
+        raw_results[v.name], demands[v.name] = _evaluate(
+            v.params, profiles, spec.ambient_temperature_c, chunk_size=chunk_size,
+            units=spec.units)
+    for v in variants:
+        _note_limits(v.name, raw_results[v.name], n, warnings)
+        if v.params.powertrain is None and v.params.performance is not None:
+            _note_wheel_power(v.name, v.params, demands[v.name], warnings)
+    _check_money(spec, raw_results, warnings)
+    derived = {v.name: _derive(spec, raw_results[v.name]) for v in variants}
+    for v in variants:
+        if v.role != BASELINE:
+            _compare_economics(spec, derived[v.name], derived[BASELINE], v.cost)
+    out_units = {name: {p: to_units(m, spec.units) for p, m in d.items()}
+                 for name, d in derived.items()}
+
+    order = [p for p, _ in profiles] + [mx.name for mx in spec.mixes]
+    kinds = {p: "profile" for p, _ in profiles} | {mx.name: "mix" for mx in spec.mixes}
+    rows = [_row(v.name, v.role, p, kinds[p], out_units[v.name][p], out_units[BASELINE][p],
+                 n, spec.confidence_pct) for v in variants for p in order]
+    variant_infos, attribution = _attribute_variants(spec, variants, profiles, order,
+                                                     out_units, warnings)
+    curves = [_range_curve(v.name, v.params, spec) for v in variants
+              if v.params.powertrain is not None]
+    series_out = [_series(v.name, p, prof, demands[v.name][p])
+                  for v in variants for p, prof in profiles] if series else []
+    econ = {} if spec.economics is None else \
+        _economics_echo(spec.economics, spec.units, spec.currency)
+    return StudyResult(study=spec.name, source=spec.file, units=spec.units,
+                       currency=spec.currency, rows=tuple(rows),
+                       attribution=tuple(attribution), series=tuple(series_out),
+                       range_curves=tuple(curves), inputs=tuple(inputs),
+                       variants=tuple(variant_infos), profiles=tuple(infos),
+                       uncertainty=_uncertainty_echo(n, seed, spec, uncertain),
+                       economics=econ, warnings=tuple(dict.fromkeys(warnings)))
+
+
+def _draw_settings(spec: StudySpec, draws, seed) -> tuple:
+    """Number of draws and seed (command line over the study file), and the inputs echo."""
     n = spec.draws if draws is None else int(draws)
     if n < 0:
         raise InputError("draws must not be negative", field="draws")
     if n > MAX_DRAWS:
         raise InputError(f"at most {MAX_DRAWS} Monte Carlo draws, got {n}", field="draws")
-    seed = spec.seed if seed is None else int(seed)
-    rng = np.random.default_rng(seed)
-    warnings: list[str] = []
     inputs = list(spec.inputs)
     if draws is not None:
         inputs.append(InputItem("uncertainty", "draws", n, "", "command line"))
     if seed is not None:
-        inputs.append(InputItem("uncertainty", "seed", seed, "", "command line"))
+        inputs.append(InputItem("uncertainty", "seed", int(seed), "", "command line"))
+    return n, (spec.seed if seed is None else int(seed)), inputs
 
-    # -- profiles ---------------------------------------------------------
-    profiles = []
-    infos = []
+
+def _resolve_profiles(spec: StudySpec) -> tuple:
+    """The study's profiles as ``[(name, Profile)]`` and a ProfileInfo per profile and mix."""
+    from ..profiles import profile_statistics, resolve_profile
+
+    profiles, infos = [], []
     for ps_ in spec.profiles:
         try:
             prof = resolve_profile(ps_.text, base_dir=spec.base_dir, dt_s=spec.dt_s)
@@ -155,15 +217,66 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
     for mx in spec.mixes:
         infos.append(ProfileInfo(mx.name, "mix", "", None, None, dict(mx.shares_pct),
                                  units=spec.units))
+    return profiles, infos
 
-    # -- variants -----------------------------------------------------------
+
+def _uncertainty_echo(n: int, seed: int, spec: StudySpec, uncertain) -> dict:
+    """The result's ``uncertainty`` entry: draws, seed, level, uncertain inputs, method."""
+    unc = {"draws": n, "seed": seed, "confidence_pct": spec.confidence_pct,
+           "uncertain_parameters": sorted(set(uncertain)),
+           "method": "Monte Carlo (JCGM 101:2008), common random numbers across variants"}
+    if n == 0:
+        unc["note"] = "no draws: intervals are the nominal values"
+    elif not uncertain:
+        unc["note"] = "no input carries an uncertainty: every interval has zero width"
+    return unc
+
+
+def _build_variants(spec: StudySpec, rng, n: int, warnings: list) -> tuple:
+    """The baseline, each modification and each combination, with their draws.
+
+    Standard normal draws are taken in a fixed order (baseline parameters, then
+    each owner's changes), so that every variant shares them (common random
+    numbers). Returns the variants and the list of uncertain inputs.
+    """
     z_base = {name: standard_normal_draws(rng, n)
               for name in UNCERTAIN_PARAMS + ("coef0", "coef1", "coef2")}
     z_changes = {}
     for owner, changes in [("baseline", spec.baseline_changes)] + \
             [(m.name, m.changes) for m in spec.modifications]:
         z_changes[owner] = [standard_normal_draws(rng, n) for _ in changes]
+    base_mc, uncertain = _build_baseline(spec, z_base, z_changes, n, warnings)
+    for owner, changes in [("baseline", spec.baseline_changes)] + \
+            [(f"modification '{m.name}'", m.changes) for m in spec.modifications]:
+        for ch in changes:
+            if ch.key == "tyre_label":
+                note = modify.tyre_label_note(ch.value)
+                if note:
+                    warnings.append(f"{owner}: {note}")
 
+    mods = {m.name: m for m in spec.modifications}
+    variants = [Variant(BASELINE, BASELINE, base_mc, None, (), ())]
+    for m in spec.modifications:
+        ps, unc = _build_variant(spec, [m], base_mc, z_base, z_changes, n, warnings, m.name)
+        uncertain += unc
+        variants.append(Variant(m.name, MODIFICATION, ps, m.cost, (m.name,), _describe([m])))
+    for c in spec.combinations:
+        members = [mods[k] for k in c.members]
+        if sum(1 for m in members if m.vehicle is not None) > 1:
+            raise InputError("a combination can hold at most one whole-vehicle modification",
+                             file=spec.file, field=f"{c.field}.modifications", line=c.line)
+        ps, _ = _build_variant(spec, members, base_mc, z_base, z_changes, n, warnings,
+                               c.name)
+        warnings += _override_notes(c.name, members)
+        costs = [m.cost for m in members]
+        cost = None if any(x is None for x in costs) else float(sum(costs))
+        variants.append(Variant(c.name, COMBINATION, ps, cost, tuple(c.members),
+                                _describe(members)))
+    return variants, uncertain
+
+
+def _build_baseline(spec: StudySpec, z_base, z_changes, n: int, warnings: list) -> tuple:
+    """The baseline's parameter set with its draws and changes, and its uncertain inputs."""
     base_nom, stds, cov = modify.nominal_params(spec.baseline, spec.baseline_raw,
                                                 air_density_kg_m3=spec.air_density_kg_m3)
     uncertain = [f"baseline {k} ± {v:g}" for k, v in stds.items()]
@@ -179,109 +292,24 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
     base_pt = dict(base_mc.pt_values)
     _note_clipped(warnings, "baseline", {**clipped, **clip(base_mc.params),
                                          **clip_powertrain(base_pt)})
-    base_mc = replace(base_mc, pt_values=base_pt)
+    return replace(base_mc, pt_values=base_pt), uncertain
 
-    for owner, changes in [("baseline", spec.baseline_changes)] + \
-            [(f"modification '{m.name}'", m.changes) for m in spec.modifications]:
-        for ch in changes:
-            if ch.key == "tyre_label":
-                note = modify.tyre_label_note(ch.value)
-                if note:
-                    warnings.append(f"{owner}: {note}")
 
-    mods = {m.name: m for m in spec.modifications}
-    variants = [(BASELINE, BASELINE, base_mc, None, (), ())]
-    for m in spec.modifications:
-        ps, unc = _build_variant(spec, [m], base_mc, z_base, z_changes, n, warnings, m.name)
-        uncertain += unc
-        variants.append((m.name, MODIFICATION, ps, m.cost, (m.name,), _describe([m])))
-    for c in spec.combinations:
-        members = [mods[k] for k in c.members]
-        if sum(1 for m in members if m.vehicle is not None) > 1:
-            raise InputError("a combination can hold at most one whole-vehicle modification",
-                             file=spec.file, field=f"{c.field}.modifications", line=c.line)
-        ps, _ = _build_variant(spec, members, base_mc, z_base, z_changes, n, warnings,
-                               c.name)
-        warnings += _override_notes(c.name, members)
-        costs = [m.cost for m in members]
-        cost = None if any(x is None for x in costs) else float(sum(costs))
-        variants.append((c.name, COMBINATION, ps, cost, tuple(c.members), _describe(members)))
-
-    # -- evaluate -------------------------------------------------------------
-    raw_results = {}
-    demands = {}
-    for name, role, ps, cost, members, desc in variants:
-        raw_results[name], demands[name] = _evaluate(ps, profiles,
-                                                     spec.ambient_temperature_c,
-                                                     chunk_size=chunk_size, units=spec.units)
-    for name, role, ps, *_ in variants:
-        _note_limits(name, raw_results[name], n, warnings)
-        if ps.powertrain is None and ps.performance is not None:
-            _note_wheel_power(name, ps, demands[name], warnings)
-    _check_money(spec, raw_results, warnings)
-    derived = {name: _derive(spec, raw_results[name]) for name, *_ in variants}
-    base_derived = derived[BASELINE]
-    for name, role, ps, cost, members, desc in variants:
-        if role != BASELINE:
-            _compare_economics(spec, derived[name], base_derived, cost)
-    out_units = {name: {p: _to_units(m, spec.units) for p, m in d.items()}
-                 for name, d in derived.items()}
-
-    # -- rows ---------------------------------------------------------------
-    order = [p for p, _ in profiles] + [mx.name for mx in spec.mixes]
-    kinds = {p: "profile" for p, _ in profiles} | {mx.name: "mix" for mx in spec.mixes}
-    rows = []
-    for name, role, ps, cost, members, desc in variants:
-        for p in order:
-            rows.append(_row(name, role, p, kinds[p], out_units[name][p],
-                             out_units[BASELINE][p], n, spec.confidence_pct))
-
-    # -- attribution ----------------------------------------------------------
+def _attribute_variants(spec, variants, profiles, order, out_units, warnings) -> tuple:
+    """VariantInfo of every variant and the attribution rows of those that change groups."""
     attribution = []
-    variant_infos = [VariantInfo(BASELINE, BASELINE, None, (), (),
-                                 vehicle_name=spec.baseline.name)]
-    base_nominal = base_mc.take([0])
-    for name, role, ps, cost, members, desc in variants[1:]:
-        var_nominal = ps.take([0])
+    infos = [VariantInfo(BASELINE, BASELINE, None, (), (), vehicle_name=spec.baseline.name)]
+    base_nominal = variants[0].params.take([0])
+    for v in variants[1:]:
+        var_nominal = v.params.take([0])
         groups = modify.differing_groups(base_nominal, var_nominal)
-        variant_infos.append(VariantInfo(name, role, cost, desc, groups, members
-                                         if role == COMBINATION else (),
-                                         vehicle_name=ps.template.name))
-        if not groups:
-            continue
-        attribution += _attribute(spec, name, groups, base_nominal, var_nominal, profiles,
-                                  order, out_units, warnings)
-
-    # -- range against constant speed (nominal vehicles) ----------------------
-    curves = []
-    for name, role, ps, *_ in variants:
-        if ps.powertrain is not None:
-            curves.append(_range_curve(name, ps, spec))
-
-    # -- time series --------------------------------------------------------
-    series_out = []
-    if series:
-        for name, *_ in variants:
-            for p, prof in profiles:
-                series_out.append(_series(name, p, prof, demands[name][p]))
-
-    econ = {}
-    if spec.economics is not None:
-        econ = _economics_echo(spec.economics, spec.units, spec.currency)
-    unc = {"draws": n, "seed": seed, "confidence_pct": spec.confidence_pct,
-           "uncertain_parameters": sorted(set(uncertain)),
-           "method": "Monte Carlo (JCGM 101:2008), common random numbers across variants"}
-    if n == 0:
-        unc["note"] = "no draws: intervals are the nominal values"
-    elif not uncertain:
-        unc["note"] = "no input carries an uncertainty: every interval has zero width"
-    return StudyResult(study=spec.name, source=spec.file, units=spec.units,
-                       currency=spec.currency, rows=tuple(rows),
-                       attribution=tuple(attribution), series=tuple(series_out),
-                       range_curves=tuple(curves), inputs=tuple(inputs),
-                       variants=tuple(variant_infos), profiles=tuple(infos),
-                       uncertainty=unc, economics=econ,
-                       warnings=tuple(dict.fromkeys(warnings)))
+        infos.append(VariantInfo(v.name, v.role, v.cost, v.changes, groups,
+                                 v.members if v.role == COMBINATION else (),
+                                 vehicle_name=v.params.template.name))
+        if groups:
+            attribution += _attribute(spec, v.name, groups, base_nominal, var_nominal,
+                                      profiles, order, out_units, warnings)
+    return infos, attribution
 
 
 # ---------------------------------------------------------------------------
@@ -653,22 +681,8 @@ def _check_money(spec: StudySpec, raw_results, warnings) -> None:
 
 
 def _mix(per_profile: dict, shares_pct: dict) -> dict:
-    """Duty-mix metrics from per-profile metrics (distance-weighted, see module doc)."""
-    members = [per_profile[k] for k in shares_pct]
-    weights = [v / 100.0 for v in shares_pct.values()]
-    out = {}
-    for key in members[0]:
-        if not all(key in m for m in members[1:]):
-            continue                # not computed on every profile of the mix
-        if key.endswith("_per_km") or key.endswith("_per_100km"):
-            out[key] = sum(w * m[key] for w, m in zip(weights, members))
-        elif key == "range_km":
-            with np.errstate(divide="ignore"):
-                inv = sum(w / m[key] for w, m in zip(weights, members))
-                out[key] = 1.0 / inv
-        elif key in PROFILE_INDEPENDENT:
-            out[key] = members[0][key].copy()
-    return out
+    """Duty-mix metrics from per-profile metrics by distance share (:func:`tractive.metrics.mix`)."""
+    return mix([per_profile[k] for k in shares_pct], [v / 100.0 for v in shares_pct.values()])
 
 
 def _derive(spec: StudySpec, per_profile: dict) -> dict:
@@ -735,37 +749,14 @@ def _compare_economics(spec: StudySpec, derived: dict, base: dict, cost) -> None
 # output units
 # ---------------------------------------------------------------------------
 
-_KM_PER_MI = MILE_M / 1000.0
+_KM_PER_MI = KM_PER_MI
 #: km/h per mph (exact: 1 mi = 1.609344 km)
-_KMH_PER_MPH = _KM_PER_MI
+_KMH_PER_MPH = KM_PER_MI
 
 
 def _to_units(met: dict, units: str) -> dict:
-    """Metric arrays in the study's output units (keys renamed with their unit)."""
-    if units == "metric":
-        return dict(met)
-    out = {}
-    for key, value in met.items():
-        if key.endswith("_wh_per_km"):
-            out[key[:-len("_per_km")] + "_per_mi"] = value * _KM_PER_MI
-        elif key in ("distance_km", "range_km", "annual_distance_km"):
-            out[key[:-3] + "_mi"] = value / _KM_PER_MI
-        elif key == "fuel_l":
-            out["fuel_gal"] = value / US_GALLON_L
-        elif key == "annual_fuel_l":
-            out["annual_fuel_gal"] = value / US_GALLON_L
-        elif key == "fuel_l_per_100km":
-            with np.errstate(divide="ignore"):
-                out["fuel_economy_mpg"] = (100.0 / _KM_PER_MI) / (value / US_GALLON_L)
-        elif key == "co2_g_per_km":
-            out["co2_g_per_mi"] = value * _KM_PER_MI
-        elif key == "top_speed_kmh":
-            out["top_speed_mph"] = value / _KM_PER_MI
-        elif key in METRIC_ACCEL_KEYS:
-            continue            # US studies give 0-60 and 50-70 mph (US_ACCEL_MPH) instead
-        else:
-            out[key] = value
-    return out
+    """Metric arrays in the study's output units (:func:`tractive.metrics.to_units`)."""
+    return to_units(met, units)
 
 
 def _economics_echo(e, units: str, currency: str) -> dict:
@@ -813,7 +804,7 @@ def _row(name, role, profile, kind, met, base, n, conf) -> ResultRow:
             mean[key], low[key], high[key] = _payback_interval(met, n, conf)
         else:
             mean[key], low[key], high[key] = interval(samples, conf)
-        if role == BASELINE or key in COMPARATIVE or key not in base:
+        if role == BASELINE or _is_comparative(key) or key not in base:
             continue
         b = np.asarray(base[key], float)
         b0 = _nominal(b)
@@ -828,6 +819,13 @@ def _row(name, role, profile, kind, met, base, n, conf) -> ResultRow:
             dist[key] = bool(c_low[key] > 0.0 or c_high[key] < 0.0)
     return ResultRow(name, role, profile, kind, metrics, change, change_pct, mean, low, high,
                      c_mean, c_low, c_high, dist)
+
+
+def _is_comparative(key: str) -> bool:
+    """True for metrics that already compare with the baseline (saving, payback, NPV,
+    the modification's cost), which have no change of their own."""
+    m = lookup(key)
+    return m is not None and (m.kind == ECONOMICS or m.is_money and m.kind == INDEPENDENT)
 
 
 def _payback_interval(met, n, conf):
@@ -893,10 +891,8 @@ def _attribute(spec, name, groups, base_nominal, var_nominal, profiles, order, o
 
 
 def _attributed_keys(units: str) -> tuple:
-    if units == "metric":
-        return ATTRIBUTED
-    probe = {k: np.zeros(1) + 1.0 for k in ATTRIBUTED}
-    return tuple(_to_units(probe, units))
+    """Metrics split into parameter groups, in the study's units (registry order)."""
+    return attributed_keys(units)
 
 
 # ---------------------------------------------------------------------------

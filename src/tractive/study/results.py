@@ -4,8 +4,9 @@ Everything here is plain, frozen data that the exporters (JSON, CSV, the
 workbook) read; nothing here computes physics. Metric keys carry their unit
 as a suffix (``positive_energy_wh_per_km``, ``range_km``, ``top_speed_kmh``);
 money carries no unit suffix in its key but is always in the study's
-``currency`` (see :attr:`StudyResult.currency`). :data:`METRICS` lists every
-metric key with a label, unit and the direction that counts as better.
+``currency`` (see :attr:`StudyResult.currency`). The registry
+:mod:`tractive.metrics` describes every metric key (label, unit, kind, the
+direction that counts as better, its US form).
 
 Row anatomy (:class:`ResultRow`)
     ``metrics``          nominal value of each metric (no uncertainty drawn)
@@ -29,105 +30,23 @@ from typing import Any
 
 import numpy as np
 
+from ..metrics import REGISTRY, ordered_keys
+
 #: role of a variant
 BASELINE = "baseline"
 MODIFICATION = "modification"
 COMBINATION = "combination"
 
 
-@dataclass(frozen=True)
-class MetricInfo:
-    """Description of one metric key.
-
-    Attributes
-    ----------
-    key : str
-        Key with unit suffix.
-    label : str
-        Short human label.
-    unit : str
-        Unit text for headers (``"money"`` stands for the study currency).
-    better : str
-        ``"lower"``, ``"higher"`` or ``""`` (neither).
-    """
-
-    key: str
-    label: str
-    unit: str
-    better: str = ""
-
-
-def _m(key, label, unit, better=""):
-    return MetricInfo(key, label, unit, better)
-
-
-#: every metric a study can report, in report order (metric and US keys)
-METRICS: dict[str, MetricInfo] = {m.key: m for m in [
-    _m("distance_km", "distance", "km"),
-    _m("distance_mi", "distance", "mi"),
-    _m("positive_energy_kwh", "wheel energy (traction)", "kWh", "lower"),
-    _m("negative_energy_kwh", "braking energy", "kWh", "lower"),
-    _m("rolling_energy_kwh", "wheel energy: rolling", "kWh", "lower"),
-    _m("aero_energy_kwh", "wheel energy: aero", "kWh", "lower"),
-    _m("inertia_energy_kwh", "wheel energy: inertia", "kWh", "lower"),
-    _m("grade_energy_kwh", "wheel energy: grade", "kWh", "lower"),
-    _m("positive_energy_wh_per_km", "wheel energy per km", "Wh/km", "lower"),
-    _m("positive_energy_wh_per_mi", "wheel energy per mile", "Wh/mi", "lower"),
-    _m("rolling_energy_wh_per_km", "rolling per km", "Wh/km", "lower"),
-    _m("rolling_energy_wh_per_mi", "rolling per mile", "Wh/mi", "lower"),
-    _m("aero_energy_wh_per_km", "aero per km", "Wh/km", "lower"),
-    _m("aero_energy_wh_per_mi", "aero per mile", "Wh/mi", "lower"),
-    _m("inertia_energy_wh_per_km", "inertia per km", "Wh/km", "lower"),
-    _m("inertia_energy_wh_per_mi", "inertia per mile", "Wh/mi", "lower"),
-    _m("grade_energy_wh_per_km", "grade per km", "Wh/km", "lower"),
-    _m("grade_energy_wh_per_mi", "grade per mile", "Wh/mi", "lower"),
-    _m("battery_energy_kwh", "battery energy", "kWh", "lower"),
-    _m("battery_wh_per_km", "battery energy per km", "Wh/km", "lower"),
-    _m("battery_wh_per_mi", "battery energy per mile", "Wh/mi", "lower"),
-    _m("wall_wh_per_km", "energy from the wall per km", "Wh/km", "lower"),
-    _m("wall_wh_per_mi", "energy from the wall per mile", "Wh/mi", "lower"),
-    _m("fuel_l", "fuel", "L", "lower"),
-    _m("fuel_gal", "fuel", "US gal", "lower"),
-    _m("fuel_l_per_100km", "fuel consumption", "L/100 km", "lower"),
-    _m("fuel_economy_mpg", "fuel economy", "mpg (US)", "higher"),
-    _m("co2_g_per_km", "CO2 per km", "g/km", "lower"),
-    _m("co2_g_per_mi", "CO2 per mile", "g/mi", "lower"),
-    _m("motor_limit_exceeded_s", "time beyond the motor's limit", "s", "lower"),
-    _m("engine_limit_exceeded_s", "time beyond the engine's limit", "s", "lower"),
-    _m("range_km", "range", "km", "higher"),
-    _m("range_mi", "range", "mi", "higher"),
-    _m("top_speed_kmh", "top speed", "km/h", "higher"),
-    _m("top_speed_mph", "top speed", "mph", "higher"),
-    _m("accel_0_100_kmh_s", "0-100 km/h", "s", "lower"),
-    _m("accel_80_120_kmh_s", "80-120 km/h", "s", "lower"),
-    _m("accel_0_60_mph_s", "0-60 mph", "s", "lower"),
-    _m("accel_50_70_mph_s", "50-70 mph", "s", "lower"),
-    _m("annual_distance_km", "annual distance", "km"),
-    _m("annual_distance_mi", "annual distance", "mi"),
-    _m("annual_battery_energy_kwh", "annual battery energy", "kWh", "lower"),
-    _m("annual_grid_energy_kwh", "annual energy from the grid", "kWh", "lower"),
-    _m("annual_fuel_l", "annual fuel", "L", "lower"),
-    _m("annual_fuel_gal", "annual fuel", "US gal", "lower"),
-    _m("annual_energy_cost", "annual energy cost", "money", "lower"),
-    _m("annual_co2_kg", "annual CO2", "kg", "lower"),
-    _m("annual_saving", "annual saving against baseline", "money", "higher"),
-    _m("modification_cost", "cost of the modification", "money", "lower"),
-    _m("payback_years", "simple payback", "years", "lower"),
-    _m("npv", "net present value", "money", "higher"),
-]}
-
-#: metrics that are the same on every profile of a variant (no profile dependence)
-PROFILE_INDEPENDENT = ("top_speed_kmh", "top_speed_mph", "accel_0_100_kmh_s",
-                       "accel_80_120_kmh_s", "accel_0_60_mph_s", "accel_50_70_mph_s",
-                       "modification_cost")
+#: every metric key (metric and US) → its :class:`tractive.metrics.Metric` (label, unit,
+#: kind, better direction); the registry in :mod:`tractive.metrics` is the one table
+METRICS = REGISTRY
 
 
 def metric_unit(key: str, currency: str = "") -> str:
     """Unit text of a metric key; money becomes the study currency."""
-    info = METRICS.get(key)
-    if info is None:
-        return ""
-    return currency if info.unit == "money" and currency else info.unit
+    info = REGISTRY.get(key)
+    return "" if info is None else info.unit_text(currency)
 
 
 @dataclass(frozen=True)
@@ -451,8 +370,7 @@ class StudyResult:
         present = set()
         for r in self.rows:
             present.update(r.metrics)
-        ordered = [k for k in METRICS if k in present]
-        return ordered + sorted(present - set(ordered))
+        return ordered_keys(present)
 
     def row(self, variant: str, profile: str) -> ResultRow:
         for r in self.rows:
