@@ -1,7 +1,25 @@
-"""The Python face of the command line: one function per command, plain data out.
+"""The library face of every command: one function per command, typed results out.
 
-Each function here does what one ``tractive`` command does and returns a
-frozen dataclass with ``to_dict()``; the CLI only formats what it gets.
+Each function does what one ``tractive`` command does and returns a frozen
+dataclass with ``to_dict()`` (the command's JSON document); the command line
+only parses options, calls the function and formats what it gets.
+
+=====================  =========================  ==========================
+command                function                   result
+=====================  =========================  ==========================
+``cycles``             :func:`cycles`             :class:`CyclesReport`
+``energy``             :func:`energy`             :class:`EnergyReport`
+``performance``        :func:`performance`        :class:`PerformanceReport`
+``range-curve``        :func:`range_curve`        :class:`RangeCurveReport`
+``compare``            :func:`compare`            :class:`~tractive.study.results.StudyResult`
+``coastdown``          :func:`coastdown`          (see the coast-down block below)
+``coastdown-quick``    :func:`coastdown_quick`    (see the coast-down block below)
+=====================  =========================  ==========================
+
+Vehicles may be given as a :class:`~tractive.vehicle.Vehicle` or a path to a
+vehicle YAML file; profiles as :class:`~tractive.profiles.Profile` objects or
+profile expressions (``udds``, ``wltc3b:low``, ``trip.csv``,
+``steady:90kmh:20min``, ``A+B``, ``A*3``).
 """
 
 from __future__ import annotations
@@ -10,14 +28,44 @@ import os
 from dataclasses import dataclass, field
 from typing import Sequence
 
-from .demand import WheelDemand, vehicle_wheel_demand
-from .profiles import Profile, ProfileStats, list_cycles, load_cycle, profile_statistics, \
-    resolve_profile
-from .vehicle import Vehicle, load_vehicle
+from typing import TYPE_CHECKING
+
+from .errors import InputError
+from .limits import MAX_DRAWS, MAX_MASS_KG, MAX_USER_SPEED_KMH
+from .plain import json_text, plain
+
+if TYPE_CHECKING:                       # heavy modules are imported where they are used,
+    from .vehicle import Vehicle        # so that `tractive --help` starts fast
+
+__all__ = ["cycles", "energy", "energy_mix", "performance", "range_curve", "compare",
+           "write_study_outputs", "check_outputs", "load_vehicle", "load_profiles",
+           "CyclesReport", "EnergyReport", "EnergyResult", "PerformanceReport",
+           "RangeCurveReport", "InputError", "json_text", "plain", "DEFAULT_ENERGY_CYCLES",
+           "STUDY_OUTPUT_SUFFIXES", "MAX_DRAWS", "MAX_MASS_KG", "MAX_USER_SPEED_KMH"]
 
 #: cycles run by ``tractive energy`` when none is named
 DEFAULT_ENERGY_CYCLES = ("wltc3b", "udds", "hwfet")
+#: file types a study result can be written to
+STUDY_OUTPUT_SUFFIXES = (".xlsx", ".csv", ".json")
 
+
+def load_vehicle(path: str | os.PathLike) -> "Vehicle":
+    """Read and check a vehicle YAML file (see :func:`tractive.vehicle.load_vehicle`)."""
+    from .vehicle import load_vehicle as _load
+
+    return _load(path)
+
+
+def _vehicle(vehicle) -> "Vehicle":
+    """A Vehicle from a Vehicle or a vehicle file path."""
+    from .vehicle import Vehicle
+
+    return vehicle if isinstance(vehicle, Vehicle) else load_vehicle(vehicle)
+
+
+# ---------------------------------------------------------------------------
+# cycles
+# ---------------------------------------------------------------------------
 
 @dataclass(frozen=True)
 class CycleRow:
@@ -28,46 +76,88 @@ class CycleRow:
     body: str
     document: str
     phases: tuple
-    stats: ProfileStats
+    stats: object
 
     def to_dict(self) -> dict:
+        """JSON-ready: name, title, issuing body, document, phase names, statistics."""
         out = {"name": self.name, "title": self.title, "issuing_body": self.body,
                "document": self.document, "phases": [p.name for p in self.phases]}
         out.update(self.stats.to_dict())
         return out
 
 
-def cycles_table() -> list[CycleRow]:
-    """Every bundled cycle with its statistics (duration, distance, speeds, ...)."""
-    rows = []
-    for info in list_cycles():
-        prof = load_cycle(info.name)
-        rows.append(CycleRow(info.name, info.title, info.body, info.document,
-                             tuple(info.phases), profile_statistics(prof)))
-    return rows
+@dataclass(frozen=True)
+class CyclesReport:
+    """Statistics of the bundled cycles (``kind="cycles"``) or of named profiles
+    (``kind="profiles"``: dicts with ``name``, ``source`` and the statistics)."""
+
+    kind: str
+    rows: tuple
+
+    def to_dict(self) -> dict:
+        """``{"cycles": [...]}`` or ``{"profiles": [...]}``."""
+        return {self.kind: [r.to_dict() if hasattr(r, "to_dict") else dict(r)
+                            for r in self.rows]}
 
 
-def profile_table(specs: Sequence[str], *, base_dir=None, dt_s: float = 1.0) -> list:
-    """Statistics of any profiles (bundled names, phases, files, ``steady:``, ``+``, ``*``)."""
+def cycles(profiles: Sequence[str] = (), *, dt_s: float = 1.0,
+           base_dir: str | os.PathLike | None = None) -> CyclesReport:
+    """Statistics of every bundled cycle, or of the profiles named.
+
+    Parameters
+    ----------
+    profiles : sequence of str
+        Profile expressions; empty for the bundled cycles.
+    dt_s : float
+        Time step [s] user files are resampled to (above 0, at most 60).
+    base_dir : path, optional
+        Folder that relative file names are read from.
+    """
+    from .profiles import list_cycles, load_cycle, profile_statistics, resolve_profile
+
+    if not 0 < dt_s <= 60:
+        raise InputError(f"must be a time step above 0 and at most 60 s, got {dt_s:.4g}",
+                         field="dt_s")
+    if not profiles:
+        rows = []
+        for info in list_cycles():
+            rows.append(CycleRow(info.name, info.title, info.body, info.document,
+                                 tuple(info.phases), profile_statistics(load_cycle(info.name))))
+        return CyclesReport("cycles", tuple(rows))
     rows = []
-    for text in specs:
+    for text in profiles:
         prof = resolve_profile(text, base_dir=base_dir, dt_s=dt_s)
         stats = profile_statistics(prof).to_dict()
         stats["name"] = text
         stats["source"] = prof.source
         rows.append(stats)
-    return rows
+    return CyclesReport("profiles", tuple(rows))
 
+
+def cycles_table() -> list:
+    """Every bundled cycle with its statistics (the rows of :func:`cycles`)."""
+    return list(cycles().rows)
+
+
+def profile_table(specs: Sequence[str], *, base_dir=None, dt_s: float = 1.0) -> list:
+    """Statistics of any profiles (the rows of :func:`cycles` with profiles named)."""
+    return list(cycles(specs, dt_s=dt_s, base_dir=base_dir).rows)
+
+
+# ---------------------------------------------------------------------------
+# energy
+# ---------------------------------------------------------------------------
 
 @dataclass(frozen=True)
 class EnergyResult:
     """Wheel energy (and, with a powertrain, fuel or battery use) on one profile."""
 
-    profile: Profile
-    wheel: WheelDemand
+    profile: object
+    wheel: object
     powertrain: object = None
 
     def to_dict(self) -> dict:
+        """The wheel energy's keys, the profile name as ``cycle``, the powertrain's keys."""
         out = self.wheel.to_dict()
         out["cycle"] = self.profile.name
         if self.powertrain is not None:
@@ -77,39 +167,53 @@ class EnergyResult:
 
 @dataclass(frozen=True)
 class EnergyReport:
-    vehicle: Vehicle
+    """A vehicle's results on each profile, and their mix when shares were given."""
+
+    vehicle: "Vehicle"
     results: list = field(default_factory=list)
+    mix: dict | None = None
 
     def to_dict(self) -> dict:
-        return {"vehicle": self.vehicle.to_dict(),
-                "results": [r.to_dict() for r in self.results]}
+        """``{"vehicle", "results"[, "mix"]}``."""
+        out = {"vehicle": self.vehicle.to_dict(),
+               "results": [r.to_dict() for r in self.results]}
+        if self.mix is not None:
+            out["mix"] = dict(self.mix)
+        return out
 
 
 def load_profiles(specs: Sequence[str], *, base_dir: str | os.PathLike | None = None,
-                  dt_s: float = 1.0) -> list[Profile]:
-    """Resolve profile strings (cycle names, phases, files, ``steady:``, ``+``, ``*``)."""
+                  dt_s: float = 1.0) -> list:
+    """Resolve profile expressions (cycle names, phases, files, ``steady:``, ``+``, ``*``)."""
+    from .profiles import resolve_profile
+
     return [resolve_profile(s, base_dir=base_dir, dt_s=dt_s) for s in specs]
 
 
-def energy(vehicle: Vehicle | str | os.PathLike, profiles: Sequence[Profile | str] = (),
-           *, dt_s: float = 1.0) -> EnergyReport:
-    """Wheel energy of a vehicle on each profile, plus fuel or battery use when
-    the vehicle has a powertrain.
+def energy(vehicle: "Vehicle | str | os.PathLike", profiles: Sequence = (), *,
+           dt_s: float = 1.0, mix_shares: Sequence[float] | None = None) -> EnergyReport:
+    """Wheel energy of a vehicle on each profile, plus fuel or battery use when the
+    vehicle has a powertrain, and optionally their mix by distance share.
 
     Parameters
     ----------
     vehicle : Vehicle or path
         The vehicle, or a vehicle YAML file.
     profiles : sequence of Profile or str
-        Profiles, or strings for :func:`tractive.profiles.resolve_profile`
-        (default: :data:`DEFAULT_ENERGY_CYCLES`).
+        Profiles or profile expressions (default: :data:`DEFAULT_ENERGY_CYCLES`).
     dt_s : float
         Time step [s] for user files that need resampling.
+    mix_shares : sequence of float, optional
+        Distance shares [-] of the profiles (in order, adding up to 1): adds the
+        mix (see :func:`energy_mix`).
     """
-    if not isinstance(vehicle, Vehicle):
-        vehicle = load_vehicle(vehicle)
+    from .demand import vehicle_wheel_demand
+    from .profiles import Profile, resolve_profile
+
+    vehicle = _vehicle(vehicle)
     profiles = list(profiles) or list(DEFAULT_ENERGY_CYCLES)
-    resolved = [p if isinstance(p, Profile) else resolve_profile(p, dt_s=dt_s) for p in profiles]
+    resolved = [p if isinstance(p, Profile) else resolve_profile(p, dt_s=dt_s)
+                for p in profiles]
     results = []
     for prof in resolved:
         demand = vehicle_wheel_demand(vehicle, prof)
@@ -117,17 +221,20 @@ def energy(vehicle: Vehicle | str | os.PathLike, profiles: Sequence[Profile | st
         if vehicle.powertrain is not None:
             pt = vehicle.powertrain.consume(vehicle, demand, prof)
         results.append(EnergyResult(prof, demand, pt))
-    return EnergyReport(vehicle, results)
+    report = EnergyReport(vehicle, results)
+    if mix_shares is None:
+        return report
+    return EnergyReport(vehicle, results, energy_mix(report, mix_shares))
 
 
 def energy_mix(report: EnergyReport, shares: Sequence[float]) -> dict:
     """Weighted mix of an energy report's profiles by distance share.
 
     Every per-distance value of the mix is the share-weighted mean of the
-    profiles' per-distance values (wheel Wh/km, battery or wall Wh/km, L/100 km,
-    CO2 g/km), which is the harmonic combination of economies used by
-    40 CFR 600 (55 % city / 45 % highway); range follows from the mixed
-    consumption.
+    profiles' per-distance values (wheel Wh/km, battery or wall Wh/km,
+    L/100 km, CO2 g/km), which is the harmonic combination of economies used
+    by 40 CFR 600 (55 % city / 45 % highway); range follows from the mixed
+    consumption (:mod:`tractive.metrics`).
 
     Parameters
     ----------
@@ -135,29 +242,217 @@ def energy_mix(report: EnergyReport, shares: Sequence[float]) -> dict:
     shares : sequence of float
         Distance shares [-], one per result, ≥ 0, adding up to 1.
     """
-    from .errors import InputError
+    from .metrics import check_shares, mix
 
-    shares = [float(x) for x in shares]
     results = list(report.results)
-    if len(shares) != len(results):
-        raise InputError(f"needs one share per cycle ({len(results)}), got {len(shares)}",
-                         field="shares")
-    if any(not (x >= 0) or x == float("inf") for x in shares) or abs(sum(shares) - 1.0) > 1e-6:
-        raise InputError("shares must be 0 or more and add up to 1", field="shares")
+    shares = check_shares(shares, len(results), "cycle")
     for r in results:
         if not r.wheel.distance_km > 0:
             raise InputError(f"profile '{r.profile.name}' has no distance; it cannot be part "
                              "of a mix by distance", field="shares")
     rows = [r.to_dict() for r in results]
+    wheel = mix([{k: row[k] for k in ("positive_energy_wh_per_km",
+                                      "negative_energy_wh_per_km")} for row in rows], shares)
     out = {"cycle": "mix", "profiles": [r.profile.name for r in results], "shares": shares}
-    for key in ("positive_energy_wh_per_km", "negative_energy_wh_per_km"):
-        out[key] = sum(x * row[key] for x, row in zip(shares, rows))
+    out.update(wheel)
     if report.vehicle.powertrain is not None:
         from .powertrain import mix_results
 
         out.update(mix_results([r.powertrain for r in results], shares).to_dict())
         out["cycle"] = "mix"
         if all(row.get("wall_wh_per_km") is not None for row in rows):
-            out["wall_wh_per_km"] = sum(x * row["wall_wh_per_km"] for x, row in zip(shares, rows))
+            out.update(mix([{"wall_wh_per_km": row["wall_wh_per_km"]} for row in rows],
+                           shares))
     return out
 
+
+# ---------------------------------------------------------------------------
+# performance
+# ---------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class PerformanceReport:
+    """Top speed, acceleration and gradeability of a vehicle (see
+    :func:`tractive.performance.performance_summary`)."""
+
+    vehicle: "Vehicle"
+    result: object
+
+    def to_dict(self) -> dict:
+        """The performance result's document."""
+        return self.result.to_dict()
+
+
+def performance(vehicle: "Vehicle | str | os.PathLike", *, grade_pct: float = 0.0,
+                wind_kmh: float = 0.0,
+                gradeability_speed_kmh: float | None = None) -> PerformanceReport:
+    """Top speed in every gear with the binding limit, 0-100 and 80-120 km/h times,
+    and gradeability.
+
+    Parameters
+    ----------
+    vehicle : Vehicle or path
+        With a ``performance`` block.
+    grade_pct : float
+        Road grade [%] (negative downhill).
+    wind_kmh : float
+        Head wind [km/h] (negative: tail wind).
+    gradeability_speed_kmh : float, optional
+        Speed of the gradeability figure [km/h] (default: the vehicle file's).
+    """
+    from .performance import performance_summary
+
+    vehicle = _vehicle(vehicle)
+    return PerformanceReport(vehicle, performance_summary(
+        vehicle, grade_pct=grade_pct, wind_kmh=wind_kmh,
+        gradeability_speed_kmh=gradeability_speed_kmh))
+
+
+# ---------------------------------------------------------------------------
+# range curve
+# ---------------------------------------------------------------------------
+
+#: most speeds one range curve may have
+MAX_RANGE_SPEEDS = 10000
+
+
+@dataclass(frozen=True)
+class RangeCurveReport:
+    """Range and consumption against constant speed, with the ambient temperature used.
+
+    Attributes
+    ----------
+    vehicle : Vehicle
+    curve : RangeCurve
+    ambient_temperature_c : float or None
+        Ambient temperature [°C] of a temperature-dependent auxiliary load
+        (None when the vehicle has none).
+    notes : tuple of str
+    row_notes : tuple of str
+        Per speed: why the drive cannot hold it ("" where it can).
+    """
+
+    vehicle: "Vehicle"
+    curve: object
+    ambient_temperature_c: float | None
+    notes: tuple = ()
+    row_notes: tuple = ()
+
+    def to_dict(self) -> dict:
+        """The curve's document with ``ambient_temperature_c`` and ``notes``."""
+        data = self.curve.to_dict()
+        data["ambient_temperature_c"] = self.ambient_temperature_c
+        data["notes"] = list(self.notes)
+        return data
+
+
+def range_speeds_kmh(from_kmh: float, to_kmh: float, step_kmh: float):
+    """Speeds [km/h] from ``from_kmh`` to ``to_kmh`` (inclusive) every ``step_kmh``."""
+    import numpy as np
+
+    if not to_kmh >= from_kmh:
+        raise InputError("must be at least --from-kmh", field="to_kmh")
+    if (to_kmh - from_kmh) / step_kmh > MAX_RANGE_SPEEDS:
+        raise InputError(f"gives more than {MAX_RANGE_SPEEDS} speeds", field="step_kmh")
+    return np.arange(from_kmh, to_kmh + 1e-9 * max(1.0, to_kmh), step_kmh)
+
+
+def range_curve(vehicle: "Vehicle | str | os.PathLike", speeds_kmh=None, *,
+                ambient_temperature_c: float | None = None) -> RangeCurveReport:
+    """Range and consumption at constant speeds on a level road without wind, and the
+    speed of greatest range.
+
+    Parameters
+    ----------
+    vehicle : Vehicle or path
+        With a powertrain block.
+    speeds_kmh : sequence of float, optional
+        Speeds [km/h] (default 20 to 160 every 10).
+    ambient_temperature_c : float, optional
+        Ambient temperature [°C] for a temperature-dependent auxiliary load
+        (default: the vehicle file's).
+    """
+    from .powertrain.curve import DEFAULT_SPEEDS_KMH
+    from .powertrain.curve import range_curve as _curve
+
+    vehicle = _vehicle(vehicle)
+    speeds = DEFAULT_SPEEDS_KMH if speeds_kmh is None else speeds_kmh
+    curve = _curve(vehicle, speeds, ambient_temperature_c=ambient_temperature_c)
+    used, notes = _ambient(vehicle, ambient_temperature_c)
+    gov = getattr(vehicle.performance, "governor_kmh", None)
+    row_notes = tuple("" if ok else (
+        "above the governor" if gov is not None and v > gov * (1 + 1e-12)
+        else "beyond the drive's limits")
+        for v, ok in zip(curve.speed_kmh, curve.feasible))
+    return RangeCurveReport(vehicle, curve, used, tuple(notes), row_notes)
+
+
+def _ambient(vehicle, ambient_c) -> tuple:
+    """The ambient temperature the curve used [°C] (None when none is used) and notes."""
+    pt = vehicle.powertrain
+    table_aux = (getattr(pt, "kind", None) == "electric"
+                 and getattr(pt, "auxiliary_power_table_w", None) is not None)
+    if table_aux:
+        used = ambient_c if ambient_c is not None else pt.ambient_temperature_c
+        return used, []
+    if ambient_c is None:
+        return None, []
+    why = ("a combustion powertrain has no temperature-dependent auxiliary load here"
+           if getattr(pt, "kind", None) == "combustion"
+           else "the vehicle's auxiliary power is a constant (auxiliary_power_kw), not a "
+                "table over temperature")
+    return None, [f"--ambient-c {ambient_c:g} °C is not used: {why}"]
+
+
+# ---------------------------------------------------------------------------
+# compare (studies)
+# ---------------------------------------------------------------------------
+
+def compare(study: str | os.PathLike, *, draws: int | None = None, seed: int | None = None,
+            series: bool = False):
+    """Run a study file: the baseline and its modifications on every profile and mix.
+
+    Parameters
+    ----------
+    study : path
+        Study YAML file.
+    draws : int, optional
+        Monte Carlo draws (overrides the study; 0 = nominal only).
+    seed : int, optional
+        Random seed (overrides the study).
+    series : bool
+        Keep the nominal time series (for the workbook's profile sheets).
+
+    Returns
+    -------
+    StudyResult
+    """
+    from .study.engine import run_study
+
+    if draws is not None and not 0 <= draws <= MAX_DRAWS:
+        raise InputError(f"--draws must be from 0 to {MAX_DRAWS}, got {draws}")
+    if seed is not None and seed < 0:
+        raise InputError(f"--seed must not be negative, got {seed}")
+    return run_study(study, draws=draws, seed=seed, series=series)
+
+
+def check_outputs(paths: Sequence[str], inputs: Sequence = ()) -> None:
+    """Refuse output names that cannot be written or would replace an input, before a
+    long run (type by extension: .xlsx, .csv or .json)."""
+    from .report.common import check_target
+
+    for out in paths:
+        check_target(out, list(inputs), suffixes=STUDY_OUTPUT_SUFFIXES)
+
+
+def write_study_outputs(result, paths: Sequence[str]) -> list:
+    """Write a study result to every path (by extension), all or nothing, never over one
+    of the study's input files. Returns the paths written."""
+    from .report.common import all_or_nothing, check_target
+    from .report.output import study_inputs, write_output
+
+    inputs = study_inputs(result)
+    for out in paths:
+        check_target(out, inputs)
+    with all_or_nothing():
+        return [write_output(result, out, inputs=inputs) for out in paths]

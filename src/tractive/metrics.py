@@ -329,6 +329,46 @@ def to_units(values: Mapping, units: str) -> dict:
     return out
 
 
+#: largest deviation of a mix's shares from a sum of 1 that is taken as rounding [-]
+SHARE_SUM_TOLERANCE = 1e-6
+
+
+def check_shares(shares: Sequence[float], count: int, what: str = "profile") -> list:
+    """Distance shares of a mix as floats, checked: one per member, each ≥ 0 and finite,
+    adding up to 1 (within :data:`SHARE_SUM_TOLERANCE`).
+
+    Raises
+    ------
+    InputError
+        With field ``shares`` and the rule broken.
+    """
+    from .errors import InputError
+
+    shares = [float(x) for x in shares]
+    if len(shares) != count:
+        raise InputError(f"give one share per {what}: {count} {what}s, {len(shares)} "
+                         f"shares", field="shares")
+    if count == 0:
+        raise InputError(f"a mix needs at least one {what}", field="shares")
+    if any(not np.isfinite(x) or x < 0 for x in shares):
+        raise InputError("shares must be numbers of 0 or more", field="shares")
+    if abs(sum(shares) - 1.0) > SHARE_SUM_TOLERANCE:
+        raise InputError(f"shares must add up to 1, they add up to {sum(shares):.6g}",
+                         field="shares")
+    return shares
+
+
+def weighted_mean(values: Sequence, shares: Sequence[float]):
+    """Σ wᵢ·xᵢ: the mix of an amount per distance (scalars or arrays)."""
+    return sum(w * x for w, x in zip(shares, values))
+
+
+def harmonic_mean(values: Sequence, shares: Sequence[float]):
+    """1 / Σ (wᵢ / xᵢ): the mix of a distance per amount (+inf members add nothing)."""
+    with np.errstate(divide="ignore"):
+        return 1.0 / sum(w / x for w, x in zip(shares, values))
+
+
 def mix(members: Sequence[Mapping], shares: Sequence[float]) -> dict:
     """Values of a duty mix from the same metrics on each profile, by distance share.
 
@@ -356,10 +396,9 @@ def mix(members: Sequence[Mapping], shares: Sequence[float]) -> dict:
         if m is None:
             continue
         if m.kind == PER_DISTANCE:
-            out[key] = sum(w * mm[key] for w, mm in zip(shares, members))
+            out[key] = weighted_mean([mm[key] for mm in members], shares)
         elif m.kind == DISTANCE_PER:
-            with np.errstate(divide="ignore"):
-                out[key] = 1.0 / sum(w / mm[key] for w, mm in zip(shares, members))
+            out[key] = harmonic_mean([mm[key] for mm in members], shares)
         elif m.kind == INDEPENDENT:
             v = first[key]
             out[key] = v.copy() if isinstance(v, np.ndarray) else v

@@ -12,7 +12,7 @@ import sys
 
 import click
 
-from ..errors import InputError
+from ..api import InputError
 
 
 #: command name → module of this package that defines it. Modules are imported

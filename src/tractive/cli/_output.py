@@ -2,40 +2,20 @@
 
 from __future__ import annotations
 
-import json
 import math
 
 import click
-import numpy as np
 
-
-def _clean(obj):
-    """Make data JSON-safe: numpy → Python, NaN/inf → null."""
-    if isinstance(obj, dict):
-        return {str(k): _clean(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_clean(v) for v in obj]
-    if isinstance(obj, np.ndarray):
-        return _clean(obj.tolist())
-    if isinstance(obj, (np.floating, float)):
-        v = float(obj)
-        return v if math.isfinite(v) else None
-    if isinstance(obj, np.integer):
-        return int(obj)
-    if isinstance(obj, np.bool_):
-        return bool(obj)
-    return obj
-
-
-def json_text(data) -> str:
-    return json.dumps(_clean(data), indent=2, allow_nan=False, ensure_ascii=False)
+from ..api import json_text
 
 
 def emit_json(data) -> None:
+    """Print one JSON document (numpy → Python, NaN/inf → null)."""
     click.echo(json_text(data))
 
 
 def fmt(value, spec: str = ".1f") -> str:
+    """A number formatted by ``spec``; "-" for None, NaN or infinity; text as is."""
     if value is None:
         return "-"
     if isinstance(value, str):

@@ -2,52 +2,16 @@
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import click
 
-from ..errors import InputError
+from .. import api
 from . import cli
-from ._output import emit_json, fmt, json_text, table
+from ._output import emit_json, fmt, table
 
 #: columns of the text table (shown when present), metric and US units
 _HEADLINE = ("positive_energy_wh_per_km", "positive_energy_wh_per_mi", "battery_wh_per_km",
              "battery_wh_per_mi", "fuel_l_per_100km", "fuel_economy_mpg", "range_km",
              "range_mi", "top_speed_kmh", "top_speed_mph", "annual_energy_cost", "payback_years")
-
-
-def study_inputs(result) -> list:
-    """Every file a study read (the output must not replace any of them)."""
-    files = {result.source}
-    for item in result.inputs:
-        src = str(item.source)
-        if src in ("default", "computed", "command line"):
-            continue
-        files.add(src.rsplit(":", 1)[0] if src.rsplit(":", 1)[-1].isdigit() else src)
-    for p in result.profiles:
-        if p.spec and Path(p.spec).suffix.lower() in (".csv", ".gpx"):
-            files.add(str(Path(result.source).parent / p.spec))
-    return sorted(files)
-
-
-def write_output(result, path: str, *, inputs) -> Path:
-    """Write a result by the file's extension: .xlsx, .csv or .json."""
-    suffix = Path(path).suffix.lower()
-    if suffix == ".csv":
-        from ..report.csv import write_summary_csv
-        return write_summary_csv(result, path, inputs=inputs)
-    if suffix == ".json":
-        from ..report.common import write_text_atomic
-        return write_text_atomic(path, json_text(result.to_dict()) + "\n", inputs=inputs)
-    if suffix == ".xlsx":
-        try:
-            from ..report.xlsx import write_workbook
-        except ImportError:
-            raise InputError("the workbook writer is not available in this installation; "
-                             "write .csv or .json", file=path) from None
-        return write_workbook(result, path, inputs=inputs)
-    raise InputError("unknown output type; use a name ending in .xlsx, .csv or .json",
-                     file=path)
 
 
 @cli.command("compare")
@@ -57,8 +21,8 @@ def write_output(result, path: str, *, inputs) -> Path:
                    "Repeat for several.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
 @click.option("--draws", type=int, default=None, metavar="N",
-              help="Monte Carlo draws (overrides the study; 0 = nominal only; at most "
-                   "200000).")
+              help=f"Monte Carlo draws (overrides the study; 0 = nominal only; at most "
+                   f"{api.MAX_DRAWS}).")
 @click.option("--seed", type=int, default=None, metavar="S",
               help="Random seed (overrides the study).")
 def compare_command(study_file, outputs, as_json, draws, seed):
@@ -69,27 +33,11 @@ def compare_command(study_file, outputs, as_json, draws, seed):
     how much of each change comes from aero, rolling, mass, downforce and
     powertrain (Shapley values).
     """
-    from ..study.spec import MAX_DRAWS
-
-    if draws is not None and not 0 <= draws <= MAX_DRAWS:
-        raise InputError(f"--draws must be from 0 to {MAX_DRAWS}, got {draws}")
-    if seed is not None and seed < 0:
-        raise InputError(f"--seed must not be negative, got {seed}")
-    from ..report.common import check_target
-    from ..study.engine import run_study
-
-    for out in outputs:          # cheap checks first: no long run for a bad output name
-        check_target(out, [study_file], suffixes=(".xlsx", ".csv", ".json"))
-    result = run_study(study_file, draws=draws, seed=seed,
-                       series=any(o.lower().endswith(".xlsx") for o in outputs))
-    inputs = study_inputs(result)
-    for out in outputs:          # now that the study's own input files are known
-        check_target(out, inputs)
-    from ..report.common import all_or_nothing
-
-    with all_or_nothing():       # no output is created or replaced unless all were written
-        for out in outputs:
-            write_output(result, out, inputs=inputs)
+    # cheap checks first: no long run for a bad output name
+    api.check_outputs(outputs, [study_file])
+    result = api.compare(study_file, draws=draws, seed=seed,
+                         series=any(o.lower().endswith(".xlsx") for o in outputs))
+    api.write_study_outputs(result, outputs)
     if as_json:
         emit_json(result.to_dict())
         for w in result.warnings:

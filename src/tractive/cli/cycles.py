@@ -30,19 +30,15 @@ def cycles_command(profiles, dt_s, as_json):
     if not dt_s > 0 or dt_s > 60:
         raise click.BadParameter("must be a time step above 0 and at most 60 s",
                                  param_hint="--dt-s")
-    if profiles:
-        rows = api.profile_table(profiles, dt_s=dt_s)
-        if as_json:
-            emit_json({"profiles": rows})
-            return
-        click.echo(table(rows, [("name", "profile", "")] + _STATS))
-        return
-    rows = api.cycles_table()
+    report = api.cycles(profiles, dt_s=dt_s)
     if as_json:
-        emit_json({"cycles": [r.to_dict() for r in rows]})
+        emit_json(report.to_dict())
+        return
+    if profiles:
+        click.echo(table(list(report.rows), [("name", "profile", "")] + _STATS))
         return
     data = []
-    for r in rows:
+    for r in report.rows:
         d = r.to_dict()
         d["phases"] = ", ".join(d["phases"]) or "-"
         data.append(d)

@@ -5,8 +5,6 @@ from __future__ import annotations
 import click
 
 from .. import api
-from ..errors import InputError
-from ..vehicle import load_vehicle
 from . import cli
 from ._checks import Number, ranged
 from ._output import emit_json, table
@@ -39,12 +37,17 @@ def energy_command(vehicle_file, cycles, dt_s, mix_shares, as_json):
     aero, inertia and grade parts that add up to it. With a powertrain block,
     battery or fuel use, CO2 and range follow in a second table.
     """
-    vehicle = load_vehicle(vehicle_file)
-    report = api.energy(vehicle, api.load_profiles(cycles or api.DEFAULT_ENERGY_CYCLES,
-                                                   dt_s=dt_s))
+    shares = None if mix_shares is None else _shares(mix_shares)
+    report = api.energy(vehicle_file, api.load_profiles(cycles or api.DEFAULT_ENERGY_CYCLES,
+                                                        dt_s=dt_s))
+    if shares is not None:
+        try:
+            report = api.EnergyReport(report.vehicle, report.results,
+                                      api.energy_mix(report, shares))
+        except api.InputError as exc:
+            raise click.BadParameter(exc.message, param_hint="--mix-shares") from None
+    vehicle = report.vehicle
     data = report.to_dict()
-    if mix_shares is not None:
-        data["mix"] = _mix(vehicle, report, mix_shares)
     if as_json:
         emit_json(data)
         return
@@ -75,19 +78,17 @@ def energy_command(vehicle_file, cycles, dt_s, mix_shares, as_json):
         _powertrain_table(vehicle, data)
 
 
-def _mix(vehicle, report, text):
+def _shares(text: str) -> list:
+    """The --mix-shares numbers."""
     try:
-        shares = [float(x) for x in text.split(",")]
+        return [float(x) for x in text.split(",")]
     except ValueError:
         raise click.BadParameter(f"must be numbers separated by commas, got '{text}'",
                                  param_hint="--mix-shares") from None
-    try:
-        return api.energy_mix(report, shares)
-    except InputError as exc:
-        raise click.BadParameter(exc.message, param_hint="--mix-shares") from None
 
 
 def _powertrain_table(vehicle, data):
+    """The battery or fuel table below the wheel-energy table."""
     rows = list(data["results"]) + ([data["mix"]] if "mix" in data else [])
     if vehicle.powertrain.kind == "electric":
         click.echo("\nbattery (electric powertrain):")

@@ -4,8 +4,7 @@ from __future__ import annotations
 
 import click
 
-from ..performance import performance_summary
-from ..vehicle import load_vehicle
+from .. import api
 from . import cli
 from ._checks import Number, ranged
 from ._output import emit_json, fmt, table
@@ -36,10 +35,10 @@ def performance_command(vehicle_file, grade_pct, wind_kmh, grade_speed_kmh, as_j
     drive data: an engine full-load curve or a motor, gears and tyre radius,
     in the performance or the powertrain block.
     """
-    vehicle = load_vehicle(vehicle_file)
-    res = performance_summary(vehicle, grade_pct=grade_pct, wind_kmh=wind_kmh,
-                              gradeability_speed_kmh=grade_speed_kmh)
-    data = res.to_dict()
+    report = api.performance(vehicle_file, grade_pct=grade_pct, wind_kmh=wind_kmh,
+                             gradeability_speed_kmh=grade_speed_kmh)
+    vehicle = report.vehicle
+    data = report.to_dict()
     if as_json:
         emit_json(data)
         return

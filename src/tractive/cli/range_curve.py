@@ -3,16 +3,14 @@
 from __future__ import annotations
 
 import click
-import numpy as np
 
-from ..powertrain.curve import range_curve
-from ..vehicle import load_vehicle
+from .. import api
 from . import cli
 from ._checks import Number, ranged
 from ._output import emit_json, fmt, table
 
 #: highest speed accepted [km/h]
-MAX_SPEED_KMH = 500.0
+MAX_SPEED_KMH = api.MAX_USER_SPEED_KMH
 
 
 #: checked options: speeds up to 500 km/h (above any road vehicle's top speed, common
@@ -20,7 +18,7 @@ MAX_SPEED_KMH = 500.0
 SPEED = Number(0.0, MAX_SPEED_KMH, low_open=True, unit="km/h")
 AMBIENT = Number(-60.0, 60.0, unit="°C")
 #: most speeds one curve may have
-MAX_SPEEDS = 10000
+MAX_SPEEDS = api.MAX_RANGE_SPEEDS
 
 
 @cli.command("range-curve")
@@ -42,17 +40,14 @@ def range_curve_command(vehicle_file, from_kmh, to_kmh, step_kmh, ambient_c, as_
     and the speed of greatest range (electric: battery Wh/km; combustion:
     L/100 km, CO2 and tank range).
     """
-    if not to_kmh >= from_kmh:
-        raise click.BadParameter("must be at least --from-kmh", param_hint="--to-kmh")
-    if (to_kmh - from_kmh) / step_kmh > MAX_SPEEDS:
-        raise click.BadParameter(f"gives more than {MAX_SPEEDS} speeds",
-                                 param_hint="--step-kmh")
-    speeds = np.arange(from_kmh, to_kmh + 1e-9 * max(1.0, to_kmh), step_kmh)
-    vehicle = load_vehicle(vehicle_file)
-    curve = range_curve(vehicle, speeds, ambient_temperature_c=ambient_c)
-    data = curve.to_dict()
-    data["ambient_temperature_c"], notes = _ambient(vehicle, ambient_c)
-    data["notes"] = notes
+    try:
+        speeds = api.range_speeds_kmh(from_kmh, to_kmh, step_kmh)
+    except api.InputError as exc:
+        raise click.BadParameter(exc.message, param_hint="--" + exc.field.replace("_", "-")) \
+            from None
+    report = api.range_curve(vehicle_file, speeds, ambient_temperature_c=ambient_c)
+    vehicle, curve = report.vehicle, report.curve
+    data = report.to_dict()
     if as_json:
         emit_json(data)
         return
@@ -70,14 +65,7 @@ def range_curve_command(vehicle_file, from_kmh, to_kmh, step_kmh, ambient_c, as_
             cols.append(("fuel_kg_per_100km", "kg/100km", ".2f"))
         cols += [("co2_g_per_km", "CO2 g/km", ".0f"), ("gear", "gear", ".0f"),
                  ("engine_speed_rpm", "rpm", ".0f"), ("range_km", "range km", ".0f")]
-    gov = getattr(vehicle.performance, "governor_kmh", None)
-    rows = []
-    for r in data["rows"]:
-        row = dict(r)
-        row["note"] = "" if r["feasible"] else (
-            "above the governor" if gov is not None and r["speed_kmh"] > gov * (1 + 1e-12)
-            else "beyond the drive's limits")
-        rows.append(row)
+    rows = [dict(r, note=note) for r, note in zip(data["rows"], report.row_notes)]
     if not all(r["feasible"] for r in data["rows"]):
         cols.append(("note", "note", ""))
     click.echo(table(rows, cols))
@@ -86,20 +74,3 @@ def range_curve_command(vehicle_file, from_kmh, to_kmh, step_kmh, ambient_c, as_
                f"{fmt(data['best_speed_kmh'], '.1f')} km/h{edge}")
     for note in data["notes"]:
         click.echo(f"note: {note}")
-
-
-def _ambient(vehicle, ambient_c):
-    """The ambient temperature the curve used [°C] (None when none is used) and notes."""
-    pt = vehicle.powertrain
-    table_aux = (getattr(pt, "kind", None) == "electric"
-                 and getattr(pt, "auxiliary_power_table_w", None) is not None)
-    if table_aux:
-        used = ambient_c if ambient_c is not None else pt.ambient_temperature_c
-        return used, []
-    if ambient_c is None:
-        return None, []
-    why = ("a combustion powertrain has no temperature-dependent auxiliary load here"
-           if getattr(pt, "kind", None) == "combustion"
-           else "the vehicle's auxiliary power is a constant (auxiliary_power_kw), not a "
-                "table over temperature")
-    return None, [f"--ambient-c {ambient_c:g} °C is not used: {why}"]

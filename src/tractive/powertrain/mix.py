@@ -19,8 +19,9 @@ from typing import Sequence
 import numpy as np
 
 from ..errors import InputError
-from ..units import MILE_M, UK_GALLON_L, US_GALLON_L
-from ._common import plain, range_from, safe_divide
+from ..metrics import check_shares, l_per_100km_to_mpg, weighted_mean
+from ..units import UK_GALLON_L, US_GALLON_L
+from ._common import plain, range_from
 
 
 @dataclass(frozen=True)
@@ -64,8 +65,8 @@ class MixResult:
             out["battery_wh_per_km"] = plain(per_km * 1000.0)
         elif self.unit == "L":
             out["fuel_l_per_100km"] = plain(per_km * 100.0)
-            out["mpg_us"] = plain(safe_divide(1000.0 / MILE_M, per_km / US_GALLON_L))
-            out["mpg_uk"] = plain(safe_divide(1000.0 / MILE_M, per_km / UK_GALLON_L))
+            out["mpg_us"] = plain(l_per_100km_to_mpg(per_km * 100.0, US_GALLON_L))
+            out["mpg_uk"] = plain(l_per_100km_to_mpg(per_km * 100.0, UK_GALLON_L))
         else:
             out["fuel_kg_per_100km"] = plain(per_km * 100.0)
         if self.co2_g_per_km is not None:
@@ -84,17 +85,7 @@ def mix_results(results: Sequence, shares: Sequence[float]) -> MixResult:
         Distance shares [-], one per result, ≥ 0, summing to 1 (within 1e-6).
     """
     results = list(results)
-    shares = [float(s) for s in shares]
-    if len(results) != len(shares):
-        raise InputError(f"give one share per profile: {len(results)} profiles, "
-                         f"{len(shares)} shares", field="shares")
-    if not results:
-        raise InputError("a mix needs at least one profile", field="shares")
-    if any(not np.isfinite(s) or s < 0 for s in shares):
-        raise InputError("shares must be numbers ≥ 0", field="shares")
-    if abs(sum(shares) - 1.0) > 1e-6:
-        raise InputError(f"shares must add up to 1, they add up to {sum(shares):g}",
-                         field="shares")
+    shares = check_shares(shares, len(results))
     kinds = {r.kind for r in results}
     if len(kinds) != 1:
         raise InputError("all results in a mix must come from one powertrain", field="shares")
@@ -103,14 +94,14 @@ def mix_results(results: Sequence, shares: Sequence[float]) -> MixResult:
         if not r.distance_km > 0:
             raise InputError(f"profile '{r.profile}' has no distance; it cannot be part of a "
                              "mix by distance", field="shares")
-    per_km = sum(s * np.asarray(r.store_used, float) / r.distance_km
-                 for s, r in zip(shares, results))
+    per_km = weighted_mean([np.asarray(r.store_used, float) / r.distance_km
+                            for r in results], shares)
     first = results[0]
     if kind == "electric":
         unit = "kWh"
         co2 = None
     else:
         unit = "kg" if first.tank_l is None else "L"
-        co2 = sum(s * np.asarray(r.co2_g_per_km, float) for s, r in zip(shares, results))
+        co2 = weighted_mean([np.asarray(r.co2_g_per_km, float) for r in results], shares)
     return MixResult(tuple(r.profile for r in results), tuple(shares), kind, per_km,
                      float(np.asarray(first.store_size)), unit, co2)
