@@ -1,20 +1,19 @@
 """The `cycles` and `energy` commands: output shape and one-line errors."""
 
 import json
-import subprocess
-import sys
 import textwrap
 from pathlib import Path
 
 import pytest
+from conftest import run_cli
 
 ROOT = Path(__file__).resolve().parents[1]
 HATCH = ROOT / "examples" / "vehicles" / "hatchback.yaml"
 
 
 def run(*args, cwd=None):
-    return subprocess.run([sys.executable, "-m", "tractive", *map(str, args)],
-                          capture_output=True, text=True, cwd=cwd)
+    """The command run in-process (see conftest.run_cli)."""
+    return run_cli(*args, cwd=cwd)
 
 
 def test_cycles_json():
@@ -189,3 +188,18 @@ def test_energy_mix_of_wheel_energy_without_a_powertrain():
     assert 1 / mix["positive_energy_wh_per_km"] == pytest.approx(economy, rel=1e-12)
     r = run("energy", HATCH, "-c", "udds", "-c", "hwfet", "--mix-shares", "0.5,0.6")
     assert r.returncode == 2 and "--mix-shares" in r.stderr
+
+
+def test_end_to_end_through_the_console_module():
+    # smoke test of the real entry point in a fresh process (the others run in-process)
+    import subprocess
+    import sys
+
+    r = subprocess.run([sys.executable, "-m", "tractive", "energy", str(HATCH), "-c", "udds",
+                        "--json"], capture_output=True, text=True)
+    assert r.returncode == 0, r.stderr
+    assert json.loads(r.stdout)["results"][0]["cycle"] == "udds"
+    r = subprocess.run([sys.executable, "-m", "tractive", "energy", "nope.yaml"],
+                       capture_output=True, text=True)
+    assert r.returncode == 2 and len(r.stderr.strip().splitlines()) == 1
+    assert "Traceback" not in r.stderr

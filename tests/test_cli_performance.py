@@ -1,11 +1,10 @@
 """The `performance` command: JSON shape, conditions, text table, one-line errors."""
 
 import json
-import subprocess
-import sys
 from pathlib import Path
 
 import pytest
+from conftest import run_cli
 
 from tractive.performance import performance_summary
 from tractive.vehicle import load_vehicle
@@ -17,8 +16,8 @@ LIMITS = {"power", "traction", "rev_limit", "motor_speed_limit", "governor", "se
 
 
 def run(*args):
-    return subprocess.run([sys.executable, "-m", "tractive", *map(str, args)],
-                          capture_output=True, text=True)
+    """The command run in-process (see conftest.run_cli)."""
+    return run_cli(*args)
 
 
 def test_performance_json_keys_and_values_match_the_library():

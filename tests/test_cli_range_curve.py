@@ -1,20 +1,19 @@
 """The `range-curve` command and the powertrain columns of `energy`."""
 
 import json
-import subprocess
-import sys
 from pathlib import Path
 
 import numpy as np
 import pytest
+from conftest import run_cli
 
 ROOT = Path(__file__).resolve().parents[1]
 VEH = ROOT / "examples" / "vehicles"
 
 
 def run(*args):
-    return subprocess.run([sys.executable, "-m", "tractive", *map(str, args)],
-                          capture_output=True, text=True)
+    """The command run in-process (see conftest.run_cli)."""
+    return run_cli(*args)
 
 
 def test_range_curve_electric_json():
