@@ -248,10 +248,18 @@ METRICS: tuple[Metric, ...] = (
     _m("annual_energy_cost", "annual energy cost", MONEY, ANNUAL, "lower", attributed=True,
        headline=True),
     _m("annual_co2_kg", "annual CO2", "kg", ANNUAL, "lower", attributed=True),
+    _m("fleet_annual_fuel_l", "fleet fuel per year", "L", ANNUAL, "lower",
+       us=USForm("fleet_annual_fuel_gal", "US gal", "fleet fuel per year",
+                 divisor=US_GALLON_L)),
+    _m("fleet_annual_grid_energy_kwh", "fleet electricity per year", "kWh", ANNUAL, "lower"),
+    _m("fleet_annual_co2_t", "fleet CO2 per year", "t", ANNUAL, "lower"),
+    _m("fleet_annual_energy_cost", "fleet energy cost per year", MONEY, ANNUAL, "lower"),
     _m("annual_saving", "annual saving against baseline", MONEY, ECONOMICS, "higher"),
+    _m("fleet_annual_saving", "fleet saving per year", MONEY, ECONOMICS, "higher"),
     _m("modification_cost", "cost of the modification", MONEY, INDEPENDENT, "lower"),
     _m("payback_years", "simple payback", "years", ECONOMICS, "lower", headline=True),
     _m("npv", "net present value", MONEY, ECONOMICS, "higher"),
+    _m("fleet_npv", "fleet net present value", MONEY, ECONOMICS, "higher"),
 )
 
 

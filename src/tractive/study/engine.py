@@ -143,6 +143,8 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
     warnings: list[str] = []
     profiles, infos = _resolve_profiles(spec)
     variants, uncertain = _build_variants(spec, rng, n, warnings)
+    prices = _price_draws(spec, rng, n, uncertain)
+    costs = _cost_draws(spec, variants, rng, n, uncertain)
 
     raw_results, demands = {}, {}
     for v in variants:
@@ -154,17 +156,18 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
         if v.params.powertrain is None and v.params.performance is not None:
             _note_wheel_power(v.name, v.params, demands[v.name], warnings)
     _check_money(spec, raw_results, warnings)
-    derived = {v.name: _derive(spec, raw_results[v.name]) for v in variants}
+    derived = {v.name: _derive(spec, raw_results[v.name], prices) for v in variants}
     for v in variants:
         if v.role != BASELINE:
-            _compare_economics(spec, derived[v.name], derived[BASELINE], v.cost)
+            _compare_economics(spec, derived[v.name], derived[BASELINE],
+                               costs.get(v.name, v.cost))
     out_units = {name: {p: to_units(m, spec.units) for p, m in d.items()}
                  for name, d in derived.items()}
 
     order = [p for p, _ in profiles] + [mx.name for mx in spec.mixes]
     kinds = {p: "profile" for p, _ in profiles} | {mx.name: "mix" for mx in spec.mixes}
     rows = [_row(v.name, v.role, p, kinds[p], out_units[v.name][p], out_units[BASELINE][p],
-                 n, spec.confidence_pct) for v in variants for p in order]
+                 n, spec.confidence_pct, spec.economics) for v in variants for p in order]
     variant_infos, attribution = _attribute_variants(spec, variants, profiles, order,
                                                      out_units, warnings)
     curves = [_range_curve(v.name, v.params, spec) for v in variants
@@ -685,18 +688,28 @@ def _mix(per_profile: dict, shares_pct: dict) -> dict:
     return mix([per_profile[k] for k in shares_pct], [v / 100.0 for v in shares_pct.values()])
 
 
-def _derive(spec: StudySpec, per_profile: dict) -> dict:
-    """Add duty mixes and annual quantities (not the comparisons)."""
+def _derive(spec: StudySpec, per_profile: dict, prices: dict | None = None) -> dict:
+    """Add duty mixes and annual quantities (not the comparisons).
+
+    ``prices`` holds the fuel price [money/L] and electricity price
+    [money/kWh] as floats or arrays along the vehicle axis (Monte Carlo draws);
+    the nominal prices when None.
+    """
     out = {p: dict(m) for p, m in per_profile.items()}
     for mx in spec.mixes:
         out[mx.name] = _mix(per_profile, mx.shares_pct)
     if spec.economics is not None:
+        if prices is None:
+            prices = {"fuel": spec.economics.fuel_price_per_l,
+                      "electricity": spec.economics.electricity_price_per_kwh}
         for met in out.values():
-            _annual(spec.economics, met)
+            _annual(spec.economics, met, prices)
+            _fleet_totals(spec.economics, met)
     return out
 
 
-def _annual(e, met: dict) -> None:
+def _annual(e, met: dict, prices: dict) -> None:
+    """Annual distance, energy, cost and CO2 of one profile's metrics (in place)."""
     size = next(iter(met.values())).shape
     dist = e.annual_distance_km
     met["annual_distance_km"] = np.full(size, dist)
@@ -712,22 +725,43 @@ def _annual(e, met: dict) -> None:
             grid = battery
         met["annual_battery_energy_kwh"] = battery
         met["annual_grid_energy_kwh"] = grid
-        if e.electricity_price_per_kwh is not None:
-            met["annual_energy_cost"] = grid * e.electricity_price_per_kwh
+        if prices["electricity"] is not None:
+            met["annual_energy_cost"] = grid * prices["electricity"]
         if e.electricity_co2_g_per_kwh is not None:
             met["annual_co2_kg"] = grid * e.electricity_co2_g_per_kwh / 1000.0
     elif "fuel_l_per_100km" in met:
         fuel = annual_amount(met["fuel_l_per_100km"] / 100.0, dist)
         met["annual_fuel_l"] = fuel
-        if e.fuel_price_per_l is not None:
-            met["annual_energy_cost"] = fuel * e.fuel_price_per_l
+        if prices["fuel"] is not None:
+            met["annual_energy_cost"] = fuel * prices["fuel"]
         if e.fuel_co2_g_per_l is not None:
             met["annual_co2_kg"] = fuel * e.fuel_co2_g_per_l / 1000.0
         elif "co2_g_per_km" in met:
             met["annual_co2_kg"] = annual_amount(met["co2_g_per_km"] / 1000.0, dist)
 
 
+#: annual metric → (fleet metric, factor): fleet totals of ``economics.vehicles``
+FLEET_TOTALS = {"annual_fuel_l": ("fleet_annual_fuel_l", 1.0),
+                "annual_grid_energy_kwh": ("fleet_annual_grid_energy_kwh", 1.0),
+                "annual_co2_kg": ("fleet_annual_co2_t", 1e-3),
+                "annual_energy_cost": ("fleet_annual_energy_cost", 1.0)}
+
+
+def _fleet_totals(e, met: dict) -> None:
+    """Fleet totals per year (``economics.vehicles`` × one vehicle's annual amounts)."""
+    if e.vehicles is None:
+        return
+    for key, (fleet_key, factor) in FLEET_TOTALS.items():
+        if key in met:
+            met[fleet_key] = met[key] * (e.vehicles * factor)
+
+
 def _compare_economics(spec: StudySpec, derived: dict, base: dict, cost) -> None:
+    """Saving against the baseline, payback and NPV of a variant (in place).
+
+    ``cost`` is a float, or an array of the cost's Monte Carlo draws (nominal
+    first) when the study gives ``cost_std``.
+    """
     e = spec.economics
     if e is None:
         return
@@ -737,12 +771,59 @@ def _compare_economics(spec: StudySpec, derived: dict, base: dict, cost) -> None
             continue
         saving = b["annual_energy_cost"] - met["annual_energy_cost"]
         met["annual_saving"] = saving
+        if e.vehicles is not None:
+            met["fleet_annual_saving"] = saving * e.vehicles
         if cost is None:
             continue
-        met["modification_cost"] = np.full(saving.shape, float(cost))
-        met["payback_years"] = simple_payback_years(cost, saving)
+        cost_arr = np.broadcast_to(np.asarray(cost, float), saving.shape).copy()
+        met["modification_cost"] = cost_arr
+        met["payback_years"] = simple_payback_years(cost_arr if np.ndim(cost) else cost,
+                                                    saving)
         if e.service_life_years is not None:
-            met["npv"] = net_present_value(cost, saving, e.discount_rate, e.service_life_years)
+            met["npv"] = net_present_value(cost_arr if np.ndim(cost) else cost, saving,
+                                           e.discount_rate, e.service_life_years)
+            if e.vehicles is not None:
+                met["fleet_npv"] = met["npv"] * e.vehicles
+
+
+def _price_draws(spec: StudySpec, rng, n: int, uncertain: list) -> dict:
+    """Fuel and electricity prices: floats, or arrays (nominal + n draws, normal,
+    clipped at 0) when the study gives their standard uncertainty."""
+    e = spec.economics
+    if e is None:
+        return {"fuel": None, "electricity": None}
+    out = {}
+    for name, price, std, unit in (
+            ("fuel", e.fuel_price_per_l, e.fuel_price_std_per_l, "per L"),
+            ("electricity", e.electricity_price_per_kwh, e.electricity_price_std_per_kwh,
+             "per kWh")):
+        out[name] = price
+        if price is not None and std > 0 and n > 0:
+            z = standard_normal_draws(rng, n)
+            out[name] = np.maximum(price + std * z, 0.0)      # index 0: z = 0, the nominal
+            uncertain.append(f"{name} price ± {std:g} {spec.currency} {unit}")
+    return out
+
+
+def _cost_draws(spec: StudySpec, variants, rng, n: int, uncertain: list) -> dict:
+    """Cost draws (nominal + n) of every variant whose cost is uncertain (``cost_std``);
+    a combination's cost is the sum of its members' draws."""
+    mods = {m.name: m for m in spec.modifications}
+    draws = {}
+    for m in spec.modifications:
+        if m.cost is not None and m.cost_std > 0 and n > 0:
+            z = standard_normal_draws(rng, n)
+            draws[m.name] = m.cost + m.cost_std * z           # index 0: the nominal cost
+            uncertain.append(f"{m.name}: cost ± {m.cost_std:g} {spec.currency}")
+    out = {}
+    for v in variants:
+        if v.cost is None or not any(k in draws for k in v.members):
+            continue
+        total = np.zeros(n + 1)
+        for k in v.members:
+            total = total + (draws[k] if k in draws else mods[k].cost)
+        out[v.name] = total
+    return out
 
 
 # ---------------------------------------------------------------------------
@@ -793,7 +874,9 @@ def _nominal(x) -> float | None:
     return v if np.isfinite(v) else None
 
 
-def _row(name, role, profile, kind, met, base, n, conf) -> ResultRow:
+def _row(name, role, profile, kind, met, base, n, conf, economics=None) -> ResultRow:
+    """One result row: nominal values, Monte Carlo intervals, changes against the
+    baseline with their intervals, and the economic verdict."""
     metrics, mean, low, high = {}, {}, {}, {}
     change, change_pct, c_mean, c_low, c_high, dist = {}, {}, {}, {}, {}, {}
     for key, arr in met.items():
@@ -818,7 +901,30 @@ def _row(name, role, profile, kind, met, base, n, conf) -> ResultRow:
         if c_low[key] is not None:
             dist[key] = bool(c_low[key] > 0.0 or c_high[key] < 0.0)
     return ResultRow(name, role, profile, kind, metrics, change, change_pct, mean, low, high,
-                     c_mean, c_low, c_high, dist)
+                     c_mean, c_low, c_high, dist, _verdict(met, n, economics))
+
+
+def _verdict(met: dict, n: int, economics) -> dict:
+    """Whether a variant's payback exceeds the service life and its NPV is negative.
+
+    ``payback_exceeds_life``: the nominal modification costs money and never pays
+    back, or pays back later than ``service_life_years``; ``npv_negative``: the
+    nominal NPV is below 0; ``pays_back_within_life_pct``: share of the Monte
+    Carlo draws (the nominal when there are none) that pay back within the
+    service life [%]. Empty without a cost or a service life.
+    """
+    life = getattr(economics, "service_life_years", None)
+    if "payback_years" not in met or life is None:
+        return {}
+    payback = np.asarray(met["payback_years"], float)
+    samples = payback[1:] if n > 0 else payback[:1]
+    p0 = float(payback[0])
+    cost0 = float(np.asarray(met["modification_cost"])[0])
+    out = {"payback_exceeds_life": bool(cost0 > 0 and not (p0 <= life)),
+           "pays_back_within_life_pct": float(np.mean(samples <= life) * 100.0)}
+    if "npv" in met:
+        out["npv_negative"] = bool(float(np.asarray(met["npv"])[0]) < 0.0)
+    return out
 
 
 def _is_comparative(key: str) -> bool:
@@ -829,8 +935,12 @@ def _is_comparative(key: str) -> bool:
 
 
 def _payback_interval(met, n, conf):
-    """Payback quantiles from the saving quantiles (cost / saving is monotone)."""
-    cost = float(np.asarray(met["modification_cost"])[0])
+    """Payback quantiles from the saving quantiles (cost / saving is monotone); with an
+    uncertain cost, quantiles of the payback of each draw (never = beyond any bound)."""
+    costs = np.asarray(met["modification_cost"], float)
+    if n > 0 and np.any(costs[1:] != costs[0]):
+        return _payback_interval_drawn(met, n, conf)
+    cost = float(costs[0])
     saving = np.asarray(met["annual_saving"], float)
     samples = saving[1:] if n > 0 else saving[:1]
     s_mean, s_low, s_high = interval(samples, conf)
@@ -843,6 +953,17 @@ def _payback_interval(met, n, conf):
     high = cost / s_low if s_low > 0 else None
     mean = float(np.mean(cost / samples)) if np.all(samples > 0) else None
     return mean, cost / s_high, high
+
+
+def _payback_interval_drawn(met, n, conf):
+    """Mean and interval of the payback of each draw; a draw that never pays back
+    counts as infinitely long (an upper bound at infinity is reported as None)."""
+    payback = np.asarray(met["payback_years"], float)[1:]
+    samples = np.where(np.isnan(payback), np.inf, payback)
+    tail = (100.0 - conf) / 2.0
+    low, high = (float(x) for x in np.percentile(samples, [tail, 100.0 - tail]))
+    mean = float(np.mean(samples)) if np.all(np.isfinite(samples)) else None
+    return mean, (low if np.isfinite(low) else None), (high if np.isfinite(high) else None)
 
 
 # ---------------------------------------------------------------------------

@@ -75,6 +75,10 @@ class ResultRow:
         The same for the change.
     distinguishable : dict
         Per changed metric: True when the change interval excludes zero.
+    verdict : dict
+        With a cost and a service life: ``payback_exceeds_life``,
+        ``npv_negative`` (nominal) and ``pays_back_within_life_pct`` (share of
+        the draws) — see :func:`tractive.study.engine._verdict`.
     """
 
     variant: str
@@ -91,17 +95,23 @@ class ResultRow:
     change_low: dict = field(default_factory=dict)
     change_high: dict = field(default_factory=dict)
     distinguishable: dict = field(default_factory=dict)
+    verdict: dict = field(default_factory=dict)
 
     @property
     def is_baseline(self) -> bool:
+        """True on the baseline's rows."""
         return self.role == BASELINE
 
     def to_dict(self) -> dict:
+        """JSON-ready: identity, metrics at the top level, then the per-metric dicts and,
+        for a variant with a cost and a service life, its ``verdict``."""
         out = {"variant": self.variant, "role": self.role, "profile": self.profile,
                "profile_kind": self.profile_kind}
         out.update(self.metrics)
         for name in _ROW_DICTS:
             out[name] = dict(getattr(self, name))
+        if self.verdict:
+            out["verdict"] = dict(self.verdict)
         return out
 
 

@@ -99,6 +99,7 @@ class ModificationSpec:
     cost: float | None
     changes: tuple
     vehicle: Vehicle | None = None
+    cost_std: float = 0.0
     file: str | None = None
     field: str | None = None
     line: int | None = None
@@ -145,6 +146,9 @@ class EconomicsSpec:
     fuel_co2_g_per_l: float | None = None
     discount_rate: float = 0.0
     service_life_years: float | None = None
+    vehicles: int | None = None
+    fuel_price_std_per_l: float = 0.0
+    electricity_price_std_per_kwh: float = 0.0
     file: str | None = None
     fields: dict = dc_field(default_factory=dict)   # key -> (field, line) for errors
 
@@ -415,6 +419,11 @@ def _read_modifications(sec: Section, rd: _Reader) -> list:
         cost = m.number("cost", required=False)
         if cost is not None:
             rd.echo(f"modification {name}", "cost", cost, "money", rd.src(m, "cost"))
+        cost_std = 0.0
+        if m.has("cost_std"):
+            if cost is None:
+                raise m.error("cost_std needs a cost", "cost_std")
+            cost_std = rd.num(m, "cost_std", f"modification {name}", "money", min=0.0)
         vehicle = None
         raw = {}
         if m.has("vehicle"):
@@ -430,7 +439,7 @@ def _read_modifications(sec: Section, rd: _Reader) -> list:
         m.raw("notes")
         m.finish()
         mods.append(ModificationSpec(name=name, cost=cost, changes=changes, vehicle=vehicle,
-                                     file=m.file, field=m.prefix, line=m.line, raw=raw))
+                                     cost_std=cost_std, file=m.file, field=m.prefix, line=m.line, raw=raw))
     if not mods:
         raise sec.error("list at least one modification", "modifications")
     return mods
@@ -711,12 +720,44 @@ def _read_economics(sec: Section, rd: _Reader) -> EconomicsSpec | None:
         life = rd.num(e, "service_life_years", "economics", "years", min=0.0,
                       min_inclusive=False, max=100.0)
     loc("service_life_years")
+    fleet = None
+    if e.has("vehicles"):
+        fleet = e.integer("vehicles", min=1, max=10_000_000)
+        rd.echo("economics", "vehicles", fleet, "", rd.src(e, "vehicles"))
+    loc("vehicles")
+    fuel_std, elec_std = _price_stds(e, rd, fuel, elec)
     e.finish()
     return EconomicsSpec(annual_distance_km=dist, fuel_price_per_l=fuel,
                          electricity_price_per_kwh=elec, charging_efficiency=charge,
                          electricity_co2_g_per_kwh=grid_co2, fuel_co2_g_per_l=fuel_co2,
-                         discount_rate=rate / 100.0, service_life_years=life, file=e.file,
-                         fields=fields)
+                         discount_rate=rate / 100.0, service_life_years=life, vehicles=fleet,
+                         fuel_price_std_per_l=fuel_std, electricity_price_std_per_kwh=elec_std,
+                         file=e.file, fields=fields)
+
+
+def _price_stds(e: Section, rd: _Reader, fuel, elec) -> tuple:
+    """Standard uncertainties of the fuel price [money/L] and electricity price
+    [money/kWh] (0 when not given); each needs its price."""
+    if e.has("fuel_price_std_per_l") and e.has("fuel_price_std_per_gal"):
+        raise e.error("give fuel_price_std_per_l or fuel_price_std_per_gal, not both",
+                      "fuel_price_std_per_gal")
+    fuel_std = elec_std = 0.0
+    for key, unit in (("fuel_price_std_per_l", "money/L"),
+                      ("fuel_price_std_per_gal", "money/US gal")):
+        if e.has(key):
+            if fuel is None:
+                raise e.error(f"{key} needs a fuel price", key)
+            fuel_std = rd.num(e, key, "economics", unit, min=0.0)
+            if key.endswith("_gal"):
+                from ..units import US_GALLON_L
+                fuel_std /= US_GALLON_L
+    if e.has("electricity_price_std_per_kwh"):
+        if elec is None:
+            raise e.error("electricity_price_std_per_kwh needs electricity_price_per_kwh",
+                          "electricity_price_std_per_kwh")
+        elec_std = rd.num(e, "electricity_price_std_per_kwh", "economics", "money/kWh",
+                          min=0.0)
+    return fuel_std, elec_std
 
 
 def _read_uncertainty(sec: Section, rd: _Reader):
