@@ -30,6 +30,7 @@ from typing import Sequence
 
 from typing import TYPE_CHECKING
 
+from . import numfmt
 from .errors import InputError
 from .limits import MAX_DRAWS, MAX_MASS_KG, MAX_USER_SPEED_KMH
 from .plain import json_text, plain
@@ -41,7 +42,8 @@ __all__ = ["cycles", "energy", "energy_mix", "performance", "range_curve", "comp
            "write_study_outputs", "check_outputs", "load_vehicle", "load_profiles",
            "CyclesReport", "EnergyReport", "EnergyResult", "PerformanceReport",
            "RangeCurveReport", "InputError", "json_text", "plain", "DEFAULT_ENERGY_CYCLES",
-           "STUDY_OUTPUT_SUFFIXES", "MAX_DRAWS", "MAX_MASS_KG", "MAX_USER_SPEED_KMH"]
+           "STUDY_OUTPUT_SUFFIXES", "MAX_DRAWS", "MAX_MASS_KG", "MAX_USER_SPEED_KMH",
+           "headline_sentences", "metric_info", "numfmt"]
 
 #: cycles run by ``tractive energy`` when none is named
 DEFAULT_ENERGY_CYCLES = ("wltc3b", "udds", "hwfet")
@@ -456,3 +458,17 @@ def write_study_outputs(result, paths: Sequence[str]) -> list:
         check_target(out, inputs)
     with all_or_nothing():
         return [write_output(result, out, inputs=inputs) for out in paths]
+
+
+def headline_sentences(result) -> dict:
+    """Variant → one sentence a person can forward (:mod:`tractive.study.headline`)."""
+    from .study.headline import headlines
+
+    return headlines(result)
+
+
+def metric_info(key: str):
+    """The registry entry of a metric key (:func:`tractive.metrics.lookup`), or None."""
+    from .metrics import lookup
+
+    return lookup(key)

@@ -25,7 +25,14 @@ _HEADLINE = ("positive_energy_wh_per_km", "positive_energy_wh_per_mi", "battery_
                    f"{api.MAX_DRAWS}).")
 @click.option("--seed", type=int, default=None, metavar="S",
               help="Random seed (overrides the study).")
-def compare_command(study_file, outputs, as_json, draws, seed):
+@click.option("--metrics", default=None, metavar="KEY,KEY,...",
+              help="Metrics of the table, by key (e.g. range_km,annual_energy_cost); "
+                   "default: consumption, range, top speed, money and payback.")
+@click.option("--all", "show_all", is_flag=True, help="Show every metric of the result.")
+@click.option("--wide", is_flag=True,
+              help="One wide row per variant and profile with every headline column "
+                   "side by side (for wide terminals and copying).")
+def compare_command(study_file, outputs, as_json, draws, seed, metrics, show_all, wide):
     """Compare a baseline vehicle with its modifications on every profile and duty mix.
 
     Reports energy, fuel or battery use, range, performance and money for each
@@ -43,13 +50,19 @@ def compare_command(study_file, outputs, as_json, draws, seed):
         for w in result.warnings:
             click.echo(f"tractive: note: {w}", err=True)
         return
-    click.echo(text_summary(result))
+    if wide:
+        click.echo(text_summary(result))
+    else:
+        from ._study_text import summary_text
+
+        click.echo(summary_text(result, metrics=metrics, show_all=show_all))
     for out in outputs:
         click.echo(f"wrote {out}")
 
 
 def text_summary(result) -> str:
-    """A readable table: each variant and profile with the headline metrics and changes."""
+    """The wide table (--wide): each variant and profile with the headline metrics and
+    changes side by side."""
     keys = [k for k in _HEADLINE if any(k in r.metrics for r in result.rows)]
     rows = []
     for r in result.rows:
