@@ -43,7 +43,8 @@ __all__ = ["cycles", "energy", "energy_mix", "performance", "range_curve", "comp
            "CyclesReport", "EnergyReport", "EnergyResult", "PerformanceReport",
            "RangeCurveReport", "InputError", "json_text", "plain", "DEFAULT_ENERGY_CYCLES",
            "STUDY_OUTPUT_SUFFIXES", "MAX_DRAWS", "MAX_MASS_KG", "MAX_USER_SPEED_KMH",
-           "headline_sentences", "metric_info", "numfmt"]
+           "headline_sentences", "metric_info", "numfmt", "key_in_units", "UNIT_SYSTEMS",
+           "check_figure", "write_study_plot", "write_range_plot"]
 
 #: cycles run by ``tractive energy`` when none is named
 DEFAULT_ENERGY_CYCLES = ("wltc3b", "udds", "hwfet")
@@ -174,14 +175,19 @@ class EnergyReport:
     vehicle: "Vehicle"
     results: list = field(default_factory=list)
     mix: dict | None = None
+    units: str = "metric"
 
     def to_dict(self) -> dict:
-        """``{"vehicle", "results"[, "mix"]}``."""
+        """``{"vehicle", "results"[, "mix"]}``, in the report's units."""
+        from .metrics import convert_document
+
         out = {"vehicle": self.vehicle.to_dict(),
                "results": [r.to_dict() for r in self.results]}
         if self.mix is not None:
             out["mix"] = dict(self.mix)
-        return out
+        if self.units != "metric":
+            out["units"] = self.units
+        return convert_document(out, self.units)
 
 
 def load_profiles(specs: Sequence[str], *, base_dir: str | os.PathLike | None = None,
@@ -193,7 +199,8 @@ def load_profiles(specs: Sequence[str], *, base_dir: str | os.PathLike | None = 
 
 
 def energy(vehicle: "Vehicle | str | os.PathLike", profiles: Sequence = (), *,
-           dt_s: float = 1.0, mix_shares: Sequence[float] | None = None) -> EnergyReport:
+           dt_s: float = 1.0, mix_shares: Sequence[float] | None = None,
+           units: str = "metric") -> EnergyReport:
     """Wheel energy of a vehicle on each profile, plus fuel or battery use when the
     vehicle has a powertrain, and optionally their mix by distance share.
 
@@ -208,6 +215,8 @@ def energy(vehicle: "Vehicle | str | os.PathLike", profiles: Sequence = (), *,
     mix_shares : sequence of float, optional
         Distance shares [-] of the profiles (in order, adding up to 1): adds the
         mix (see :func:`energy_mix`).
+    units : {"metric", "us"}
+        Units of ``to_dict()`` (US: miles, gallons, mph; exact factors).
     """
     from .demand import vehicle_wheel_demand
     from .profiles import Profile, resolve_profile
@@ -223,10 +232,21 @@ def energy(vehicle: "Vehicle | str | os.PathLike", profiles: Sequence = (), *,
         if vehicle.powertrain is not None:
             pt = vehicle.powertrain.consume(vehicle, demand, prof)
         results.append(EnergyResult(prof, demand, pt))
-    report = EnergyReport(vehicle, results)
+    _check_units(units)
+    report = EnergyReport(vehicle, results, units=units)
     if mix_shares is None:
         return report
-    return EnergyReport(vehicle, results, energy_mix(report, mix_shares))
+    return EnergyReport(vehicle, results, energy_mix(report, mix_shares), units=units)
+
+
+#: output unit systems
+UNIT_SYSTEMS = ("metric", "us")
+
+
+def _check_units(units: str) -> None:
+    """Refuse an unknown unit system."""
+    if units not in UNIT_SYSTEMS:
+        raise InputError(f"units must be 'metric' or 'us', got '{units}'", field="units")
 
 
 def energy_mix(report: EnergyReport, shares: Sequence[float]) -> dict:
@@ -279,15 +299,27 @@ class PerformanceReport:
 
     vehicle: "Vehicle"
     result: object
+    units: str = "metric"
+    us_times: dict = field(default_factory=dict)
 
     def to_dict(self) -> dict:
-        """The performance result's document."""
-        return self.result.to_dict()
+        """The performance result's document, in the report's units (US: mph, and the
+        0-60 and 50-70 mph times instead of 0-100 and 80-120 km/h)."""
+        from .metrics import convert_document
+
+        out = self.result.to_dict()
+        if self.units == "metric":
+            return out
+        out = convert_document(out, self.units)
+        out.pop("shifts_0_100", None)       # counted on 0-100 km/h
+        out.update(self.us_times)
+        out["units"] = self.units
+        return out
 
 
 def performance(vehicle: "Vehicle | str | os.PathLike", *, grade_pct: float = 0.0,
-                wind_kmh: float = 0.0,
-                gradeability_speed_kmh: float | None = None) -> PerformanceReport:
+                wind_kmh: float = 0.0, gradeability_speed_kmh: float | None = None,
+                units: str = "metric") -> PerformanceReport:
     """Top speed in every gear with the binding limit, 0-100 and 80-120 km/h times,
     and gradeability.
 
@@ -301,13 +333,24 @@ def performance(vehicle: "Vehicle | str | os.PathLike", *, grade_pct: float = 0.
         Head wind [km/h] (negative: tail wind).
     gradeability_speed_kmh : float, optional
         Speed of the gradeability figure [km/h] (default: the vehicle file's).
+    units : {"metric", "us"}
+        Units of ``to_dict()``.
     """
-    from .performance import performance_summary
+    from .metrics import KM_PER_MI
+    from .performance import acceleration_time_s, performance_summary
 
+    _check_units(units)
     vehicle = _vehicle(vehicle)
-    return PerformanceReport(vehicle, performance_summary(
-        vehicle, grade_pct=grade_pct, wind_kmh=wind_kmh,
-        gradeability_speed_kmh=gradeability_speed_kmh))
+    res = performance_summary(vehicle, grade_pct=grade_pct, wind_kmh=wind_kmh,
+                              gradeability_speed_kmh=gradeability_speed_kmh)
+    times = {}
+    if units == "us":
+        for key, (lo, hi) in (("accel_0_60_mph_s", (0.0, 60.0)),
+                              ("accel_50_70_mph_s", (50.0, 70.0))):
+            t, _ = acceleration_time_s(vehicle, lo * KM_PER_MI, hi * KM_PER_MI,
+                                       grade_pct=grade_pct, wind_kmh=wind_kmh)
+            times[key] = None if t is None else plain(t)
+    return PerformanceReport(vehicle, res, units, times)
 
 
 # ---------------------------------------------------------------------------
@@ -339,13 +382,19 @@ class RangeCurveReport:
     ambient_temperature_c: float | None
     notes: tuple = ()
     row_notes: tuple = ()
+    units: str = "metric"
 
     def to_dict(self) -> dict:
-        """The curve's document with ``ambient_temperature_c`` and ``notes``."""
+        """The curve's document with ``ambient_temperature_c`` and ``notes``, in the
+        report's units."""
+        from .metrics import convert_document
+
         data = self.curve.to_dict()
         data["ambient_temperature_c"] = self.ambient_temperature_c
         data["notes"] = list(self.notes)
-        return data
+        if self.units != "metric":
+            data["units"] = self.units
+        return convert_document(data, self.units)
 
 
 def range_speeds_kmh(from_kmh: float, to_kmh: float, step_kmh: float):
@@ -360,7 +409,8 @@ def range_speeds_kmh(from_kmh: float, to_kmh: float, step_kmh: float):
 
 
 def range_curve(vehicle: "Vehicle | str | os.PathLike", speeds_kmh=None, *,
-                ambient_temperature_c: float | None = None) -> RangeCurveReport:
+                ambient_temperature_c: float | None = None,
+                units: str = "metric") -> RangeCurveReport:
     """Range and consumption at constant speeds on a level road without wind, and the
     speed of greatest range.
 
@@ -373,6 +423,8 @@ def range_curve(vehicle: "Vehicle | str | os.PathLike", speeds_kmh=None, *,
     ambient_temperature_c : float, optional
         Ambient temperature [°C] for a temperature-dependent auxiliary load
         (default: the vehicle file's).
+    units : {"metric", "us"}
+        Units of ``to_dict()`` (the speeds are still given in km/h).
     """
     from .powertrain.curve import DEFAULT_SPEEDS_KMH
     from .powertrain.curve import range_curve as _curve
@@ -386,7 +438,8 @@ def range_curve(vehicle: "Vehicle | str | os.PathLike", speeds_kmh=None, *,
         "above the governor" if gov is not None and v > gov * (1 + 1e-12)
         else "beyond the drive's limits")
         for v, ok in zip(curve.speed_kmh, curve.feasible))
-    return RangeCurveReport(vehicle, curve, used, tuple(notes), row_notes)
+    _check_units(units)
+    return RangeCurveReport(vehicle, curve, used, tuple(notes), row_notes, units)
 
 
 def _ambient(vehicle, ambient_c) -> tuple:
@@ -472,3 +525,50 @@ def metric_info(key: str):
     from .metrics import lookup
 
     return lookup(key)
+
+
+def key_in_units(key: str, units: str) -> str | None:
+    """The key a metric has in a unit system (None when that system does not report it)."""
+    from .metrics import lookup
+
+    m = lookup(key)
+    if units == "metric" or m is None or m.system == "us" or (m.us is None and
+                                                              not m.metric_only):
+        return key
+    return None if m.us is None else m.us.key
+
+
+#: metrics drawn by :func:`write_study_plot` when none are named (first present per group)
+PLOT_GROUPS = (("battery_wh_per_km", "battery_wh_per_mi", "fuel_l_per_100km",
+                "fuel_economy_mpg", "positive_energy_wh_per_km", "positive_energy_wh_per_mi"),
+               ("range_km", "range_mi"), ("top_speed_kmh", "top_speed_mph"),
+               ("annual_energy_cost",))
+
+
+def check_figure(path, inputs: Sequence = ()) -> None:
+    """Refuse a figure name before a long run (.png, .svg or .pdf; never an input)."""
+    from .report.figures import check_figure_target
+
+    check_figure_target(path, inputs)
+
+
+def write_study_plot(result, path, keys: Sequence[str] | None = None):
+    """Draw a study's changes against the baseline with their intervals, one panel per
+    profile or mix (see :func:`tractive.report.figures.plot_study_changes`)."""
+    from .report.figures import plot_study_changes
+    from .report.output import study_inputs
+
+    if keys is None:
+        present = set(result.metric_keys())
+        keys = [next(k for k in g if k in present) for g in PLOT_GROUPS
+                if any(k in present for k in g)]
+    return plot_study_changes(result, keys, path, inputs=study_inputs(result))
+
+
+def write_range_plot(reports: Sequence[RangeCurveReport], path):
+    """Draw the range curves of several vehicles on one figure (range and consumption
+    against speed; see :func:`tractive.report.figures.plot_range_curves`)."""
+    from .report.figures import plot_range_curves
+
+    inputs = [r.vehicle.source for r in reports if getattr(r.vehicle, "source", "")]
+    return plot_range_curves([r.to_dict() for r in reports], path, inputs=inputs)

@@ -118,7 +118,12 @@ class USForm:
     kind: str | None = None
 
     def apply(self, value):
-        """The US value of a metric value (arrays keep their shape)."""
+        """The US value of a metric value (arrays keep their shape; None stays None; a
+        list of numbers, as in a JSON document, is converted item by item)."""
+        if value is None:
+            return None
+        if isinstance(value, list):
+            return [self.apply(v) for v in value]
         if self.convert is not None:
             return self.convert(value)
         if self.divisor != 1.0:
@@ -239,6 +244,21 @@ METRICS: tuple[Metric, ...] = (
        us_only=True),
     _m("accel_50_70_mph_s", "50-70 mph", "s", INDEPENDENT, "lower", attributed=True,
        us_only=True),
+    # descriptors of a command's output (not study metrics): converted, never mixed
+    _m("speed_kmh", "speed", "km/h", INDEPENDENT,
+       us=USForm("speed_mph", "mph", "speed", divisor=KM_PER_MI)),
+    _m("best_speed_kmh", "speed of greatest range", "km/h", INDEPENDENT,
+       us=USForm("best_speed_mph", "mph", "speed of greatest range", divisor=KM_PER_MI)),
+    _m("best_range_km", "greatest range", "km", INDEPENDENT, "higher",
+       us=USForm("best_range_mi", "mi", "greatest range", divisor=KM_PER_MI)),
+    _m("speed_at_limit_kmh", "speed at the rev or speed limit", "km/h", INDEPENDENT,
+       us=USForm("speed_at_limit_mph", "mph", "speed at the rev or speed limit",
+                 divisor=KM_PER_MI)),
+    _m("gradeability_speed_kmh", "speed of the gradeability figure", "km/h", INDEPENDENT,
+       us=USForm("gradeability_speed_mph", "mph", "speed of the gradeability figure",
+                 divisor=KM_PER_MI)),
+    _m("wind_kmh", "head wind", "km/h", INDEPENDENT,
+       us=USForm("wind_mph", "mph", "head wind", divisor=KM_PER_MI)),
     _m("annual_distance_km", "annual distance", "km", ANNUAL,
        us=USForm("annual_distance_mi", "mi", "annual distance", divisor=KM_PER_MI)),
     _m("annual_battery_energy_kwh", "annual battery energy", "kWh", ANNUAL, "lower"),
@@ -375,6 +395,18 @@ def harmonic_mean(values: Sequence, shares: Sequence[float]):
     """1 / Σ (wᵢ / xᵢ): the mix of a distance per amount (+inf members add nothing)."""
     with np.errstate(divide="ignore"):
         return 1.0 / sum(w / x for w, x in zip(shares, values))
+
+
+def convert_document(obj, units: str):
+    """A JSON-ready document in a system's units: every dict's keys converted by
+    :func:`to_units` (lists and nested dicts too); ``"metric"`` returns it as is."""
+    if units == "metric":
+        return obj
+    if isinstance(obj, dict):
+        return {k: convert_document(v, units) for k, v in to_units(obj, units).items()}
+    if isinstance(obj, list):
+        return [convert_document(v, units) for v in obj]
+    return obj
 
 
 def mix(members: Sequence[Mapping], shares: Sequence[float]) -> dict:

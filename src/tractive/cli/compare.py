@@ -19,6 +19,9 @@ _HEADLINE = ("positive_energy_wh_per_km", "positive_energy_wh_per_mi", "battery_
 @click.option("-o", "--output", "outputs", multiple=True, metavar="FILE",
               help="Write the result: .xlsx (workbook), .csv (summary table) or .json. "
                    "Repeat for several.")
+@click.option("--plot", "plot_file", default=None, metavar="FILE",
+              help="Draw each variant's headline changes with their intervals, one panel "
+                   "per profile or mix, into FILE (.png, .svg or .pdf).")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
 @click.option("--draws", type=int, default=None, metavar="N",
               help=f"Monte Carlo draws (overrides the study; 0 = nominal only; at most "
@@ -32,7 +35,8 @@ _HEADLINE = ("positive_energy_wh_per_km", "positive_energy_wh_per_mi", "battery_
 @click.option("--wide", is_flag=True,
               help="One wide row per variant and profile with every headline column "
                    "side by side (for wide terminals and copying).")
-def compare_command(study_file, outputs, as_json, draws, seed, metrics, show_all, wide):
+def compare_command(study_file, outputs, plot_file, as_json, draws, seed, metrics, show_all,
+                    wide):
     """Compare a baseline vehicle with its modifications on every profile and duty mix.
 
     Reports energy, fuel or battery use, range, performance and money for each
@@ -42,9 +46,13 @@ def compare_command(study_file, outputs, as_json, draws, seed, metrics, show_all
     """
     # cheap checks first: no long run for a bad output name
     api.check_outputs(outputs, [study_file])
+    if plot_file:
+        api.check_figure(plot_file, [study_file])
     result = api.compare(study_file, draws=draws, seed=seed,
                          series=any(o.lower().endswith(".xlsx") for o in outputs))
     api.write_study_outputs(result, outputs)
+    if plot_file:
+        api.write_study_plot(result, plot_file)
     if as_json:
         emit_json(result.to_dict())
         for w in result.warnings:
@@ -56,7 +64,7 @@ def compare_command(study_file, outputs, as_json, draws, seed, metrics, show_all
         from ._study_text import summary_text
 
         click.echo(summary_text(result, metrics=metrics, show_all=show_all))
-    for out in outputs:
+    for out in list(outputs) + ([plot_file] if plot_file else []):
         click.echo(f"wrote {out}")
 
 

@@ -8,6 +8,7 @@ from .. import api
 from . import cli
 from ._checks import Number, ranged
 from ._output import emit_json, table
+from ._units import columns_in_units, units_option
 
 #: accepted time step [s] (the range a study's driving.dt_s accepts)
 DT = Number(0.01, 60.0, unit="s")
@@ -28,8 +29,9 @@ DT = Number(0.01, 60.0, unit="s")
               help="Distance shares of the cycles (in --cycle order, adding up to 1) for a "
                    "weighted-mix row: wheel Wh/km, and with a powertrain consumption, CO2 "
                    "and range (share-weighted per-km values).")
+@units_option
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
-def energy_command(vehicle_file, cycles, dt_s, mix_shares, as_json):
+def energy_command(vehicle_file, cycles, dt_s, mix_shares, units, as_json):
     """Wheel energy of a vehicle over drive cycles (UN GTR No. 15 Annex 7 method).
 
     Positive energy is what the wheels deliver; negative energy is what braking
@@ -39,11 +41,11 @@ def energy_command(vehicle_file, cycles, dt_s, mix_shares, as_json):
     """
     shares = None if mix_shares is None else _shares(mix_shares)
     report = api.energy(vehicle_file, api.load_profiles(cycles or api.DEFAULT_ENERGY_CYCLES,
-                                                        dt_s=dt_s))
+                                                        dt_s=dt_s), units=units)
     if shares is not None:
         try:
             report = api.EnergyReport(report.vehicle, report.results,
-                                      api.energy_mix(report, shares))
+                                      api.energy_mix(report, shares), units=units)
         except api.InputError as exc:
             raise click.BadParameter(exc.message, param_hint="--mix-shares") from None
     vehicle = report.vehicle
@@ -68,14 +70,15 @@ def energy_command(vehicle_file, cycles, dt_s, mix_shares, as_json):
             ("negative_energy_kwh", "braking kWh", ".3f"),
             ("rolling_kwh", "rolling", ".3f"), ("aero_kwh", "aero", ".3f"),
             ("inertia_kwh", "inertia", ".3f"), ("grade_kwh", "grade", ".3f")]
-    click.echo(table(rows, cols))
+    click.echo(table(rows, columns_in_units(cols, units)))
     if "mix" in data:
         m = data["mix"]
+        per = "mi" if units == "us" else "km"
         click.echo(f"mix ({', '.join(f'{p} {x:g}' for p, x in zip(m['profiles'], m['shares']))}):"
-                   f" {m['positive_energy_wh_per_km']:.1f} Wh/km positive, "
-                   f"{m['negative_energy_wh_per_km']:.1f} Wh/km braking")
+                   f" {m[f'positive_energy_wh_per_{per}']:.1f} Wh/{per} positive, "
+                   f"{m[f'negative_energy_wh_per_{per}']:.1f} Wh/{per} braking")
     if vehicle.powertrain is not None:
-        _powertrain_table(vehicle, data)
+        _powertrain_table(vehicle, data, units)
 
 
 def _shares(text: str) -> list:
@@ -87,7 +90,7 @@ def _shares(text: str) -> list:
                                  param_hint="--mix-shares") from None
 
 
-def _powertrain_table(vehicle, data):
+def _powertrain_table(vehicle, data, units="metric"):
     """The battery or fuel table below the wheel-energy table."""
     rows = list(data["results"]) + ([data["mix"]] if "mix" in data else [])
     if vehicle.powertrain.kind == "electric":
@@ -110,4 +113,6 @@ def _powertrain_table(vehicle, data):
                     ("fuel_kg_per_100km", "kg/100km", ".2f")]
         cols += [("co2_g_per_km", "CO2 g/km", ".0f"), ("range_km", "range km", ".0f"),
                  ("engine_limit_exceeded_s", "over engine limit s", ".0f")]
-    click.echo(table(rows, cols))
+    if units == "us":           # mpg US already shown
+        cols = [c for c in cols if c[0] != "fuel_l_per_100km"]
+    click.echo(table(rows, columns_in_units(cols, units)))
