@@ -210,6 +210,6 @@ def test_output_files_come_with_the_summary_table(tmp_path, capsys):
     code, stdout, err = _run(["compare", str(path), "-o", str(out)], capsys)
     assert code == 0 and out.exists()
     lines = stdout.splitlines()
-    assert lines[0].startswith("good  (metric units")
+    assert lines[0].startswith("good: ") and "metric units" in stdout
     assert any(line.startswith("rack") for line in lines)
     assert lines[-1] == f"wrote {out}"

@@ -482,13 +482,18 @@ def compare(study: str | os.PathLike, *, draws: int | None = None, seed: int | N
     -------
     StudyResult
     """
+    from dataclasses import replace
+
+    from .readfiles import tracking
     from .study.engine import run_study
 
     if draws is not None and not 0 <= draws <= MAX_DRAWS:
         raise InputError(f"--draws must be from 0 to {MAX_DRAWS}, got {draws}")
     if seed is not None and seed < 0:
         raise InputError(f"--seed must not be negative, got {seed}")
-    return run_study(study, draws=draws, seed=seed, series=series)
+    with tracking() as read:
+        result = run_study(study, draws=draws, seed=seed, series=series)
+    return replace(result, input_files=tuple(sorted({r.path for r in read})))
 
 
 def check_outputs(paths: Sequence[str], inputs: Sequence = ()) -> None:

@@ -25,6 +25,17 @@ from typing import Any, Iterable
 import yaml
 
 from .errors import InputError
+from .readfiles import note_read
+
+#: largest magnitude of any number in an input file: no quantity tractive reads comes
+#: near it in its unit, and products of such numbers stay finite (common practice)
+MAX_INPUT_MAGNITUDE = 1e12
+#: largest YAML input file [bytes]
+MAX_YAML_BYTES = 20 * 2 ** 20
+#: most nodes a YAML document may expand to (aliases counted at each use)
+MAX_YAML_NODES = 200_000
+#: deepest nesting of mappings and lists in a YAML document
+MAX_YAML_DEPTH = 64
 
 
 class _LineDict(dict):
@@ -79,25 +90,97 @@ _LineLoader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG, _con
 _LineLoader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_SEQUENCE_TAG, _construct_sequence)
 
 
+def read_input_text(path: str | os.PathLike, *, kind: str = "file",
+                    max_bytes: int = MAX_YAML_BYTES) -> str:
+    """The UTF-8 text of a regular input file, with located one-line errors.
+
+    Refuses what is not a regular file (a folder, a FIFO, a device such as
+    /dev/zero) and files larger than ``max_bytes``, and records the file as
+    read (:func:`tractive.readfiles.note_read`).
+    """
+    import stat
+
+    path = Path(path)
+    try:
+        st = os.stat(path)
+    except FileNotFoundError:
+        raise InputError("file not found", file=str(path)) from None
+    except OSError as exc:
+        raise InputError(f"cannot read file ({exc.strerror or exc.__class__.__name__})",
+                         file=str(path)) from None
+    if stat.S_ISDIR(st.st_mode):
+        raise InputError(f"is a directory, expected a {kind}", file=str(path))
+    if not stat.S_ISREG(st.st_mode):
+        raise InputError(f"is not a regular file (a device, pipe or socket), expected a "
+                         f"{kind}", file=str(path))
+    if st.st_size > max_bytes:
+        raise InputError(f"is {st.st_size / 2 ** 20:.1f} MiB, more than the "
+                         f"{max_bytes / 2 ** 20:.0f} MiB a {kind} may have", file=str(path))
+    note_read(path)
+    try:
+        return path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read file ({exc.__class__.__name__})", file=str(path)) from None
+
+
+def _check_expansion(node) -> None:
+    """Refuse a YAML node graph that expands too far or nests too deep.
+
+    Aliases reuse a node, so a small file can stand for a huge document (an
+    "alias bomb"); the expanded size is counted with memoisation over the node
+    graph (each node's size once), iteratively, before anything is built.
+    """
+    sizes: dict = {}
+    stack = [(node, 1, False)]
+    while stack:
+        current, depth, done = stack.pop()
+        if depth > MAX_YAML_DEPTH:
+            raise InputError(f"nested deeper than {MAX_YAML_DEPTH} levels",
+                             line=current.start_mark.line + 1)
+        key = id(current)
+        children = []
+        if isinstance(current, yaml.MappingNode):
+            for k, v in current.value:
+                children += [k, v]
+        elif isinstance(current, yaml.SequenceNode):
+            children = list(current.value)
+        if done:
+            sizes[key] = 1 + sum(sizes[id(c)] for c in children)
+            if sizes[key] > MAX_YAML_NODES:
+                raise InputError(f"expands to more than {MAX_YAML_NODES} values (through "
+                                 f"aliases); write the values out instead",
+                                 line=current.start_mark.line + 1)
+            continue
+        if key in sizes:
+            continue
+        stack.append((current, depth, True))
+        stack += [(c, depth + 1, False) for c in children if id(c) not in sizes]
+
+
 def read_yaml(path: str | os.PathLike) -> Any:
     """Parse a YAML file; every mapping and list in the result knows its lines.
 
     Raises :class:`InputError` naming the file (and line) when the file cannot
-    be read or is not valid YAML.
+    be read, is not valid YAML, nests too deep or expands too far through
+    aliases (see :func:`_check_expansion`).
     """
     path = Path(path)
+    text = read_input_text(path, kind="YAML file")
     try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError("file not found", file=str(path)) from None
-    except IsADirectoryError:
-        raise InputError("is a directory, expected a YAML file", file=str(path)) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read file ({exc.__class__.__name__})", file=str(path)) from None
-    try:
-        return yaml.load(text, Loader=_LineLoader)  # noqa: S506 - SafeLoader subclass
+        loader = _LineLoader(text)
+        try:
+            node = loader.get_single_node()
+            if node is None:
+                return None
+            _check_expansion(node)
+            return loader.construct_document(node)
+        finally:
+            loader.dispose()
     except InputError as exc:
         raise exc.located(file=str(path)) from None
+    except RecursionError:
+        raise InputError(f"nested deeper than {MAX_YAML_DEPTH} levels", file=str(path)) \
+            from None
     except yaml.MarkedYAMLError as exc:
         line = exc.problem_mark.line + 1 if exc.problem_mark is not None else None
         raise InputError(f"not valid YAML: {exc.problem or exc.context}", file=str(path),
@@ -352,6 +435,10 @@ def check_number(value: Any, *, where, min: float | None = None, max: float | No
         raise where("must be a number, got NaN")
     if math.isinf(value):
         raise where("must be finite, got infinity")
+    if abs(value) > MAX_INPUT_MAGNITUDE:
+        raise where(f"{value:.4g} is beyond any plausible value (|x| at most "
+                    f"{MAX_INPUT_MAGNITUDE:.0e}{(' ' + unit) if unit else ''}); is the unit "
+                    f"right?")
     if min is not None and (value < min or (not min_inclusive and value == min)):
         rel = "at least" if min_inclusive else "greater than"
         raise where(f"must be {rel} {min:g}{(' ' + unit) if unit else ''}, got {value:g}")

@@ -57,8 +57,30 @@ def cli():
     """
 
 
+#: the process's own standard error, for progress bars that draw with control sequences
+RAW_STDERR = sys.stderr
+
+
 def main(argv=None):
-    """Console-script entry point; returns only through sys.exit."""
+    """Console-script entry point; returns only through sys.exit.
+
+    Standard output and error are wrapped so that no control character from a
+    name, key or file reaches the terminal (see :mod:`tractive.cli._safe`).
+    """
+    from ._safe import SafeStream
+
+    global RAW_STDERR
+    out, err = sys.stdout, sys.stderr
+    RAW_STDERR = err
+    sys.stdout, sys.stderr = SafeStream(out), SafeStream(err)
+    try:
+        _run(argv)
+    finally:
+        sys.stdout, sys.stderr = out, err
+
+
+def _run(argv):
+    """Run the command line; one line on stderr and exit 2 for a user mistake."""
     try:
         rv = cli.main(args=argv, prog_name="tractive", standalone_mode=False)
     except click.exceptions.Exit as exc:

@@ -19,6 +19,7 @@ def study_inputs(result) -> list:
     for p in result.profiles:
         if p.spec and Path(p.spec).suffix.lower() in (".csv", ".gpx"):
             files.add(str(Path(result.source).parent / p.spec))
+    files.update(getattr(result, "input_files", ()))
     return sorted(files)
 
 

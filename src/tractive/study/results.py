@@ -357,6 +357,9 @@ class StudyResult:
     economics : dict
         Annual distance, prices, discount rate, service life as used.
     warnings : tuple of str
+    input_files : tuple of str
+        Every file the run read (study, vehicles, profiles at any depth of an
+        expression, coast-down blocks), resolved; outputs must not replace them.
     """
 
     study: str
@@ -373,6 +376,7 @@ class StudyResult:
     uncertainty: dict = field(default_factory=dict)
     economics: dict = field(default_factory=dict)
     warnings: tuple = ()
+    input_files: tuple = ()
 
     # -- look-ups ---------------------------------------------------------
     def metric_keys(self) -> list:
