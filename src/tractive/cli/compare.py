@@ -2,52 +2,17 @@
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import click
 
 from ..errors import InputError
 from . import cli
-from ._output import emit_json, fmt, json_text, table
+from ..report.output import study_inputs, write_output  # noqa: F401 (re-exported)
+from ._output import emit_json, fmt, table
 
 #: columns of the text table (shown when present), metric and US units
 _HEADLINE = ("positive_energy_wh_per_km", "positive_energy_wh_per_mi", "battery_wh_per_km",
              "battery_wh_per_mi", "fuel_l_per_100km", "fuel_economy_mpg", "range_km",
              "range_mi", "top_speed_kmh", "top_speed_mph", "annual_energy_cost", "payback_years")
-
-
-def study_inputs(result) -> list:
-    """Every file a study read (the output must not replace any of them)."""
-    files = {result.source}
-    for item in result.inputs:
-        src = str(item.source)
-        if src in ("default", "computed", "command line"):
-            continue
-        files.add(src.rsplit(":", 1)[0] if src.rsplit(":", 1)[-1].isdigit() else src)
-    for p in result.profiles:
-        if p.spec and Path(p.spec).suffix.lower() in (".csv", ".gpx"):
-            files.add(str(Path(result.source).parent / p.spec))
-    return sorted(files)
-
-
-def write_output(result, path: str, *, inputs) -> Path:
-    """Write a result by the file's extension: .xlsx, .csv or .json."""
-    suffix = Path(path).suffix.lower()
-    if suffix == ".csv":
-        from ..report.csv import write_summary_csv
-        return write_summary_csv(result, path, inputs=inputs)
-    if suffix == ".json":
-        from ..report.common import write_text_atomic
-        return write_text_atomic(path, json_text(result.to_dict()) + "\n", inputs=inputs)
-    if suffix == ".xlsx":
-        try:
-            from ..report.xlsx import write_workbook
-        except ImportError:
-            raise InputError("the workbook writer is not available in this installation; "
-                             "write .csv or .json", file=path) from None
-        return write_workbook(result, path, inputs=inputs)
-    raise InputError("unknown output type; use a name ending in .xlsx, .csv or .json",
-                     file=path)
 
 
 @cli.command("compare")

@@ -50,10 +50,11 @@ References
 
 from __future__ import annotations
 
+import contextlib
 from pathlib import Path
 from typing import Iterable
 
-from ..common import atomic_write, check_target
+from ..common import atomic_write, check_target, open_binary
 from .all_results import all_results_sheet
 from .attribution import attribution_sheet
 from .cells import Styles, clean_text, number_format, sheet_title
@@ -91,14 +92,14 @@ def build_sheets(result) -> list:
     return sheets
 
 
-def _workbook(result, write_only: bool):
+def _workbook(result, write_only: bool, sheets=None):
     """An openpyxl workbook holding every sheet (normal or write-only)."""
     from openpyxl import Workbook
 
     wb = Workbook(write_only=write_only)
     if not write_only:
         wb.remove(wb.active)
-    for sheet in build_sheets(result):
+    for sheet in build_sheets(result) if sheets is None else sheets:
         render(wb, sheet)
     if not write_only:
         wb.active = 0
@@ -129,22 +130,14 @@ def save(wb, path: Path) -> None:
 
     from openpyxl.writer.excel import ExcelWriter
 
-    with _open_output(path) as fh:
-        archive = ZipFile(fh, "w", ZIP_DEFLATED, allowZip64=True)
-        try:
+    fh = open_binary(path)
+    try:
+        with ZipFile(fh, "w", ZIP_DEFLATED, allowZip64=True) as archive:
             ExcelWriter(wb, archive).write_data()
-        except BaseException:
-            try:
-                archive.close()
-            except (OSError, ValueError):
-                archive.fp = None          # already failing: drop the handle
-            raise
-        archive.close()
-
-
-def _open_output(path: Path):
-    """The binary file the workbook is written to (a seam for fault-injection tests)."""
-    return open(path, "wb")
+        fh.flush()
+    finally:
+        with contextlib.suppress(OSError):
+            fh.close()
 
 
 def write_workbook(result, path, *, inputs: Iterable = ()) -> Path:
@@ -170,5 +163,30 @@ def write_workbook(result, path, *, inputs: Iterable = ()) -> Path:
     """
     inputs = list(inputs)
     check_target(path, inputs)
-    wb = _workbook(result, write_only=True)
-    return atomic_write(path, lambda tmp: save(wb, tmp), inputs=inputs)
+    sheets = build_sheets(result)
+
+    def _write(tmp: Path):
+        wb = _workbook(result, write_only=True, sheets=sheets)
+        try:
+            save(wb, tmp)
+        except BaseException:
+            discard(wb)
+            raise
+
+    return atomic_write(path, _write, inputs=inputs)
+
+
+def discard(wb) -> None:
+    """Finish every streamed sheet of a write-only workbook that failed to save and
+    remove its temporary file, so nothing is left open to fail again when it is
+    garbage-collected (no "Exception ignored" messages)."""
+    for ws in wb.worksheets:
+        with contextlib.suppress(Exception):
+            if not ws.closed:
+                ws.close()
+        writer = getattr(ws, "_writer", None)
+        if writer is not None:
+            with contextlib.suppress(Exception):
+                writer.xf.close()
+            with contextlib.suppress(Exception):
+                writer.cleanup()

@@ -27,23 +27,25 @@ from .sheet import Sheet
 #: rows a worksheet can hold (Excel's limit; ECMA-376 allows 1,048,576 rows, from memory)
 SHEET_ROW_LIMIT = 1_048_576
 #: most data rows of time series written on one profile sheet
-MAX_SERIES_ROWS = 20_000
+MAX_SERIES_ROWS = 10_000
 _R0 = 3                     # first data row (two header rows above)
 assert _R0 - 1 + MAX_SERIES_ROWS <= SHEET_ROW_LIMIT
 
 
-def series_step(n_intervals: int, max_rows: int = MAX_SERIES_ROWS) -> int:
+def series_step(n_intervals: int, max_rows: int | None = None) -> int:
     """Every how many intervals a series of ``n_intervals`` is shown (1: all of them).
 
-    The smallest step k with floor((n − 1) / k) + 1 ≤ ``max_rows``.
+    The smallest step k with floor((n − 1) / k) + 1 ≤ ``max_rows`` (default
+    :data:`MAX_SERIES_ROWS`).
     """
+    max_rows = MAX_SERIES_ROWS if max_rows is None else int(max_rows)
     n = int(n_intervals)
     if n <= max_rows:
         return 1
     return math.ceil((n - 1) / (max_rows - 1))
 
 
-def series_steps(lengths: Mapping[str, int], max_rows: int = MAX_SERIES_ROWS) -> dict:
+def series_steps(lengths: Mapping[str, int], max_rows: int | None = None) -> dict:
     """Step of each profile sheet from the profiles' numbers of intervals (name → n)."""
     return {name: series_step(n, max_rows) for name, n in lengths.items()}
 
