@@ -13,7 +13,6 @@ command knows before running the study what the workbook will hold.
 
 from __future__ import annotations
 
-import math
 from typing import Mapping
 
 import numpy as np
@@ -42,7 +41,7 @@ def series_step(n_intervals: int, max_rows: int | None = None) -> int:
     n = int(n_intervals)
     if n <= max_rows:
         return 1
-    return math.ceil((n - 1) / (max_rows - 1))
+    return (n - 1) // max_rows + 1
 
 
 def series_steps(lengths: Mapping[str, int], max_rows: int | None = None) -> dict:
