@@ -129,6 +129,7 @@ def set_cell(cell, value) -> None:
 
 
 def _same_file(a: Path, b: Path) -> bool:
+    """True when two paths name the same file (resolved path, or same inode)."""
     try:
         if a.resolve() == b.resolve():
             return True
@@ -261,9 +262,11 @@ class _Batch:
     """Temporary files written inside :func:`all_or_nothing`, waiting for their rename."""
 
     def __init__(self):
+        """No file written yet."""
         self.pending: list = []         # (temporary file, target), in writing order
 
     def add(self, tmp: Path, target: Path) -> None:
+        """A written temporary file waiting to be renamed over ``target``."""
         for i, (old_tmp, old_target) in enumerate(self.pending):
             if _same_file(old_target, target) or old_target == target:
                 # the same target twice: the later content wins, as without a batch
@@ -274,12 +277,14 @@ class _Batch:
         self.pending.append((tmp, target))
 
     def discard(self) -> None:
+        """Remove every waiting temporary file."""
         for tmp, _ in self.pending:
             with contextlib.suppress(OSError):
                 tmp.unlink()
         self.pending = []
 
     def commit(self) -> None:
+        """Rename every temporary file over its target; on a failure undo those done."""
         done = []                       # (target, backup or None) renamed so far
         backups = []
         current = None
@@ -461,6 +466,7 @@ def _keep_target_mode(tmp: Path, target: Path) -> None:
 def write_text_atomic(path, text: str, *, inputs: Iterable = ()) -> Path:
     """Write UTF-8 text atomically (see :func:`atomic_write`)."""
     def _write(tmp: Path):
+        """The text as UTF-8 into the temporary file."""
         fh = open_binary(tmp)
         try:
             fh.write(text.encode("utf-8"))

@@ -166,6 +166,7 @@ def write_workbook(result, path, *, inputs: Iterable = ()) -> Path:
     sheets = build_sheets(result)
 
     def _write(tmp: Path):
+        """Stream the sheets into the temporary file; finish them on a failure."""
         wb = _workbook(result, write_only=True, sheets=sheets)
         try:
             save(wb, tmp)
