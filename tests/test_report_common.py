@@ -19,13 +19,15 @@ import pytest
 from tractive.errors import InputError
 from tractive.report import common
 from tractive.report.common import atomic_write, check_target, write_text_atomic
+from conftest import run_cli
 
 ROOT = Path(__file__).resolve().parents[1]
 STUDY = ROOT / "examples" / "fleet-tyres" / "study.yaml"
 LINUX_PROC = Path("/proc/self").is_dir()
 
 
-def run(*args, cwd=None):
+def run_process(*args, cwd=None):
+    """The installed command as its own process (end-to-end smoke test only)."""
     return subprocess.run([sys.executable, "-m", "tractive", *map(str, args)],
                           capture_output=True, text=True, cwd=cwd)
 
@@ -143,13 +145,23 @@ def test_read_only_folder_is_refused(tmp_path):
 @pytest.mark.skipif(not LINUX_PROC, reason="needs Linux /proc and /sys")
 @pytest.mark.parametrize("name", ["/proc/x.xlsx", "/sys/x.json", "/proc/x.csv"])
 def test_compare_to_a_system_folder_is_one_line(name):
-    one_line(run("compare", STUDY, "--draws", "0", "-o", name), name, "cannot write")
+    one_line(run_cli("compare", STUDY, "--draws", "0", "-o", name), name, "cannot write")
 
 
 def test_compare_to_a_missing_folder_is_refused_without_creating_it(tmp_path):
-    one_line(run("compare", STUDY, "--draws", "0", "-o", "nodir/x.xlsx", cwd=tmp_path),
+    one_line(run_cli("compare", STUDY, "--draws", "0", "-o", "nodir/x.xlsx", cwd=tmp_path),
              "nodir/x.xlsx", "folder does not exist")
     assert leftovers(tmp_path) == []
+
+
+def test_end_to_end_process_writes_outputs_and_refuses_a_missing_folder(tmp_path):
+    # the command as its own process: one line on stderr, exit 2, nothing created
+    one_line(run_process("compare", STUDY, "--draws", "0", "-o", "nodir/x.csv",
+                         cwd=tmp_path), "nodir/x.csv", "folder does not exist")
+    done = run_process("compare", STUDY, "--draws", "0", "-o", "r.csv", "-o", "r.xlsx",
+                       cwd=tmp_path)
+    assert done.returncode == 0, done.stderr
+    assert leftovers(tmp_path) == ["r.csv", "r.xlsx"]
 
 
 def test_unwritable_folder_is_refused_before_any_work(tmp_path, monkeypatch):

@@ -394,7 +394,8 @@ uncertainty:
     res = run_study(_study(tmp_path, text, DIESEL), series=False)
     ws = build_workbook(res)["Range vs speed"]
     heads, speed, curves = _range_columns(ws)
-    assert heads[1:3] == ["range [km]", "fuel [L/100 km]"]
+    # headers: label and unit of the metric registry
+    assert heads[1:3] == ["range [km]", "fuel consumption [L/100 km]"]
     assert set(curves) == {"baseline", "roof box"}
     for rng, per in curves.values():
         ok = ~np.isnan(rng)
@@ -585,11 +586,13 @@ def test_failed_write_leaves_no_temp_file_and_keeps_the_old_target(case, tmp_pat
     target = tmp_path / "r.xlsx"
     target.write_bytes(b"old content")
 
-    def failing_save(self, filename):
-        Path(filename).write_bytes(b"partial")
+    from openpyxl.writer.excel import ExcelWriter
+
+    def failing_write(self):
+        self._archive.writestr("partial.xml", b"partial")
         raise exc
 
-    monkeypatch.setattr(openpyxl.Workbook, "save", failing_save)
+    monkeypatch.setattr(ExcelWriter, "write_data", failing_write)
     with pytest.raises(InputError if isinstance(exc, OSError) else RuntimeError):
         write_workbook(case["result"], target)
     assert target.read_bytes() == b"old content"

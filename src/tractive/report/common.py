@@ -36,14 +36,28 @@ Permissions
 
 Inputs are never overwritten
     A target that is the same file as any input (same path after resolving
-    links, or the same inode) is refused with an
-    :class:`~tractive.errors.InputError`.
+    links, or the same device and inode: a symbolic or hard link) is refused
+    with an :class:`~tractive.errors.InputError`; inputs are paths or the
+    :class:`~tractive.readfiles.ReadFile` items a run collected
+    (:func:`tractive.readfiles.is_input`).
+
+Read-only targets
+    An existing target without write permission is refused, not replaced
+    (renaming over it would succeed in a writable folder).
+
+Stale temporary files
+    A run killed while writing leaves its hidden temporary file
+    ``.NAME.<12 hex digits>.tmp``; the next write of the same target removes
+    such files first. An error never leaves one behind.
 
 Formula injection
     A spreadsheet program treats a text cell that begins with ``=``, ``+``,
     ``-`` or ``@`` (and, in some programs, a tab or carriage return) as a
-    formula. Text cells are therefore written so that they stay text: in CSV
-    with a leading apostrophe (the usual spreadsheet escape), in a workbook
+    formula, and a program importing text may split a cell on ``;``, ``,`` or
+    a tab first, or strip a quote. Text cells are therefore written so that
+    they stay text: in CSV quoted, and with a leading apostrophe (the usual
+    spreadsheet escape) when the text or any such field would start with a
+    formula character (:func:`is_formula_like`); in a workbook
     as an explicit string cell (openpyxl data type ``"s"``), whose value is
     never evaluated. Numbers are not text and are written as numbers.
 
@@ -60,7 +74,9 @@ from __future__ import annotations
 import contextlib
 import contextvars
 import errno
+import io
 import os
+import re
 import secrets
 import shutil
 import stat
@@ -68,14 +84,21 @@ from pathlib import Path
 from typing import Callable, Iterable
 
 from ..errors import InputError
+from ..readfiles import is_input
 
 #: first characters that make a spreadsheet read text as a formula
 FORMULA_PREFIXES = ("=", "+", "-", "@", "\t", "\r")
+#: a formula character at the start, or after a field separator (``;``, ``,``, tab)
+#: or a quote, with blanks between: where a spreadsheet splitting the text on
+#: import would start a cell with it
+_FORMULA_START = re.compile(r"(?:^|[;,\t\"'])[ ]*[=+\-@\t\r]")
 
 
 def is_formula_like(text) -> bool:
-    """True for text a spreadsheet would take as a formula."""
-    return isinstance(text, str) and text.startswith(FORMULA_PREFIXES)
+    """True for text a spreadsheet could take as a formula: a formula character at the
+    start, or at the start of any field after splitting on ``;``, ``,`` or tab, or
+    after a quote (OWASP, "CSV Injection")."""
+    return isinstance(text, str) and _FORMULA_START.search(text) is not None
 
 
 def csv_text(value):
@@ -106,6 +129,7 @@ def set_cell(cell, value) -> None:
 
 
 def _same_file(a: Path, b: Path) -> bool:
+    """True when two paths name the same file (resolved path, or same inode)."""
     try:
         if a.resolve() == b.resolve():
             return True
@@ -152,10 +176,10 @@ def check_target(path, inputs: Iterable = (), *, suffixes: Iterable[str] | None 
     if not str(path).strip():
         raise InputError("empty output file name", file=str(path))
     target = Path(path)
-    for src in inputs:
-        if src and _same_file(target, Path(src)):
-            raise InputError("refusing to overwrite an input file; choose another output "
-                             "name", file=str(target))
+    read = [src for src in inputs if src]
+    if read and is_input(target, read) is not None:
+        raise InputError("refusing to overwrite an input file; choose another output "
+                         "name", file=str(target))
     if suffixes is not None:
         allowed = tuple(suffixes)
         if target.suffix.lower() not in allowed:
@@ -175,6 +199,9 @@ def check_target(path, inputs: Iterable = (), *, suffixes: Iterable[str] | None 
         raise InputError(f"cannot write: {_reason(exc, folder)}", file=str(target)) from None
     if not os.access(folder, os.W_OK | os.X_OK):
         raise InputError("cannot write: permission denied (the folder is not writable)",
+                         file=str(target))
+    if target.is_file() and not os.access(target, os.W_OK):
+        raise InputError("cannot write: permission denied (the file is read-only)",
                          file=str(target))
     return target
 
@@ -208,6 +235,7 @@ def atomic_write(path, write: Callable[[Path], None], *, inputs: Iterable = ()) 
     folder = target.parent
     tmp = None
     try:
+        remove_stale_temporaries(target)
         tmp = _new_temp_file(folder, target)
         write(tmp)
         _keep_target_mode(tmp, target)
@@ -234,9 +262,11 @@ class _Batch:
     """Temporary files written inside :func:`all_or_nothing`, waiting for their rename."""
 
     def __init__(self):
+        """No file written yet."""
         self.pending: list = []         # (temporary file, target), in writing order
 
     def add(self, tmp: Path, target: Path) -> None:
+        """A written temporary file waiting to be renamed over ``target``."""
         for i, (old_tmp, old_target) in enumerate(self.pending):
             if _same_file(old_target, target) or old_target == target:
                 # the same target twice: the later content wins, as without a batch
@@ -247,12 +277,14 @@ class _Batch:
         self.pending.append((tmp, target))
 
     def discard(self) -> None:
+        """Remove every waiting temporary file."""
         for tmp, _ in self.pending:
             with contextlib.suppress(OSError):
                 tmp.unlink()
         self.pending = []
 
     def commit(self) -> None:
+        """Rename every temporary file over its target; on a failure undo those done."""
         done = []                       # (target, backup or None) renamed so far
         backups = []
         current = None
@@ -363,6 +395,64 @@ def _new_temp_file(folder: Path, target: Path) -> Path:
                      file=str(target))
 
 
+def remove_stale_temporaries(target: Path) -> list:
+    """Remove the hidden temporary files ``.NAME.<12 hex>.tmp`` a killed run left next
+    to ``target``; returns the names removed."""
+    pattern = re.compile(re.escape(f".{target.name}.") + r"[0-9a-f]{12}\.tmp")
+    removed = []
+    try:
+        names = os.listdir(target.parent)
+    except OSError:
+        return removed
+    for name in names:
+        if pattern.fullmatch(name):
+            with contextlib.suppress(OSError):
+                os.unlink(target.parent / name)
+                removed.append(name)
+    return removed
+
+
+class _RawFile(io.RawIOBase):
+    """An unbuffered binary file written with :func:`os.write` (so a failing system
+    call, such as a full disk, surfaces as the :class:`OSError` it is)."""
+
+    def __init__(self, path: Path):
+        """Open ``path`` for writing, truncated."""
+        self.fd = os.open(path, os.O_WRONLY | os.O_TRUNC | getattr(os, "O_CLOEXEC", 0))
+
+    def writable(self) -> bool:
+        """Always True."""
+        return True
+
+    def seekable(self) -> bool:
+        """Always True (a regular file)."""
+        return True
+
+    def write(self, data) -> int:
+        """Write ``data``; returns the bytes written (the buffer above retries the rest)."""
+        return os.write(self.fd, data)
+
+    def seek(self, offset: int, whence: int = 0) -> int:
+        """Move the file position."""
+        return os.lseek(self.fd, offset, whence)
+
+    def tell(self) -> int:
+        """The file position."""
+        return os.lseek(self.fd, 0, os.SEEK_CUR)
+
+    def close(self) -> None:
+        """Close the descriptor (once)."""
+        if not self.closed:
+            fd, self.fd = self.fd, -1
+            super().close()
+            os.close(fd)
+
+
+def open_binary(path) -> io.BufferedWriter:
+    """A buffered binary file for writing a temporary file made by :func:`atomic_write`."""
+    return io.BufferedWriter(_RawFile(Path(path)))
+
+
 def _keep_target_mode(tmp: Path, target: Path) -> None:
     """Give the new file the permission bits of the file it replaces (if any)."""
     try:
@@ -376,5 +466,12 @@ def _keep_target_mode(tmp: Path, target: Path) -> None:
 def write_text_atomic(path, text: str, *, inputs: Iterable = ()) -> Path:
     """Write UTF-8 text atomically (see :func:`atomic_write`)."""
     def _write(tmp: Path):
-        tmp.write_text(text, encoding="utf-8")
+        """The text as UTF-8 into the temporary file."""
+        fh = open_binary(tmp)
+        try:
+            fh.write(text.encode("utf-8"))
+            fh.flush()
+        finally:
+            with contextlib.suppress(OSError):
+                fh.close()
     return atomic_write(path, _write, inputs=inputs)
