@@ -150,7 +150,7 @@ CHANGES = ["{cda_m2: +0.1}", "{crr: -10%}", "{crr: +0.001}", "{mass_kg: +100}",
 def test_coefficient_and_physical_forms_agree(tmp_path, changes):
     # the same physical change on the same car in both forms gives the same wheel
     # energy: 1/2 rho dCdA v^2 d and dCrr m g d (road-load equation), the coefficient
-    # rules of the README (f0 proportional to mass) being exact for f0 = Crr m g
+    # rules of docs/study-file.md (f0 proportional to mass) being exact for f0 = Crr m g
     out = []
     for form, text in (("phys", CAR), ("coef", COEF)):
         folder = tmp_path / form
@@ -171,7 +171,7 @@ def test_mix_shares_rounded_to_99_99_are_refused(tmp_path):
                          driving=driving))
     assert info.value.field.endswith("shares_pct")
     # 33.33 + 66.67 = 100 (to float rounding) is read; weights are distance shares:
-    # e_mix = sum w_i e_i (README, Duty mixes)
+    # e_mix = sum w_i e_i (docs/equations.md, Duty mixes)
     res = run_study(_study(tmp_path, "  - name: m\n    changes: {mass_kg: +1}\n",
                            driving=driving.replace("66.66", "66.67")))
     e = [res.row("baseline", p).metrics["positive_energy_wh_per_km"]

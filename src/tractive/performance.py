@@ -151,7 +151,7 @@ class PerformanceSpec:
 
 
 def parse_performance(sec: Section) -> PerformanceSpec:
-    """Read a ``performance`` block (keys documented in the README)."""
+    """Read a ``performance`` block (keys documented in docs/vehicle-file.md)."""
     share = sec.number("driven_axle_load_share", min=0.0, min_inclusive=False, max=1.0)
     mu = sec.number("tyre_road_friction", min=0.05, max=3.0)
     axle = sec.string("driven_axle", required=False, choices=("front", "rear", "all"))

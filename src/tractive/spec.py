@@ -15,6 +15,7 @@ kind the file chooses.
 
 from __future__ import annotations
 
+import contextlib
 import difflib
 import math
 import os
@@ -198,6 +199,29 @@ def load_section(path: str | os.PathLike) -> "Section":
     return Section(data, file=str(path))
 
 
+#: While :func:`recording_keys` is active: the list that every key a reader asks
+#: for is appended to; ``None`` otherwise (the accessors then record nothing).
+_KEY_RECORD: list | None = None
+
+
+@contextlib.contextmanager
+def recording_keys():
+    """Record every key the readers ask a :class:`Section` for, while active.
+
+    Yields a list that fills with ``(file, field, key, listed)`` tuples: the file
+    and dotted field of the key, the key itself, and ``listed`` true when the
+    reader had first taken the key from the mapping's own list of keys (a name
+    the user chose, such as a change target or a mix share) rather than asking
+    for it by name. For documentation checks; reading is otherwise unchanged.
+    """
+    global _KEY_RECORD
+    outer, _KEY_RECORD = _KEY_RECORD, []
+    try:
+        yield _KEY_RECORD
+    finally:
+        _KEY_RECORD = outer
+
+
 def _describe(value: Any) -> str:
     text = repr(value)
     return text if len(text) <= 40 else text[:37] + "..."
@@ -225,6 +249,13 @@ class Section:
         self.prefix = prefix
         self.line = line if line is not None else getattr(data, "line", None)
         self._used: set = set()
+        self._listed: set = set()
+
+    def _record(self, key: Any) -> None:
+        """Note ``key`` as asked for while :func:`recording_keys` is active."""
+        if _KEY_RECORD is not None:
+            _KEY_RECORD.append((self.file, self.field(str(key)), str(key),
+                                key in self._listed))
 
     # -- locating --------------------------------------------------------
     def field(self, key: str | None = None) -> str:
@@ -245,17 +276,24 @@ class Section:
 
     # -- presence --------------------------------------------------------
     def has(self, key: str) -> bool:
+        """True when ``key`` is present with a value."""
+        self._record(key)
         return key in self.data and self.data[key] is not None
 
     def keys(self) -> list:
+        """The keys as written, in file order."""
+        if _KEY_RECORD is not None:
+            self._listed.update(self.data.keys())
         return list(self.data.keys())
 
     def raw(self, key: str, default: Any = None) -> Any:
         """The value as written (marks the key as known)."""
+        self._record(key)
         self._used.add(key)
         return self.data.get(key, default)
 
     def _get(self, key: str, required: bool) -> Any:
+        self._record(key)
         self._used.add(key)
         if key not in self.data or self.data[key] is None:
             if required:
@@ -416,6 +454,8 @@ class Section:
 
     def finish(self, allowed_extra: Iterable[str] = ()) -> None:
         """Raise for any key that no accessor asked for."""
+        for key in allowed_extra:
+            self._record(key)
         known = self._used | set(allowed_extra)
         for key in self.data:
             if key not in known:

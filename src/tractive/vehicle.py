@@ -1,7 +1,7 @@
 """The vehicle: mass, inertia, road load, and optional powertrain and performance data.
 
-A vehicle file is YAML with units in its key names (see README, "Vehicle
-file"). :func:`load_vehicle` reads and validates it into a :class:`Vehicle`.
+A vehicle file is YAML with units in its key names (see
+docs/vehicle-file.md). :func:`load_vehicle` reads and validates it into a :class:`Vehicle`.
 
 Inertial mass
     m_inertial = mass_kg × (1 + rotating_mass_fraction). The fraction stands

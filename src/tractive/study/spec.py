@@ -1,7 +1,7 @@
 """Reading a study file: baseline, modifications, driving, prices, uncertainty.
 
 A study file is YAML whose keys carry their units as suffixes (see
-README.md, section "Studies", for every key). Every mistake raises
+docs/study-file.md for every key). Every mistake raises
 :class:`~tractive.errors.InputError` naming the study file, the dotted field
 and the line, before anything is computed or written.
 
