@@ -537,8 +537,14 @@ class CombustionPowertrain:
         return {"gear": gear, "engine_speed_rads": w_sel, "engine_torque_nm": t_sel,
                 "fuel_kg_s": fuel, "idle": idle, "over_limit": over}
 
-    def consume(self, vehicle, demand, profile=None) -> CombustionResult:
-        """Fuel, CO2 and tank range on one profile (demand of shape (T-1,) or (N, T-1))."""
+    def consume(self, vehicle, demand, profile=None, *, ambient_temperature_c=None
+                ) -> CombustionResult:
+        """Fuel, CO2 and tank range on one profile (demand of shape (T-1,) or (N, T-1)).
+
+        ``ambient_temperature_c`` [°C] is accepted for the common
+        :class:`~tractive.powertrain.base.Powertrain` interface; this model has no
+        temperature-dependent load and ignores it.
+        """
         iv = demand.intervals
         dt = np.asarray(iv.dt_s, float)
         duration = float(np.sum(dt))
@@ -563,7 +569,7 @@ class CombustionPowertrain:
             positive_wheel_energy_kwh=np.asarray(demand.positive_energy_j) / KWH_J,
             engine_limit_exceeded_s=over_s, accessory_energy_kwh=acc_kwh)
 
-    def steady(self, vehicle, speed_ms, **_) -> dict:
+    def steady(self, vehicle, speed_ms, *, ambient_temperature_c=None) -> dict:
         """Consumption at constant speeds on a level road, no wind.
 
         Returns a dict of (S,) arrays: ``store_per_km`` (L/km, or kg/km for CNG),

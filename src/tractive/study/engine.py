@@ -482,15 +482,6 @@ def _evaluate_chunk(ps, profiles, ambient_temperature_c=None) -> tuple:
     powertrain = vehicle.powertrain
     out = {}
     demands = {}
-    consume_kw = {}
-    if powertrain is not None and ambient_temperature_c is not None:
-        import inspect
-        try:
-            if "ambient_temperature_c" in inspect.signature(powertrain.consume).parameters:
-                consume_kw["ambient_temperature_c"] = ambient_temperature_c
-        except (TypeError, ValueError):
-            pass
-
     def full(x):
         return np.broadcast_to(np.asarray(x, float), (size,)).copy()
 
@@ -507,7 +498,8 @@ def _evaluate_chunk(ps, profiles, ambient_temperature_c=None) -> tuple:
         for comp in COMPONENTS:
             met[f"{comp}_energy_wh_per_km"] = full(d.components_j[comp] / 3600.0 / km)
         if powertrain is not None:
-            res = powertrain.consume(vehicle, d, prof, **consume_kw)
+            res = powertrain.consume(vehicle, d, prof,
+                                    ambient_temperature_c=ambient_temperature_c)
             data = res.to_dict() if hasattr(res, "to_dict") else dict(res)
             for key in POWERTRAIN_KEYS:
                 value = data.get(key)
