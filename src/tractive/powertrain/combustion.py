@@ -428,6 +428,11 @@ class CombustionPowertrain:
     def operation(self, force_n, speed_ms, *, accessory_scale=1.0) -> dict:
         """Gear, engine speed and torque, and fuel rate per interval.
 
+        With the ``speeds`` shift rule the gear follows from the speed, the
+        demand sign and the pulling floor alone, so the engine is evaluated in
+        that one gear; the ``efficient`` rule compares the fuel rate of every
+        gear, so every gear is evaluated (a leading gear axis).
+
         Parameters
         ----------
         force_n : array (T,) or (N, T)
@@ -446,6 +451,41 @@ class CombustionPowertrain:
         (brake torque, accessories included), ``fuel_kg_s``, ``idle`` (clutch
         open), ``over_limit`` (demand beyond the engine's full load or rev limit).
         """
+        f, v = self._operating_shape(force_n, speed_ms, accessory_scale)
+        w_pull_min = col(self.pulling_speed_floor_rpm) * RPM_RADS
+        p_acc = col(self.accessory_power_w) * col(accessory_scale)
+        moving = v > STANDSTILL_MS
+        pulling = moving & (f > 0)
+        idle_rate = self.idle_fuel_rate_kg_s(p_acc)
+        ratios = self.gearing.overall_ratios
+        if self.shift_rule == "speeds":
+            g = self._speed_rule_gear(v, pulling, w_pull_min)
+            sel = self._in_gear(f, v, ratios[g], g == 0, pulling, p_acc, idle_rate,
+                                w_pull_min)
+        else:
+            gear_axis = (len(ratios),) + (1,) * f.ndim
+            first = (np.arange(len(ratios)) == 0).reshape(gear_axis)
+            st = self._in_gear(f, v, ratios.reshape(gear_axis), first, pulling, p_acc,
+                               idle_rate, w_pull_min, choose=True)
+            # ties (e.g. fuel cut-off in every gear) go to the lowest engine speed
+            cost = np.where(st["feasible"], st["fuel"], 1.0e6 + st["penalty"]) \
+                + 1e-15 * st["w_eng"]
+            g = np.broadcast_to(np.argmin(cost, axis=0), f.shape)
+            sel = {k: np.take_along_axis(np.broadcast_to(st[k], st["w_gear"].shape), g[None],
+                                         axis=0)[0]
+                   for k in ("fuel", "w_eng", "t_eng", "slip_over", "over")}
+        w_idle = self.idle_speed_rpm * RPM_RADS
+        off = self.engine_off_at_rest
+        return {"gear": np.where(moving, g + 1, 0),
+                "engine_speed_rads": np.where(moving, sel["w_eng"], 0.0 if off else w_idle),
+                "engine_torque_nm": np.where(moving, sel["t_eng"],
+                                             0.0 if off else p_acc / w_idle),
+                "fuel_kg_s": np.where(moving, sel["fuel"], 0.0 if off else idle_rate),
+                "idle": ~moving | (sel["slip_over"] & ~pulling),
+                "over_limit": moving & sel["over"]}
+
+    def _operating_shape(self, force_n, speed_ms, accessory_scale):
+        """Force [N] and speed [m/s] broadcast together and with per-vehicle parameters."""
         f, v = np.broadcast_arrays(np.asarray(force_n, float), np.asarray(speed_ms, float))
         # parameters given per vehicle (N,) add a vehicle axis even to a plain demand
         params = [self.gearing.efficiency, self.idle_fuel_kg_s, self.min_pulling_speed_rpm,
@@ -457,20 +497,37 @@ class CombustionPowertrain:
         if pshape:
             shape = np.broadcast_shapes(f.shape, pshape)
             f, v = np.broadcast_to(f, shape), np.broadcast_to(v, shape)
+        return f, v
+
+    def _speed_rule_gear(self, v, pulling, w_pull_min):
+        """0-based gear of the ``speeds`` rule: upshift speeds, and while pulling never
+        below the pulling floor (the highest gear that keeps the engine at or above it;
+        first gear slips the clutch when none does)."""
         gr = self.gearing
-        n_g = gr.n_gears
-        gear_axis = (n_g,) + (1,) * f.ndim
-        ratios = gr.overall_ratios.reshape(gear_axis)
-        first = (np.arange(n_g) == 0).reshape(gear_axis)
+        g = np.searchsorted(np.asarray(self.upshift_speeds_ms, float), v, side="right")
+        g = np.minimum(g, gr.n_gears - 1)
+        floor = w_pull_min * (1 - 1e-12)
+        n_ok = np.zeros(np.shape(v), dtype=np.intp)
+        for ratio in gr.overall_ratios:        # a few gears: one comparison each
+            n_ok += v * ratio / gr.tyre_radius_m >= floor
+        return np.where(pulling, np.minimum(g, np.maximum(n_ok - 1, 0)), g)
+
+    def _in_gear(self, f, v, ratio, first, pulling, p_acc, idle_rate, w_pull_min, *,
+                 choose=False) -> dict:
+        """Engine state in gear(s) of overall ratio ``ratio`` (a gear axis or one per step).
+
+        Returns ``w_gear`` (engine speed the gear gives) [rad/s], ``w_eng``
+        [rad/s] and ``t_eng`` [N m] (clutch slip and idle applied), ``fuel``
+        [kg/s], ``slip_over`` (clutch open, not pulling), ``over`` (beyond the
+        rev limit or full load); with ``choose`` also ``feasible`` and
+        ``penalty`` for the ``efficient`` rule.
+        """
+        gr = self.gearing
         eta = col(gr.efficiency)
         r = gr.tyre_radius_m
-        w_gear = v * ratios / r                                    # (G, ...)
+        w_gear = v * ratio / r
         w_idle = self.idle_speed_rpm * RPM_RADS
         w_max = self.rev_limit_rpm * RPM_RADS
-        w_pull_min = col(self.pulling_speed_floor_rpm) * RPM_RADS
-        p_acc = col(self.accessory_power_w) * col(accessory_scale)
-        moving = v > STANDSTILL_MS
-        pulling = moving & (f > 0)
         # pulling: first gear slips the clutch below the lowest pulling speed (the engine
         # holds that speed); a higher gear below it lugs (not feasible) and slips only
         # below idle. Not pulling: the clutch opens below idle and the engine idles.
@@ -478,64 +535,37 @@ class CombustionPowertrain:
         w_over = np.maximum(w_gear, w_idle)
         slip_over = w_gear < w_idle
         w_eng = np.where(pulling, w_pull, w_over)
-        t_wheel = f * r / ratios
+        t_wheel = f * r / ratio
         t_acc_over = p_acc / w_over
         t_pull = np.maximum(t_wheel, 0.0) / eta + p_acc / w_pull
         t_over = np.minimum(t_wheel, 0.0) * eta + t_acc_over   # motored: wheel power × η
-        idle_rate = self.idle_fuel_rate_kg_s(p_acc)
         # overrun in gear: with cut-off, fuel only where the overrun power does not cover
         # friction and accessories (the engine line continued below zero torque, clipped at
         # zero); without cut-off at least the zero-load rate with the accessories
         t_fuel = np.where(pulling, t_pull, t_over if self.fuel_cutoff else t_acc_over)
-        fuel_engaged = self.engine.fuel_rate_kg_s(w_eng, t_fuel)
-        fuel_g = np.where(~pulling & slip_over, idle_rate, fuel_engaged)
+        fuel = np.where(~pulling & slip_over, idle_rate, self.engine.fuel_rate_kg_s(w_eng, t_fuel))
         t_idle = p_acc / w_idle                           # clutch open: accessories only
         t_eng = np.where(pulling, t_pull, np.where(slip_over, t_idle, t_over))
+        rev_ok = w_gear <= w_max * (1 + 1e-12)
+        torque_ok = True
         if self.full_load is not None:
             t_max = self.full_load.max_torque_nm(w_eng)
             torque_ok = ~pulling | (t_pull <= t_max * (1 + 1e-9))
-            torque_excess = np.where(pulling, np.maximum(t_pull / np.maximum(t_max, 1e-9) - 1,
-                                                         0.0), 0.0)
-        else:
-            torque_ok = np.ones(w_gear.shape, bool)
-            torque_excess = np.zeros(w_gear.shape)
-        rev_ok = w_gear <= w_max * (1 + 1e-12)
-        # lowest engine speed in gear: the pulling floor while pulling, idle otherwise
-        w_floor = np.where(pulling, w_pull_min, w_idle)
-        low_ok = first | (w_gear >= w_floor * (1 - 1e-12))
-        over_g = ~(rev_ok & torque_ok)
-        if self.shift_rule == "speeds":
-            g = np.searchsorted(np.asarray(self.upshift_speeds_ms, float), v, side="right")
-            g = np.minimum(g, n_g - 1)
-            # while pulling, never below the pulling floor: the highest gear that keeps the
-            # engine at or above it (first gear slips the clutch when none does)
-            n_ok = np.sum(w_gear >= w_pull_min * (1 - 1e-12), axis=0)
-            g = np.where(pulling, np.minimum(g, np.maximum(n_ok - 1, 0)), g)
-        else:
-            feasible = rev_ok & low_ok & torque_ok
-            penalty = (np.maximum(w_gear / w_max - 1.0, 0.0)
-                       + np.where(first, 0.0, np.maximum(1.0 - w_gear / w_floor, 0.0))
-                       + torque_excess)
-            # ties (e.g. fuel cut-off in every gear) go to the lowest engine speed
-            cost = np.where(feasible, fuel_g, 1.0e6 + penalty) + 1e-15 * w_eng
-            g = np.argmin(cost, axis=0)
-        g = np.broadcast_to(g, f.shape)
-
-        def pick(a):
-            return np.take_along_axis(np.broadcast_to(a, w_gear.shape), g[None], axis=0)[0]
-
-        fuel = pick(fuel_g)
-        w_sel = pick(w_eng)
-        t_sel = pick(t_eng)
-        idle = ~moving | (pick(slip_over) & ~pulling)
-        rest_rate = 0.0 if self.engine_off_at_rest else idle_rate
-        fuel = np.where(moving, fuel, rest_rate)
-        w_sel = np.where(moving, w_sel, 0.0 if self.engine_off_at_rest else w_idle)
-        t_sel = np.where(moving, t_sel, 0.0 if self.engine_off_at_rest else t_idle)
-        over = moving & pick(over_g)
-        gear = np.where(moving, g + 1, 0)
-        return {"gear": gear, "engine_speed_rads": w_sel, "engine_torque_nm": t_sel,
-                "fuel_kg_s": fuel, "idle": idle, "over_limit": over}
+        out = {"w_gear": w_gear, "w_eng": w_eng, "t_eng": t_eng, "fuel": fuel,
+               "slip_over": slip_over, "over": ~(rev_ok & torque_ok)}
+        if choose:
+            excess = 0.0
+            if self.full_load is not None:
+                excess = np.where(pulling, np.maximum(t_pull / np.maximum(t_max, 1e-9) - 1,
+                                                      0.0), 0.0)
+            # lowest engine speed in gear: the pulling floor while pulling, idle otherwise
+            w_floor = np.where(pulling, w_pull_min, w_idle)
+            low_ok = first | (w_gear >= w_floor * (1 - 1e-12))
+            out["feasible"] = rev_ok & low_ok & torque_ok
+            out["penalty"] = (np.maximum(w_gear / w_max - 1.0, 0.0)
+                              + np.where(first, 0.0, np.maximum(1.0 - w_gear / w_floor, 0.0))
+                              + excess)
+        return out
 
     def consume(self, vehicle, demand, profile=None, *, ambient_temperature_c=None
                 ) -> CombustionResult:

@@ -407,9 +407,12 @@ def _note_clipped(warnings, label, clipped):
 #: memory the Monte Carlo evaluation of one variant on one profile may take at a time [bytes]
 CHUNK_MEMORY_BYTES = 256 * 2 ** 20
 #: float64 values per time step and vehicle held at the peak of one evaluation: wheel
-#: demand with an electric powertrain (measured with tracemalloc: about 30), and per gear
-#: of a combustion powertrain, every gear being evaluated at every step (about 18 with a
-#: BSFC map); with a margin, checked by tests/test_study_engine.py and benchmarks/run.py
+#: demand with an electric powertrain (measured with tracemalloc: about 30) or with a
+#: combustion powertrain on the ``speeds`` shift rule, which evaluates the engine in the
+#: one gear the rule picks (about 20 with a Willans line); and per gear of a combustion
+#: powertrain on the ``efficient`` rule, which evaluates every gear at every step (about
+#: 17 with a Willans line, 22 with a BSFC map); with a margin, checked by
+#: tests/test_study_engine.py and benchmarks/run.py
 _ARRAYS_PER_STEP = 40
 _ARRAYS_PER_STEP_AND_GEAR = 24
 
@@ -419,7 +422,8 @@ def chunk_size_for(ps, profiles, memory_bytes: int = CHUNK_MEMORY_BYTES) -> int:
 
     The evaluation of N vehicles on a profile of T steps holds about
     N · T · (a + b · G) float64 values at its peak, G being the number of
-    gears of a combustion powertrain (0 otherwise); a and b are
+    gears of a combustion powertrain whose shift rule compares every gear
+    (``efficient``; 0 otherwise); a and b are
     :data:`_ARRAYS_PER_STEP` and :data:`_ARRAYS_PER_STEP_AND_GEAR`, measured
     with a margin. The chunk is the largest N whose peak fits
     ``memory_bytes`` (at least 1).
@@ -435,7 +439,7 @@ def chunk_size_for(ps, profiles, memory_bytes: int = CHUNK_MEMORY_BYTES) -> int:
     steps = max((len(prof.time_s) for _, prof in profiles), default=1)
     gears = 0
     pt = ps.powertrain
-    if getattr(pt, "kind", "") == "combustion":
+    if getattr(pt, "kind", "") == "combustion" and getattr(pt, "shift_rule", "") != "speeds":
         gears = int(getattr(getattr(pt, "gearing", None), "n_gears", 1) or 1)
     per_vehicle = 8 * steps * (_ARRAYS_PER_STEP + _ARRAYS_PER_STEP_AND_GEAR * gears)
     return max(1, int(memory_bytes // per_vehicle))
