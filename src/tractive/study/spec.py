@@ -33,7 +33,8 @@ from ..limits import MAX_DRAWS
 from ..spec import Section, load_section, read_yaml
 from ..vehicle import Vehicle, load_vehicle, vehicle_from_section
 from ..roadload import CoefficientRoadLoad
-from .modify import POWERTRAIN_STD_KEYS, parse_tyre_label, reference_air_density
+from .modify import POWERTRAIN_STD_KEYS, reference_air_density
+from .tyres import parse_tyre_label
 from .results import InputItem
 
 #: Monte Carlo draws when the study does not say
