@@ -86,6 +86,8 @@ import numpy as np
 
 from .demand import inertial_mass_kg
 from .errors import InputError
+from .limits import MAX_SHAFT_SPEED_RPM
+from .plain import plain
 from .powertrain.drive import (RPM_RADS, FullLoadCurve, Gearing, MotorEnvelope, parse_full_load,
                                parse_gear_ratios, parse_motor)
 from .roadload import PhysicalRoadLoad
@@ -180,7 +182,8 @@ def parse_performance(sec: Section) -> PerformanceSpec:
                        max=20.0)
     radius = sec.number("tyre_radius_m", required=False, min=0.1, max=1.5, unit="m")
     eff = sec.number("driveline_efficiency", required=False, min=0.5, max=1.0)
-    rev = sec.number("rev_limit_rpm", required=False, min=500.0, max=100000.0, unit="rpm")
+    rev = sec.number("rev_limit_rpm", required=False, min=500.0, max=MAX_SHAFT_SPEED_RPM,
+                     unit="rpm")
     if motor is not None:
         for k in ("rev_limit_rpm", "launch_speed_rpm"):
             if sec.has(k):
@@ -518,13 +521,11 @@ def _model(vehicle) -> _Model:
 # ---------------------------------------------------------------------------
 
 def _plain(x, integer=False):
-    """JSON-ready: a number, str, bool or None as is; an array as a list (NaN → None)."""
-    if not isinstance(x, np.ndarray):
-        return x
-    if x.dtype.kind in "USb":
-        return x.tolist()
-    return [None if not np.isfinite(v) else (int(v) if integer else float(v))
-            for v in x.tolist()]
+    """JSON-ready (see :func:`tractive.plain.plain`); ``integer`` turns a float array of
+    whole numbers (gears, shift counts) into ints, NaN into None."""
+    if integer and isinstance(x, np.ndarray) and x.dtype.kind == "f":
+        return [None if not math.isfinite(v) else int(v) for v in x.tolist()]
+    return plain(x)
 
 
 def _one(x, i, integer=False):

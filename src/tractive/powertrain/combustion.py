@@ -68,7 +68,8 @@ import numpy as np
 
 from ..spec import Section
 from ..units import KMH_MS, KWH_J, MILE_M, UK_GALLON_L, US_GALLON_L
-from ._common import STANDSTILL_MS, col, plain, range_from, safe_divide
+from ..plain import plain_number
+from ._common import STANDSTILL_MS, col, range_from, safe_divide
 from .drive import (RPM_RADS, FullLoadCurve, Gearing, parse_full_load, parse_gear_ratios,
                     rads_to_rpm)
 from .fuels import Fuel, get_fuel
@@ -163,11 +164,11 @@ class WillansEngine:
                                       self.lhv_j_per_kg)
 
     def to_dict(self) -> dict:
-        out = {"model": self.model, "marginal_efficiency": plain(self.marginal_efficiency)}
+        out = {"model": self.model, "marginal_efficiency": plain_number(self.marginal_efficiency)}
         if self.friction_power_w is not None:
-            out["friction_power_kw"] = plain(np.asarray(self.friction_power_w) / 1000.0)
+            out["friction_power_kw"] = plain_number(np.asarray(self.friction_power_w) / 1000.0)
         else:
-            out["friction_mep_kpa"] = plain(np.asarray(self.friction_mep_pa) / 1000.0)
+            out["friction_mep_kpa"] = plain_number(np.asarray(self.friction_mep_pa) / 1000.0)
             out["displacement_l"] = self.displacement_m3 * 1000.0
         return out
 
@@ -321,20 +322,20 @@ class CombustionResult:
         return {
             "powertrain": self.kind,
             "fuel": self.fuel.name,
-            "fuel_l": plain(self.fuel_l),
-            "fuel_l_per_100km": plain(self.fuel_l_per_100km),
-            "fuel_kg": plain(self.fuel_kg),
-            "fuel_kg_per_100km": plain(self.fuel_kg_per_100km),
-            "fuel_energy_mj": plain(self.fuel_energy_mj),
-            "idle_fuel_kg": plain(self.idle_fuel_kg),
-            "mpg_us": plain(self.mpg_us),
-            "mpg_uk": plain(self.mpg_uk),
-            "co2_kg": plain(self.co2_kg),
-            "co2_g_per_km": plain(self.co2_g_per_km),
-            "range_km": plain(self.range_km),
-            "tank_to_wheel_efficiency": plain(self.tank_to_wheel_efficiency),
-            "engine_limit_exceeded_s": plain(self.engine_limit_exceeded_s),
-            "accessory_energy_kwh": plain(self.accessory_energy_kwh),
+            "fuel_l": plain_number(self.fuel_l),
+            "fuel_l_per_100km": plain_number(self.fuel_l_per_100km),
+            "fuel_kg": plain_number(self.fuel_kg),
+            "fuel_kg_per_100km": plain_number(self.fuel_kg_per_100km),
+            "fuel_energy_mj": plain_number(self.fuel_energy_mj),
+            "idle_fuel_kg": plain_number(self.idle_fuel_kg),
+            "mpg_us": plain_number(self.mpg_us),
+            "mpg_uk": plain_number(self.mpg_uk),
+            "co2_kg": plain_number(self.co2_kg),
+            "co2_g_per_km": plain_number(self.co2_g_per_km),
+            "range_km": plain_number(self.range_km),
+            "tank_to_wheel_efficiency": plain_number(self.tank_to_wheel_efficiency),
+            "engine_limit_exceeded_s": plain_number(self.engine_limit_exceeded_s),
+            "accessory_energy_kwh": plain_number(self.accessory_energy_kwh),
         }
 
 
@@ -633,9 +634,9 @@ class CombustionPowertrain:
                "shift_rule": self.shift_rule,
                "upshift_speeds_kmh": [s / KMH_MS for s in self.upshift_speeds_ms] or None,
                "fuel_cutoff": self.fuel_cutoff, "engine_off_at_rest": self.engine_off_at_rest,
-               "idle_fuel_kg_per_h": plain(np.squeeze(self.idle_fuel_rate_kg_s()) * 3600.0),
-               "min_pulling_speed_rpm": plain(self.pulling_speed_floor_rpm),
-               "accessory_power_kw": plain(np.asarray(self.accessory_power_w, float) / 1000.0),
+               "idle_fuel_kg_per_h": plain_number(np.squeeze(self.idle_fuel_rate_kg_s()) * 3600.0),
+               "min_pulling_speed_rpm": plain_number(self.pulling_speed_floor_rpm),
+               "accessory_power_kw": plain_number(np.asarray(self.accessory_power_w, float) / 1000.0),
                "full_load": None if self.full_load is None else self.full_load.to_dict()}
         out.update(self.gearing.to_dict())
         out["transmission_efficiency"] = out.pop("driveline_efficiency")

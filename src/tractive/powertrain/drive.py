@@ -28,6 +28,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..limits import MAX_SHAFT_SPEED_RPM
 from ..spec import Section
 
 RPM_RADS = 2.0 * math.pi / 60.0
@@ -221,9 +222,9 @@ def parse_motor(sec: Section) -> MotorEnvelope:
     t = sec.number("peak_torque_nm", required=False, min=0.0, min_inclusive=False,
                    max=50000.0, unit="N m")
     nb = sec.number("base_speed_rpm", required=False, min=0.0, min_inclusive=False,
-                    max=100000.0, unit="rpm")
+                    max=MAX_SHAFT_SPEED_RPM, unit="rpm")
     nmax = sec.number("max_speed_rpm", required=False, min=0.0, min_inclusive=False,
-                      max=100000.0, unit="rpm")
+                      max=MAX_SHAFT_SPEED_RPM, unit="rpm")
     sec.finish()
     if p is None:
         p = t * nb * RPM_RADS / 1000.0

@@ -42,7 +42,8 @@ import numpy as np
 
 from ..spec import Section
 from ..units import KMH_MS, KWH_J
-from ._common import STANDSTILL_MS, col, plain, range_from, safe_divide
+from ..plain import plain_number
+from ._common import STANDSTILL_MS, col, range_from, safe_divide
 from .drive import MotorEnvelope, parse_motor, rads_to_rpm
 from .maps import SpeedTorqueMap, parse_speed_torque_map
 
@@ -145,17 +146,17 @@ class ElectricResult:
     def to_dict(self) -> dict:
         return {
             "powertrain": self.kind,
-            "battery_energy_kwh": plain(self.battery_energy_kwh),
-            "battery_wh_per_km": plain(self.battery_wh_per_km),
-            "range_km": plain(self.range_km),
-            "traction_battery_energy_kwh": plain(self.traction_energy_kwh),
-            "regenerated_energy_kwh": plain(self.regenerated_energy_kwh),
-            "auxiliary_energy_kwh": plain(self.auxiliary_energy_kwh),
-            "auxiliary_power_kw": plain(self.auxiliary_power_kw),
-            "wall_energy_kwh": plain(self.wall_energy_kwh),
-            "wall_wh_per_km": plain(self.wall_wh_per_km),
-            "usable_battery_kwh": plain(self.usable_battery_kwh),
-            "motor_limit_exceeded_s": plain(self.motor_limit_exceeded_s),
+            "battery_energy_kwh": plain_number(self.battery_energy_kwh),
+            "battery_wh_per_km": plain_number(self.battery_wh_per_km),
+            "range_km": plain_number(self.range_km),
+            "traction_battery_energy_kwh": plain_number(self.traction_energy_kwh),
+            "regenerated_energy_kwh": plain_number(self.regenerated_energy_kwh),
+            "auxiliary_energy_kwh": plain_number(self.auxiliary_energy_kwh),
+            "auxiliary_power_kw": plain_number(self.auxiliary_power_kw),
+            "wall_energy_kwh": plain_number(self.wall_energy_kwh),
+            "wall_wh_per_km": plain_number(self.wall_wh_per_km),
+            "usable_battery_kwh": plain_number(self.usable_battery_kwh),
+            "motor_limit_exceeded_s": plain_number(self.motor_limit_exceeded_s),
         }
 
 
@@ -351,17 +352,17 @@ class ElectricPowertrain:
         return out
 
     def to_dict(self) -> dict:
-        out = {"kind": self.kind, "battery_usable_kwh": plain(self.battery_usable_kwh),
-               "drive_efficiency": plain(self.drive_efficiency),
+        out = {"kind": self.kind, "battery_usable_kwh": plain_number(self.battery_usable_kwh),
+               "drive_efficiency": plain_number(self.drive_efficiency),
                "efficiency_map": None if self.efficiency_map is None
                else self.efficiency_map.to_dict(),
-               "gear_ratio": self.gear_ratio, "gear_efficiency": plain(self.gear_efficiency),
+               "gear_ratio": self.gear_ratio, "gear_efficiency": plain_number(self.gear_efficiency),
                "tyre_radius_m": self.tyre_radius_m,
                "motor": None if self.motor is None else self.motor.to_dict(),
                "regen": None if self.regen is None else self.regen.to_dict(),
-               "charger_efficiency": plain(self.charger_efficiency)}
+               "charger_efficiency": plain_number(self.charger_efficiency)}
         if self.auxiliary_power_table_w is None:
-            out["auxiliary_power_kw"] = plain(np.asarray(self.auxiliary_power_w) / 1000.0)
+            out["auxiliary_power_kw"] = plain_number(np.asarray(self.auxiliary_power_w) / 1000.0)
         else:
             out["auxiliary_power_by_temperature"] = {
                 "temperature_c": self.auxiliary_temperature_c.tolist(),
