@@ -81,6 +81,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
+from typing import ClassVar
 
 import numpy as np
 
@@ -88,8 +89,9 @@ from .demand import inertial_mass_kg
 from .errors import InputError
 from .limits import MAX_SHAFT_SPEED_RPM
 from .plain import plain
-from .powertrain.drive import (RPM_RADS, FullLoadCurve, Gearing, MotorEnvelope, parse_full_load,
-                               parse_gear_ratios, parse_motor)
+from .powertrain.base import ParamField
+from .powertrain.drive import (RPM_RADS, FullLoadCurve, Gearing, MotorEnvelope, motor_fields,
+                               parse_full_load, parse_gear_ratios, parse_motor)
 from .roadload import PhysicalRoadLoad
 from .spec import Section
 from .units import KMH_MS, STANDARD_GRAVITY_MS2
@@ -139,6 +141,48 @@ class PerformanceSpec:
     rev_limit_rpm: float | None = None
     file: str | None = None
     line: int | None = None
+
+    #: vehicle-file keys a study may change (see :class:`tractive.powertrain.base.ParamField`)
+    CHANGEABLE: ClassVar[dict] = {
+        "driven_axle_load_share": ParamField(("driven_axle_load_share",), min=0.0,
+                                             min_inclusive=False, max=1.0),
+        "tyre_road_friction": ParamField(("tyre_road_friction",), min=0.05, max=3.0),
+        "cg_height_m": ParamField(("cg_height_m",), "m", min=0.05, max=3.0),
+        "wheelbase_m": ParamField(("wheelbase_m",), "m", min=0.5, max=10.0),
+        "downforce_driven_share": ParamField(("downforce_driven_share",), min=0.0, max=1.0,
+                                             optional=True),
+        "shift_time_s": ParamField(("shift_time_s",), "s", min=0.0, max=5.0, optional=True),
+        "governor_kmh": ParamField(("governor_kmh",), "km/h", min=0.0, min_inclusive=False,
+                                   max=600.0, optional=True),
+        "gradeability_speed_kmh": ParamField(("gradeability_speed_kmh",), "km/h", min=0.0,
+                                             max=300.0),
+        "launch_speed_rpm": ParamField(("launch_speed_rpm",), "rpm", min=100.0, max=25000.0,
+                                       optional=True),
+        "final_drive_ratio": ParamField(("final_drive_ratio",), min=0.0, min_inclusive=False,
+                                        max=20.0, optional=True),
+        "tyre_radius_m": ParamField(("tyre_radius_m",), "m", min=0.1, max=1.5, optional=True),
+        "driveline_efficiency": ParamField(("driveline_efficiency",), min=0.5, max=1.0,
+                                           optional=True),
+        "rev_limit_rpm": ParamField(("rev_limit_rpm",), "rpm", min=500.0,
+                                    max=MAX_SHAFT_SPEED_RPM, optional=True),
+        **motor_fields(),
+    }
+
+    def check_changed(self):
+        """(key, message) of a rule between values that a change breaks, else None."""
+        h, wb, mu = self.cg_height_m, self.wheelbase_m, self.tyre_road_friction
+        if h is not None and wb is not None and h / wb * mu >= 1.0 and \
+                self.driven_axle == "rear":
+            return ("cg_height_m", f"friction × cg_height_m / wheelbase_m = {mu * h / wb:.2f} "
+                    "≥ 1: the front wheels would lift before the rear tyres slip")
+        if self.motor is not None:
+            if self.rev_limit_rpm is not None or self.launch_speed_rpm is not None:
+                key = "rev_limit_rpm" if self.rev_limit_rpm is not None else "launch_speed_rpm"
+                return (key, "is for engines; a motor's limit is motor.max_speed_rpm")
+            bad = self.motor.check_changed()
+            if bad:
+                return ("motor." + bad[0], bad[1])
+        return None
 
     def to_dict(self) -> dict:
         out = {k: getattr(self, k) for k in (

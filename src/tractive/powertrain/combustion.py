@@ -63,6 +63,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import ClassVar
 
 import numpy as np
 
@@ -70,6 +71,7 @@ from ..spec import Section
 from ..units import KMH_MS, KWH_J, MILE_M, UK_GALLON_L, US_GALLON_L
 from ..plain import plain_number
 from ._common import STANDSTILL_MS, col, range_from, safe_divide
+from .base import ParamField
 from .drive import (RPM_RADS, FullLoadCurve, Gearing, parse_full_load, parse_gear_ratios,
                     rads_to_rpm)
 from .fuels import Fuel, get_fuel
@@ -397,6 +399,61 @@ class CombustionPowertrain:
     accessory_power_w: object = DEFAULT_ACCESSORY_POWER_W
 
     kind = "combustion"
+
+    #: vehicle-file keys a study may change (see :class:`tractive.powertrain.base.ParamField`)
+    CHANGEABLE: ClassVar[dict] = {
+        "tank_l": ParamField(("tank_l",), "L", min=0.0, min_inclusive=False, max=5000.0),
+        "tank_kg": ParamField(("tank_kg",), "kg", min=0.0, min_inclusive=False, max=5000.0),
+        "final_drive_ratio": ParamField(("gearing", "final_drive_ratio"), min=0.0,
+                                        min_inclusive=False, max=20.0),
+        "tyre_radius_m": ParamField(("gearing", "tyre_radius_m"), "m", min=0.1, max=1.5),
+        "transmission_efficiency": ParamField(("gearing", "efficiency"), min=0.5, max=1.0,
+                                              uncertain=(1e-6, 1.0)),
+        "idle_speed_rpm": ParamField(("idle_speed_rpm",), "rpm", min=200.0, max=3000.0),
+        "rev_limit_rpm": ParamField(("rev_limit_rpm",), "rpm", min=500.0, max=25000.0),
+        "min_pulling_speed_rpm": ParamField(("min_pulling_speed_rpm",), "rpm", min=0.0,
+                                            optional=True),
+        "accessory_power_kw": ParamField(("accessory_power_w",), "kW", scale=1000.0, min=0.0,
+                                         max=50.0),
+        "idle_fuel_l_per_h": ParamField(
+            ("idle_fuel_kg_s",), "L/h", min=0.0, max=50.0, uncertain=(0.0, math.inf),
+            available=lambda pt: pt.fuel.liquid,
+            to_model=lambda pt, x: x * pt.fuel.density_kg_per_l / 3600.0,
+            from_model=lambda pt, v: v * 3600.0 / pt.fuel.density_kg_per_l),
+        "idle_fuel_kg_per_h": ParamField(("idle_fuel_kg_s",), "kg/h", divisor=3600.0, min=0.0,
+                                         max=50.0, uncertain=(0.0, math.inf)),
+        "willans.marginal_efficiency": ParamField(
+            ("engine", "marginal_efficiency"), min=0.05, max=0.7, uncertain=(1e-6, 1.0),
+            available=lambda pt: pt.engine.model == "willans"),
+        "willans.friction_mep_kpa": ParamField(
+            ("engine", "friction_mep_pa"), "kPa", scale=1000.0, min=0.0, max=1000.0,
+            uncertain=(0.0, math.inf), available=lambda pt: pt.engine.model == "willans"),
+        "willans.friction_power_kw": ParamField(
+            ("engine", "friction_power_w"), "kW", scale=1000.0, min=0.0, max=500.0,
+            uncertain=(0.0, math.inf), available=lambda pt: pt.engine.model == "willans"),
+        "willans.displacement_l": ParamField(
+            ("engine", "displacement_m3"), "L", divisor=1000.0, min=0.0, min_inclusive=False,
+            max=40.0, available=lambda pt: pt.engine.model == "willans"),
+    }
+
+    def check_changed(self):
+        """(key, message) of a rule between values that a change breaks, else None
+        (the parser's rules between idle speed, rev limit, pulling floor and full load)."""
+        idle, rev = self.idle_speed_rpm, self.rev_limit_rpm
+        if rev <= idle:
+            return ("rev_limit_rpm", f"must be above idle_speed_rpm ({idle:g})")
+        if self.full_load is not None and self.full_load.speed_rpm[0] > idle + 1e-9:
+            return ("full_load", f"full_load must start at or below idle_speed_rpm ({idle:g} "
+                    f"rpm); it starts at {self.full_load.speed_rpm[0]:g} rpm")
+        pull = self.min_pulling_speed_rpm
+        if pull is not None and np.ndim(pull) == 0:
+            if pull < idle:
+                return ("min_pulling_speed_rpm", f"must be at least idle_speed_rpm "
+                        f"({idle:g} rpm), got {pull:g}")
+            if pull >= rev:
+                return ("min_pulling_speed_rpm", f"must be below rev_limit_rpm ({rev:g} rpm), "
+                        f"got {pull:g}")
+        return None
 
     @property
     def pulling_speed_floor_rpm(self):
@@ -743,7 +800,8 @@ def parse_combustion(sec: Section) -> CombustionPowertrain:
         fuel=fuel, engine=engine, gearing=gearing, idle_speed_rpm=idle, rev_limit_rpm=rev,
         shift_rule=rule, upshift_speeds_ms=upshift, fuel_cutoff=cutoff,
         engine_off_at_rest=off_at_rest, idle_fuel_kg_s=idle_kg_s, full_load=full_load,
-        tank_l=tank_l, tank_kg=tank_kg, min_pulling_speed_rpm=pull_min,
+        tank_l=tank_l, tank_kg=tank_kg,
+        min_pulling_speed_rpm=pull_min if sec.has("min_pulling_speed_rpm") else None,
         accessory_power_w=acc_w)
 
 

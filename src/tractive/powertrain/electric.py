@@ -36,7 +36,9 @@ References
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
+from typing import ClassVar
 
 import numpy as np
 
@@ -44,7 +46,8 @@ from ..spec import Section
 from ..units import KMH_MS, KWH_J
 from ..plain import plain_number
 from ._common import STANDSTILL_MS, col, range_from, safe_divide
-from .drive import MotorEnvelope, parse_motor, rads_to_rpm
+from .base import ParamField
+from .drive import MotorEnvelope, motor_fields, parse_motor, rads_to_rpm
 from .maps import SpeedTorqueMap, parse_speed_torque_map
 
 
@@ -207,6 +210,42 @@ class ElectricPowertrain:
     charger_efficiency: object = None
 
     kind = "electric"
+
+    #: vehicle-file keys a study may change (see :class:`tractive.powertrain.base.ParamField`)
+    CHANGEABLE: ClassVar[dict] = {
+        "battery_usable_kwh": ParamField(("battery_usable_kwh",), "kWh", min=0.0,
+                                         min_inclusive=False, max=5000.0,
+                                         uncertain=(1e-9, math.inf)),
+        "drive_efficiency": ParamField(("drive_efficiency",), min=0.0, min_inclusive=False,
+                                       max=1.0, uncertain=(1e-6, 1.0)),
+        "gear_ratio": ParamField(("gear_ratio",), min=0.0, min_inclusive=False, max=50.0),
+        "tyre_radius_m": ParamField(("tyre_radius_m",), "m", min=0.1, max=1.5),
+        "gear_efficiency": ParamField(("gear_efficiency",), min=0.5, max=1.0,
+                                      uncertain=(1e-6, 1.0)),
+        "auxiliary_power_kw": ParamField(("auxiliary_power_w",), "kW", scale=1000.0, min=0.0,
+                                         max=100.0, uncertain=(0.0, math.inf)),
+        "ambient_temperature_c": ParamField(("ambient_temperature_c",), "°C", min=-60.0,
+                                            max=60.0),
+        "charger_efficiency": ParamField(("charger_efficiency",), min=0.0, min_inclusive=False,
+                                         max=1.0, uncertain=(1e-6, 1.0), optional=True),
+        "regen.efficiency": ParamField(("regen", "efficiency"), min=0.0, max=1.0,
+                                       uncertain=(0.0, 1.0)),
+        "regen.max_power_kw": ParamField(("regen", "max_power_w"), "kW", scale=1000.0,
+                                         min=0.0, max=5000.0, optional=True),
+        "regen.fade_below_kmh": ParamField(("regen", "fade_below_ms"), "km/h", scale=KMH_MS,
+                                           min=0.0, max=60.0),
+        "regen.recoverable_share": ParamField(("regen", "recoverable_share"), min=0.0,
+                                              max=1.0, uncertain=(0.0, 1.0)),
+        **motor_fields(),
+    }
+
+    def check_changed(self):
+        """(key, message) of a rule between values that a change breaks, else None."""
+        if self.motor is not None:
+            bad = self.motor.check_changed()
+            if bad:
+                return ("motor." + bad[0], bad[1])
+        return None
 
     # -- pieces of the model ------------------------------------------------
     def auxiliary_power(self, ambient_temperature_c=None):
@@ -377,8 +416,7 @@ class ElectricPowertrain:
 
 def parse_electric(sec: Section) -> ElectricPowertrain:
     """Read a ``powertrain`` block with ``kind: electric`` (keys in the docs)."""
-    usable = sec.number("battery_usable_kwh", min=0.0, min_inclusive=False, max=5000.0,
-                        unit="kWh")
+    usable = _number(sec, "battery_usable_kwh")
     form = sec.only_one_of(("drive_efficiency",), ("efficiency_map",),
                            what="drive efficiency (drive_efficiency or efficiency_map)")
     if form is None:
@@ -387,7 +425,7 @@ def parse_electric(sec: Section) -> ElectricPowertrain:
     drive_eff = None
     emap = None
     if form == 0:
-        drive_eff = sec.number("drive_efficiency", min=0.0, min_inclusive=False, max=1.0)
+        drive_eff = _number(sec, "drive_efficiency")
     else:
         emap = parse_speed_torque_map(sec.section("efficiency_map"), "efficiency", unit="",
                                       value_min=0.0, value_min_inclusive=False, value_max=1.0,
@@ -400,12 +438,12 @@ def parse_electric(sec: Section) -> ElectricPowertrain:
             if not sec.has(k):
                 raise sec.error(f"missing required key (needed with {why} to turn wheel "
                                 "speed and force into motor speed and torque)", k)
-    ratio = sec.number("gear_ratio", required=False, min=0.0, min_inclusive=False, max=50.0)
-    radius = sec.number("tyre_radius_m", required=False, min=0.1, max=1.5, unit="m")
+    ratio = _number(sec, "gear_ratio", required=False)
+    radius = _number(sec, "tyre_radius_m", required=False)
     if emap is not None and not sec.has("gear_efficiency"):
         raise sec.error("missing required key (needed with an efficiency_map: the map covers "
                         "motor and inverter only)", "gear_efficiency")
-    gear_eff = sec.number("gear_efficiency", required=False, min=0.5, max=1.0)
+    gear_eff = _number(sec, "gear_efficiency", required=False)
     regen = None
     if sec.has("regen"):
         regen = _parse_regen(sec.section("regen"), with_map=emap is not None)
@@ -432,8 +470,7 @@ def parse_electric(sec: Section) -> ElectricPowertrain:
                              f"{len(aux_p)}", "power_kw")
         tsec.finish()
         ambient = sec.number("ambient_temperature_c", min=-60.0, max=60.0, unit="°C")
-    charger = sec.number("charger_efficiency", required=False, min=0.0, min_inclusive=False,
-                         max=1.0)
+    charger = _number(sec, "charger_efficiency", required=False)
     sec.finish(allowed_extra=("kind",))
     return ElectricPowertrain(
         battery_usable_kwh=usable, drive_efficiency=drive_eff, efficiency_map=emap,
@@ -441,6 +478,13 @@ def parse_electric(sec: Section) -> ElectricPowertrain:
         regen=regen, auxiliary_power_w=aux_w, auxiliary_temperature_c=aux_t,
         auxiliary_power_table_w=aux_p, ambient_temperature_c=ambient,
         charger_efficiency=charger)
+
+
+def _number(sec: Section, key: str, *, required: bool = True, table_key: str | None = None):
+    """A number read with the range of its entry in :attr:`ElectricPowertrain.CHANGEABLE`."""
+    fld = ElectricPowertrain.CHANGEABLE[table_key or key]
+    return sec.number(key, required=required, min=fld.min, max=fld.max,
+                      min_inclusive=fld.min_inclusive, unit=fld.unit)
 
 
 def _parse_regen(sec: Section, *, with_map: bool) -> Regeneration:

@@ -164,7 +164,7 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
             [(m.name, m.changes) for m in spec.modifications]:
         z_changes[owner] = [standard_normal_draws(rng, n) for _ in changes]
 
-    base_nom, stds, cov = modify.nominal_params(spec.baseline, spec.baseline_raw,
+    base_nom, stds, cov = modify.nominal_params(spec.baseline,
                                                 air_density_kg_m3=spec.air_density_kg_m3)
     uncertain = [f"baseline {k} ± {v:g}" for k, v in stds.items()]
     if cov is not None:
@@ -333,7 +333,7 @@ def _build_variant(spec, members, base_mc, z_base, z_changes, n, warnings, label
     whole = [m for m in members if m.vehicle is not None]
     if whole:
         m0 = whole[0]
-        nom, stds, cov = modify.nominal_params(m0.vehicle, m0.raw,
+        nom, stds, cov = modify.nominal_params(m0.vehicle,
                                                air_density_kg_m3=spec.air_density_kg_m3)
         if nom.form == modify.COEFFICIENT and base_mc.form == modify.COEFFICIENT:
             # state the variant's rolling coefficients at the baseline mass, so that the

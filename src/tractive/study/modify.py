@@ -74,7 +74,6 @@ References
 
 from __future__ import annotations
 
-import copy
 import math
 from dataclasses import dataclass, field, replace
 from typing import Any
@@ -86,8 +85,9 @@ from ..demand import inertial_mass_kg
 from ..errors import InputError
 from ..limits import MAX_MASS_KG
 from ..roadload import CoefficientRoadLoad, PhysicalRoadLoad, RoadLoad
-from ..spec import Section
 from ..units import KMH_MS, STANDARD_GRAVITY_MS2
+from ..plain import plain
+from ..powertrain.base import changeable, check_value, current_value, field_of, with_value
 from ..vehicle import Vehicle
 from .tyres import (DEFAULT_TYRE_REGULATION, TYRE_CLASS_UPPER_KG_T,  # noqa: F401 (re-exported)
                     TYRE_REGULATIONS, TyreLabel, parse_tyre_label, tyre_class_interval_kg_t,
@@ -139,11 +139,7 @@ class ParamSet:
     powertrain, performance : objects or None
         Parsed blocks (not varied by Monte Carlo).
     template : Vehicle
-        The vehicle the set came from (name, source, raw-block holder).
-    raw : dict
-        The vehicle's raw YAML mapping (for powertrain/performance changes).
-    changed_blocks : frozenset
-        Blocks (``powertrain``, ``performance``) a change has rewritten.
+        The vehicle the set came from (name, source).
     pt_values : dict of str → (N,) arrays
         Powertrain keys that carry a standard uncertainty (see
         :data:`POWERTRAIN_UNCERTAIN`): the value of each vehicle, in the key's
@@ -155,8 +151,6 @@ class ParamSet:
     powertrain: Any
     performance: Any
     template: Vehicle
-    raw: dict = field(default_factory=dict)
-    changed_blocks: frozenset = frozenset()
     pt_values: dict = field(default_factory=dict)
 
     @property
@@ -286,14 +280,15 @@ def reference_air_density(rl) -> tuple:
                                        "(f0/f1/f2 coefficients, none stated)")
 
 
-def nominal_params(vehicle: Vehicle, raw: dict, *, air_density_kg_m3: float | None) -> tuple:
+def nominal_params(vehicle: Vehicle, raw: dict | None = None, *,
+                   air_density_kg_m3: float | None) -> tuple:
     """Parameters of a vehicle (vehicle axis of length 1) and their uncertainties.
 
     Parameters
     ----------
     vehicle : Vehicle
-    raw : dict
-        The vehicle's raw YAML mapping.
+    raw : dict, optional
+        Not used: changes act on the parsed blocks (accepted for older callers).
     air_density_kg_m3 : float or None
         Study air density [kg/m³]; None keeps the vehicle file's own air (a
         physical road load) or the reference density of measured coefficients
@@ -338,7 +333,7 @@ def nominal_params(vehicle: Vehicle, raw: dict, *, air_density_kg_m3: float | No
     else:
         raise InputError("this road-load form cannot be used in a study", file=vehicle.source,
                          field="road_load")
-    return (ParamSet(form, params, vehicle.powertrain, vehicle.performance, vehicle, raw),
+    return (ParamSet(form, params, vehicle.powertrain, vehicle.performance, vehicle),
             stds, cov)
 
 
@@ -516,44 +511,41 @@ def _operate(current, mode, value):
 
 
 def _apply_block_change(ps: ParamSet, change, z=None) -> ParamSet:
+    """A ``powertrain.<key>`` or ``performance.<key>`` change: a replace on the parsed block.
+
+    The key's entry in the block's ``CHANGEABLE`` table says where the value
+    lives and which range it must keep; the block's ``check_changed`` checks
+    the rules between values. A key that carries a standard uncertainty also
+    moves its per-vehicle values (``pt_values``).
+    """
     block, _, path = change.key.partition(".")
-    if block not in ps.raw or not isinstance(ps.raw.get(block), dict):
+    obj = ps.powertrain if block == "powertrain" else ps.performance
+    if obj is None:
         raise change.error(f"the vehicle has no {block} block to change")
-    uncertain = block == "powertrain" and (change.std or path in ps.pt_values)
     if change.std:
         _check_uncertain_key(ps, block, path, change)
-    raw = copy.deepcopy(ps.raw)
-    node = raw[block]
-    parts = path.split(".")
-    for part in parts[:-1]:
-        if not isinstance(node.get(part), dict):
-            raise change.error(f"the vehicle's {block} block has no '{part}' mapping")
-        node = node[part]
-    leaf = parts[-1]
-    current = node.get(leaf)
-    if change.mode in ("add", "scale"):
-        if leaf not in node:
-            raise change.error(f"the vehicle's {block} block has no key '{path}' to change")
-        if isinstance(current, bool) or not isinstance(current, (int, float)):
-            raise change.error(f"'{path}' is not a number, it cannot change by {change.text}")
-        node[leaf] = float(_operate(np.array([current]), change.mode, change.value)[0])
+    if field_of(obj, path) is None:
+        keys = ", ".join(k for k in changeable(obj) if field_of(obj, k) is not None)
+        raise change.error(f"the vehicle's {block} block has no key '{path}' to change "
+                           f"(possible: {keys})")
+    current = current_value(obj, path)
+    if current is None and (change.mode != "set" or not changeable(obj)[path].optional):
+        raise change.error(f"the vehicle's {block} block has no key '{path}' to change")
+    if change.mode == "set":
+        nominal = float(change.value)
     else:
-        node[leaf] = change.value
-    sec = Section(raw[block], file=ps.template.source or None, prefix=block)
+        nominal = float(_operate(np.array([float(current)]), change.mode, change.value)[0])
     try:
-        if block == "powertrain":
-            from ..powertrain import parse_powertrain
-            obj = parse_powertrain(sec)
-            out = replace(ps, powertrain=obj, raw=raw)
-        else:
-            from ..performance import parse_performance
-            obj = parse_performance(sec)
-            out = replace(ps, performance=obj, raw=raw)
+        check_value(obj, path, nominal, field=f"{block}.{path}")
+        out_obj = with_value(obj, path, nominal)
+        broken = out_obj.check_changed()
+        if broken:
+            raise InputError(broken[1], field=f"{block}.{broken[0]}")
     except InputError as exc:
         raise change.error(f"the changed {block} block is not valid: "
                            f"{exc.field + ': ' if exc.field else ''}{exc.message}") from None
-    out = replace(out, changed_blocks=out.changed_blocks | {block})
-    if uncertain:
+    out = replace(ps, **{block: out_obj})
+    if block == "powertrain" and (change.std or path in ps.pt_values):
         # the per-vehicle values follow the change like any parameter array: a new value
         # replaces, an amount adds, a percentage multiplies; the change's own
         # uncertainty adds on top
@@ -561,7 +553,7 @@ def _apply_block_change(ps: ParamSet, change, z=None) -> ParamSet:
         if path in values:
             arr = _operate(values[path], change.mode, change.value)
         else:
-            arr = np.full(ps.size, float(node[leaf]))
+            arr = np.full(ps.size, nominal)
         if change.std and z is not None:
             arr = arr + change.std * np.asarray(z, float)
         values[path] = arr
@@ -578,52 +570,24 @@ def _apply_block_change(ps: ParamSet, change, z=None) -> ParamSet:
 # powertrain keys with a standard uncertainty
 # ---------------------------------------------------------------------------
 
-def _set(attr, factor=1.0):
-    def setter(pt, x):
-        return replace(pt, **{attr: x * factor if factor != 1.0 else x})
-    return setter
+def _uncertain_table() -> dict:
+    """key → (powertrain kind, setter, clip limits) from the models' change tables."""
+    from ..powertrain import CombustionPowertrain, ElectricPowertrain
 
-
-def _set_in(outer, attr, factor=1.0):
-    def setter(pt, x):
-        inner = getattr(pt, outer)
-        return replace(pt, **{outer: replace(inner, **{attr: x * factor if factor != 1.0
-                                                       else x})})
-    return setter
-
-
-def _set_idle_l_per_h(pt, x):
-    return replace(pt, idle_fuel_kg_s=x * pt.fuel.density_kg_per_l / 3600.0)
-
-
-def _set_idle_kg_per_h(pt, x):
-    return replace(pt, idle_fuel_kg_s=x / 3600.0)
+    out = {}
+    for cls in (ElectricPowertrain, CombustionPowertrain):
+        for key, fld in cls.CHANGEABLE.items():
+            if fld.uncertain is not None:
+                out[key] = (cls.kind, lambda pt, x, key=key: with_value(pt, key, x),
+                            fld.uncertain)
+    return out
 
 
 #: powertrain keys (paths in the ``powertrain`` block) whose value may carry a standard
 #: uncertainty, with the powertrain kind, how the value (in the key's unit) enters the
 #: model (its ``consume`` takes these as per-vehicle arrays), and the physical limits a
-#: drawn value is clipped to
-POWERTRAIN_UNCERTAIN = {
-    "battery_usable_kwh": ("electric", _set("battery_usable_kwh"), (1e-9, math.inf)),
-    "drive_efficiency": ("electric", _set("drive_efficiency"), (1e-6, 1.0)),
-    "gear_efficiency": ("electric", _set("gear_efficiency"), (1e-6, 1.0)),
-    "auxiliary_power_kw": ("electric", _set("auxiliary_power_w", 1000.0), (0.0, math.inf)),
-    "charger_efficiency": ("electric", _set("charger_efficiency"), (1e-6, 1.0)),
-    "regen.efficiency": ("electric", _set_in("regen", "efficiency"), (0.0, 1.0)),
-    "regen.recoverable_share": ("electric", _set_in("regen", "recoverable_share"),
-                                (0.0, 1.0)),
-    "transmission_efficiency": ("combustion", _set_in("gearing", "efficiency"),
-                                (1e-6, 1.0)),
-    "idle_fuel_l_per_h": ("combustion", _set_idle_l_per_h, (0.0, math.inf)),
-    "idle_fuel_kg_per_h": ("combustion", _set_idle_kg_per_h, (0.0, math.inf)),
-    "willans.marginal_efficiency": ("combustion", _set_in("engine", "marginal_efficiency"),
-                                    (1e-6, 1.0)),
-    "willans.friction_mep_kpa": ("combustion", _set_in("engine", "friction_mep_pa", 1000.0),
-                                 (0.0, math.inf)),
-    "willans.friction_power_kw": ("combustion", _set_in("engine", "friction_power_w", 1000.0),
-                                  (0.0, math.inf)),
-}
+#: drawn value is clipped to; built from the models' ``CHANGEABLE`` tables
+POWERTRAIN_UNCERTAIN = _uncertain_table()
 
 
 def std_key_of(path: str) -> str:
@@ -655,12 +619,9 @@ def _check_uncertain_key(ps: ParamSet, block: str, path: str, change) -> None:
         keys = [k for k, e in POWERTRAIN_UNCERTAIN.items() if e[0] == kind]
         hint = f"; possible with this {kind} powertrain: {', '.join(keys)}" if keys else ""
         raise change.error(f"{block}.{path} cannot carry a standard uncertainty{hint}")
-    node = ps.raw.get(block)
-    for part in path.split("."):
-        if not isinstance(node, dict) or part not in node:
-            raise change.error(f"the vehicle's {block} block has no key '{path}' whose "
-                               "uncertainty could be stated")
-        node = node[part]
+    if field_of(ps.powertrain, path) is None or current_value(ps.powertrain, path) is None:
+        raise change.error(f"the vehicle's {block} block has no key '{path}' whose "
+                           "uncertainty could be stated")
 
 
 def powertrain_with(powertrain, values: dict):
@@ -678,6 +639,9 @@ def powertrain_with(powertrain, values: dict):
         if entry is None or entry[0] != getattr(pt, "kind", None):
             raise InputError(f"powertrain.{path} cannot carry a standard uncertainty with "
                              f"this powertrain")
+        if field_of(pt, path) is None or current_value(pt, path) is None:
+            raise InputError(f"powertrain.{path} cannot carry a standard uncertainty with "
+                             f"this powertrain model")
         try:
             pt = entry[1](pt, value)
         except (AttributeError, TypeError):
@@ -714,11 +678,12 @@ def differing_groups(base: ParamSet, variant: ParamSet) -> tuple:
             continue
         if not np.array_equal(np.asarray(value)[:1], np.asarray(variant.params[name])[:1]):
             out.add(g)
-    if _block(base, "powertrain") != _block(variant, "powertrain") or \
-            _block(base, "performance") != _block(variant, "performance"):
+    if _block(base.powertrain) != _block(variant.powertrain) or \
+            _block(base.performance) != _block(variant.performance):
         out.add("powertrain")
     return tuple(g for g in GROUPS if g in out)
 
 
-def _block(ps: ParamSet, name: str):
-    return ps.raw.get(name) if isinstance(ps.raw, dict) else None
+def _block(obj):
+    """A parsed block as comparable plain data (None for none)."""
+    return None if obj is None else plain(obj.to_dict())

@@ -30,8 +30,8 @@ import yaml
 from ..atmosphere import ambient_air
 from ..errors import InputError
 from ..limits import MAX_DRAWS
-from ..spec import Section, load_section, read_yaml
-from ..vehicle import Vehicle, load_vehicle, vehicle_from_section
+from ..spec import Section, load_section
+from ..vehicle import Vehicle, vehicle_from_section
 from ..roadload import CoefficientRoadLoad
 from .modify import POWERTRAIN_STD_KEYS, reference_air_density
 from .tyres import parse_tyre_label
@@ -220,6 +220,8 @@ class _Reader:
         self.file = str(path)
         self.raw = _raw_scalars(self.path)
         self.inputs: list[InputItem] = []
+        #: vehicle files read in this study: resolved path → (Vehicle, mapping as read)
+        self.vehicles: dict = {}
 
     def src(self, sec: Section, key: str | None = None) -> str:
         line = sec.line_of(key)
@@ -319,28 +321,34 @@ def _read_ambient(sec: Section, rd: _Reader):
     return air["density_kg_m3"], air["basis"], (None if math.isnan(t_c) else t_c)
 
 
-def _vehicle_from(sec: Section, key: str, rd: _Reader) -> Vehicle:
-    """A vehicle given as a file path or inline under ``key``."""
+def _vehicle_from(sec: Section, key: str, rd: _Reader) -> tuple:
+    """A vehicle given as a file path or inline under ``key``: (Vehicle, source, mapping).
+
+    A file is read and parsed once per study (cached by its resolved path); the
+    mapping as read is kept for the inputs echo only.
+    """
     value = sec.raw(key)
     if value is None:
         raise sec.error("missing required key", key)
     if isinstance(value, dict):
         veh = vehicle_from_section(sec.section(key), name_default="baseline")
-        src = rd.src(sec, key)
-        raw = value
-    else:
-        vpath = sec.path(key)
-        if not vpath.is_file():
-            raise sec.error(f"vehicle file not found: {vpath}", key)
+        return veh, rd.src(sec, key), value
+    vpath = sec.path(key)
+    if not vpath.is_file():
+        raise sec.error(f"vehicle file not found: {vpath}", key)
+    resolved = vpath.resolve()
+    if resolved not in rd.vehicles:
         try:
-            veh = load_vehicle(vpath)
+            vsec = load_section(vpath)
+            rd.vehicles[resolved] = (vehicle_from_section(vsec), vsec.data)
         except InputError as exc:
             if exc.file is None:
                 raise exc.located(file=str(vpath)) from None
             raise
-        src = str(vpath)
-        raw = read_yaml(vpath)
-    return veh, src, raw
+    veh, raw = rd.vehicles[resolved]
+    if veh.source != str(vpath):
+        veh = dc_replace(veh, source=str(vpath))   # the path as this study names it
+    return veh, str(vpath), raw
 
 
 def _read_baseline(sec: Section, rd: _Reader):
