@@ -705,7 +705,11 @@ class CombustionPowertrain:
 # ---------------------------------------------------------------------------
 
 def parse_combustion(sec: Section) -> CombustionPowertrain:
-    """Read a ``powertrain`` block with ``kind: combustion`` (keys in the docs)."""
+    """Read a ``powertrain`` block with ``kind: combustion`` (keys in the docs).
+
+    The ranges of the keys a study may change are those of
+    :attr:`CombustionPowertrain.CHANGEABLE`.
+    """
     fuel = get_fuel(sec.string("fuel"), where=lambda m: sec.error(m, "fuel"))
     tank_form = sec.only_one_of(("tank_l",), ("tank_kg",), what="tank size")
     if tank_form is None:
@@ -714,40 +718,66 @@ def parse_combustion(sec: Section) -> CombustionPowertrain:
     if tank_form == 0:
         if not fuel.liquid:
             raise sec.error(f"{fuel.name} is stored by mass: give tank_kg", "tank_l")
-        tank_l = sec.number("tank_l", min=0.0, min_inclusive=False, max=5000.0, unit="L")
+        tank_l = _number(sec, "tank_l")
     else:
-        tank_kg = sec.number("tank_kg", min=0.0, min_inclusive=False, max=5000.0, unit="kg")
+        tank_kg = _number(sec, "tank_kg")
     ratios = parse_gear_ratios(sec)
-    final = sec.number("final_drive_ratio", min=0.0, min_inclusive=False, max=20.0)
-    radius = sec.number("tyre_radius_m", min=0.1, max=1.5, unit="m")
-    eff = sec.number("transmission_efficiency", min=0.5, max=1.0)
-    gearing = Gearing(ratios, final, radius, eff)
-    idle = sec.number("idle_speed_rpm", min=200.0, max=3000.0, unit="rpm")
+    gearing = Gearing(ratios, _number(sec, "final_drive_ratio"), _number(sec, "tyre_radius_m"),
+                      _number(sec, "transmission_efficiency"))
+    idle, rev, pull_min, full_load = _parse_engine_speeds(sec)
+    acc_w = 1000.0 * _number(sec, "accessory_power_kw", required=False,
+                             default=DEFAULT_ACCESSORY_POWER_W / 1000.0)
+    rule, upshift = _parse_shift_rule(sec, ratios)
+    cutoff = sec.boolean("fuel_cutoff", default=True)
+    off_at_rest = sec.boolean("engine_off_at_rest", default=False)
+    engine = _parse_engine_model(sec, fuel)
+    idle_kg_s = _parse_idle_fuel(sec, fuel, engine)
+    sec.finish(allowed_extra=("kind",))
+    return CombustionPowertrain(
+        fuel=fuel, engine=engine, gearing=gearing, idle_speed_rpm=idle, rev_limit_rpm=rev,
+        shift_rule=rule, upshift_speeds_ms=upshift, fuel_cutoff=cutoff,
+        engine_off_at_rest=off_at_rest, idle_fuel_kg_s=idle_kg_s, full_load=full_load,
+        tank_l=tank_l, tank_kg=tank_kg, min_pulling_speed_rpm=pull_min,
+        accessory_power_w=acc_w)
+
+
+def _number(sec: Section, key: str, prefix: str = "", **kw):
+    """A number read with the range of its entry in :attr:`CombustionPowertrain.CHANGEABLE`
+    (``prefix``: the entry of a nested block, e.g. ``willans.``)."""
+    fld = CombustionPowertrain.CHANGEABLE[prefix + key]
+    return sec.number(key, min=fld.min, max=fld.max, min_inclusive=fld.min_inclusive,
+                      unit=fld.unit, **kw)
+
+
+def _parse_engine_speeds(sec: Section) -> tuple:
+    """Idle speed, rev limit, given pulling floor (None for the default) [rpm] and the
+    full-load curve, with the rules between them."""
+    idle = _number(sec, "idle_speed_rpm")
     full_load = parse_full_load(sec.section("full_load")) if sec.has("full_load") else None
     if full_load is None and not sec.has("rev_limit_rpm"):
         raise sec.error("missing required key (or give full_load, whose last speed is then "
                         "the rev limit)", "rev_limit_rpm")
     default_limit = None if full_load is None else float(full_load.speed_rpm[-1])
-    rev = sec.number("rev_limit_rpm", required=False, default=default_limit, min=500.0,
-                     max=25000.0, unit="rpm")
+    rev = _number(sec, "rev_limit_rpm", required=False, default=default_limit)
     if rev <= idle:
         raise sec.error(f"must be above idle_speed_rpm ({idle:g})", "rev_limit_rpm")
     if full_load is not None and full_load.speed_rpm[0] > idle + 1e-9:
         raise sec.error(f"full_load must start at or below idle_speed_rpm ({idle:g} rpm); "
                         f"it starts at {full_load.speed_rpm[0]:g} rpm", "full_load")
-    pull_default = min(MIN_PULLING_SPEED_IDLE_FACTOR * idle, rev)
-    pull_min = sec.number("min_pulling_speed_rpm", required=False, default=pull_default,
-                          min=0.0, unit="rpm")
+    if not sec.has("min_pulling_speed_rpm"):
+        return idle, rev, None, full_load      # default: see pulling_speed_floor_rpm
+    pull_min = _number(sec, "min_pulling_speed_rpm")
     if pull_min < idle:
         raise sec.error(f"must be at least idle_speed_rpm ({idle:g} rpm), got {pull_min:g}",
                         "min_pulling_speed_rpm")
-    if sec.has("min_pulling_speed_rpm") and pull_min >= rev:
+    if pull_min >= rev:
         raise sec.error(f"must be below rev_limit_rpm ({rev:g} rpm), got {pull_min:g}",
                         "min_pulling_speed_rpm")
-    acc_w = 1000.0 * sec.number("accessory_power_kw", required=False,
-                                default=DEFAULT_ACCESSORY_POWER_W / 1000.0, min=0.0, max=50.0,
-                                unit="kW")
-    # shift rule
+    return idle, rev, pull_min, full_load
+
+
+def _parse_shift_rule(sec: Section, ratios) -> tuple:
+    """Shift rule and upshift speeds [m/s] (empty unless the ``speeds`` rule)."""
     rule = sec.string("shift_rule", required=False, choices=("efficient", "speeds"),
                       default="speeds" if sec.has("upshift_speeds_kmh") else "efficient")
     upshift = ()
@@ -762,24 +792,29 @@ def parse_combustion(sec: Section) -> CombustionPowertrain:
             upshift = tuple(float(u) * KMH_MS for u in up)
     elif sec.has("upshift_speeds_kmh"):
         raise sec.error("is only used with shift_rule: speeds", "upshift_speeds_kmh")
-    cutoff = sec.boolean("fuel_cutoff", default=True)
-    off_at_rest = sec.boolean("engine_off_at_rest", default=False)
-    # engine model
+    return rule, upshift
+
+
+def _parse_engine_model(sec: Section, fuel: Fuel):
+    """The ``willans`` or ``bsfc_map`` engine model."""
     model = sec.only_one_of(("willans",), ("bsfc_map",), what="engine model")
     if model is None:
         raise sec.error("give an engine model: willans (marginal efficiency and friction) or "
                         "bsfc_map (brake-specific fuel consumption over speed and torque)")
     if model == 0:
-        engine = _parse_willans(sec.section("willans"), fuel)
-    else:
-        msec = sec.section("bsfc_map")
-        bmap = parse_speed_torque_map(msec, "bsfc_g_per_kwh", unit="g/kWh", value_min=100.0,
-                                      value_max=5000.0, torque_min=0.0)
-        if bmap.torque_nm[0] <= 0:
-            raise msec.error("the lowest torque must be above 0 N m (specific consumption is "
-                             "not defined at zero torque; the model extends the fuel rate "
-                             "there)", "torque_nm")
-        engine = BsfcEngine.from_map(bmap)
+        return _parse_willans(sec.section("willans"), fuel)
+    msec = sec.section("bsfc_map")
+    bmap = parse_speed_torque_map(msec, "bsfc_g_per_kwh", unit="g/kWh", value_min=100.0,
+                                  value_max=5000.0, torque_min=0.0)
+    if bmap.torque_nm[0] <= 0:
+        raise msec.error("the lowest torque must be above 0 N m (specific consumption is "
+                         "not defined at zero torque; the model extends the fuel rate "
+                         "there)", "torque_nm")
+    return BsfcEngine.from_map(bmap)
+
+
+def _parse_idle_fuel(sec: Section, fuel: Fuel, engine) -> float | None:
+    """Given idle fuel rate [kg/s], or None to take it from the engine model."""
     idle_form = sec.only_one_of(("idle_fuel_l_per_h",), ("idle_fuel_kg_per_h",),
                                 what="idle fuel rate")
     idle_kg_s = None
@@ -787,36 +822,29 @@ def parse_combustion(sec: Section) -> CombustionPowertrain:
         if not fuel.liquid:
             raise sec.error(f"{fuel.name} is measured by mass: give idle_fuel_kg_per_h",
                             "idle_fuel_l_per_h")
-        idle_kg_s = sec.number("idle_fuel_l_per_h", min=0.0, max=50.0, unit="L/h") \
-            * fuel.density_kg_per_l / 3600.0
+        idle_kg_s = _number(sec, "idle_fuel_l_per_h") * fuel.density_kg_per_l / 3600.0
     elif idle_form == 1:
-        idle_kg_s = sec.number("idle_fuel_kg_per_h", min=0.0, max=50.0, unit="kg/h") / 3600.0
-    if idle_kg_s is None and model == 0 and engine.friction_power_w is not None:
+        idle_kg_s = _number(sec, "idle_fuel_kg_per_h") / 3600.0
+    if idle_kg_s is None and engine.model == "willans" and engine.friction_power_w is not None:
         raise sec.error("missing: with a constant willans.friction_power_kw give "
                         "idle_fuel_l_per_h or idle_fuel_kg_per_h (friction at idle differs "
                         "from friction while driving)", "idle_fuel_l_per_h")
-    sec.finish(allowed_extra=("kind",))
-    return CombustionPowertrain(
-        fuel=fuel, engine=engine, gearing=gearing, idle_speed_rpm=idle, rev_limit_rpm=rev,
-        shift_rule=rule, upshift_speeds_ms=upshift, fuel_cutoff=cutoff,
-        engine_off_at_rest=off_at_rest, idle_fuel_kg_s=idle_kg_s, full_load=full_load,
-        tank_l=tank_l, tank_kg=tank_kg,
-        min_pulling_speed_rpm=pull_min if sec.has("min_pulling_speed_rpm") else None,
-        accessory_power_w=acc_w)
+    return idle_kg_s
 
 
 def _parse_willans(sec: Section, fuel: Fuel) -> WillansEngine:
-    e = sec.number("marginal_efficiency", min=0.05, max=0.7)
+    """Read a ``willans`` block (marginal efficiency and one friction form)."""
+    e = _number(sec, "marginal_efficiency", "willans.")
     form = sec.only_one_of(("friction_power_kw",), ("friction_mep_kpa", "displacement_l"),
                            what="friction form")
     if form is None:
         raise sec.error("give friction_power_kw, or friction_mep_kpa with displacement_l")
     if form == 0:
-        p0 = sec.number("friction_power_kw", min=0.0, max=500.0, unit="kW") * 1000.0
+        p0 = _number(sec, "friction_power_kw", "willans.") * 1000.0
         sec.finish()
         return WillansEngine(e, fuel.lhv_j_per_kg, friction_power_w=p0)
-    pme0 = sec.number("friction_mep_kpa", min=0.0, max=1000.0, unit="kPa") * 1000.0
-    vd = sec.number("displacement_l", min=0.0, min_inclusive=False, max=40.0, unit="L") / 1000.0
+    pme0 = _number(sec, "friction_mep_kpa", "willans.") * 1000.0
+    vd = _number(sec, "displacement_l", "willans.") / 1000.0
     sec.finish()
     return WillansEngine(e, fuel.lhv_j_per_kg, friction_mep_pa=pme0, displacement_m3=vd)
 
