@@ -382,21 +382,7 @@ def apply_change(ps: ParamSet, change, z=None) -> ParamSet:
     noise = 0.0 if (z is None or not change.std) else change.std * np.asarray(z, float)
     mode, value = change.mode, change.value
     if key == "tyre_label":
-        try:
-            label = value if isinstance(value, TyreLabel) else parse_tyre_label(value)
-        except ValueError as exc:
-            raise change.error(str(exc)) from None
-        lo, hi = label.interval_kg_t()
-        if z is None:
-            share = 0.5
-        else:
-            # the class is known, the value within it is not: a rectangular distribution
-            # over the class, drawn as Φ(z) (uniform on (0, 1) for a standard-normal z;
-            # z = 0, the nominal vehicle, gives the class middle)
-            from scipy.special import ndtr
-            share = ndtr(np.asarray(z, float))
-        crr_new = np.zeros_like(p["crr"]) + (lo + (hi - lo) * share) / 1000.0
-        return replace(ps, params=_set_tyre_crr(p, crr_new))
+        return replace(ps, params=_set_tyre_crr(p, _label_crr(p["crr"], change, z)))
     if ps.form == PHYSICAL and key == "crr" and mode in ("set", "scale"):
         # a new tyre (an absolute Crr) or a percent change scales the tyre's rolling
         # coefficient as a whole: the speed slope crr_per_kmh with it
@@ -417,7 +403,12 @@ def apply_change(ps: ParamSet, change, z=None) -> ParamSet:
         if not (lo <= nominal <= hi):
             raise change.error(f"gives {key} = {nominal:g}, outside {lo:g} to {hi:g}")
         return replace(ps, params=p)
-    # measured coefficients
+    return _apply_coefficient_change(ps, p, change, z, noise)
+
+
+def _apply_coefficient_change(ps: ParamSet, p: dict, change, z, noise) -> ParamSet:
+    """A change to measured coefficients (f0/f1/f2), by the rules of the module docstring."""
+    key, mode, value = change.key, change.mode, change.value
     if key in ("f0_n", "f1_n_per_kmh", "f2_n_per_kmh2"):
         p[key] = _operate(p[key], mode, value) + noise
         lo, hi = _LIMITS.get(key, (-math.inf, math.inf))
@@ -452,6 +443,26 @@ def apply_change(ps: ParamSet, change, z=None) -> ParamSet:
         p["crr_per_kmh_add"] = p["crr_per_kmh_add"] + value + noise
         return replace(ps, params=p)
     raise change.error("cannot be changed")  # unreachable: change_group checked the key
+
+
+def _label_crr(crr, change, z):
+    """Crr of a tyre-label change: the class middle at nominal, and per draw uniform over
+    the class (Φ(z) of the change's standard-normal draw)."""
+    value = change.value
+    try:
+        label = value if isinstance(value, TyreLabel) else parse_tyre_label(value)
+    except ValueError as exc:
+        raise change.error(str(exc)) from None
+    lo, hi = label.interval_kg_t()
+    if z is None:
+        share = 0.5
+    else:
+        # the class is known, the value within it is not: a rectangular distribution
+        # over the class, drawn as Φ(z) (uniform on (0, 1) for a standard-normal z;
+        # z = 0, the nominal vehicle, gives the class middle)
+        from scipy.special import ndtr
+        share = ndtr(np.asarray(z, float))
+    return np.zeros_like(crr) + (lo + (hi - lo) * share) / 1000.0
 
 
 #: keys whose absolute value, written in the short form, is checked for a forgotten sign

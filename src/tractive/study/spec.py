@@ -484,58 +484,74 @@ def _read_changes(sec: Section, rd: _Reader, section: str, own_values: bool = Fa
                     "new labels")
             continue
         explicit = isinstance(value, dict)
-        if explicit:
-            sub = sec.section(key)
-            present = [k for k in ("set", "add", "percent") if sub.has(k)]
-            if len(present) != 1:
-                raise sub.error("give exactly one of set, add or percent")
-            mode_key = present[0]
-            v = sub.number(mode_key)
-            sub.finish()
-            if mode_key == "percent":
-                mode, val, text = "scale", 1.0 + v / 100.0, f"{v:+g}%"
-            elif mode_key == "add":
-                mode, val, text = "add", v, f"{v:+g}"
-            else:
-                mode, val, text = "set", v, f"{v:g}"
-        else:
-            raw = rd.raw.get((line, key))
-            if raw is None:
-                raw = str(value)
-            if isinstance(value, bool) or value is None or isinstance(value, (list, dict)):
-                raise sec.error(f"must be a number, a signed change (+0.1, -15%), got "
-                                f"{value!r}", key)
-            m_pct = _PCT_RE.match(raw)
-            m_sign = _SIGNED_RE.match(raw)
-            if m_pct:
-                pct = float(m_pct.group(2)) * (-1.0 if m_pct.group(1) == "-" else 1.0)
-                mode, val, text = "scale", 1.0 + pct / 100.0, f"{pct:+g}%"
-            elif raw.strip().endswith("%"):
-                raise sec.error(f"write a percent change with its sign, like -15% or +10%, "
-                                f"got '{raw}'", key)
-            elif m_sign:
-                amount = float(m_sign.group(2)) * (-1.0 if m_sign.group(1) == "-" else 1.0)
-                mode, val, text = "add", amount, f"{amount:+g}"
-            elif isinstance(value, (int, float)) and raw.lstrip()[:1] in ("+", "-"):
-                # a signed number in another YAML spelling (+1_000, +0x10): the sign
-                # written makes it a signed amount; YAML has already applied it
-                amount = float(value)
-                mode, val, text = "add", amount, f"{amount:+g}"
-            elif isinstance(value, (int, float)):
-                mode, val, text = "set", float(value), f"{float(value):g}"
-            else:
-                raise sec.error(f"must be a number (new value), a signed amount (+0.12) or a "
-                                f"signed percent (-15%), got '{raw}'", key)
-            if not math.isfinite(float(val)):
-                raise sec.error("must be finite", key)
+        mode, val, text = _change_value(sec, key, value, rd.raw.get((line, key)))
         if mode == "scale" and val < 0:
             raise sec.error(f"a change of {text} would make the value negative", key)
         out.append(Change(key, mode, val, 0.0, text, sec.file, fld, line, explicit))
         rd.echo(section, key, text, _unit_of_key(key) if mode != "scale" else "%",
                 rd.src(sec, key))
+    final = _attach_stds(sec, rd, section, out, stds, own_values)
+    if not final:
+        raise sec.error("list at least one change")
+    return tuple(final)
+
+
+def _change_value(sec: Section, key: str, value, raw: str | None) -> tuple:
+    """(mode, value, text) of one change: the long form ``{set|add|percent: x}`` or the
+    short form as written (``raw``: the scalar text, so that a sign survives)."""
+    if isinstance(value, dict):
+        sub = sec.section(key)
+        present = [k for k in ("set", "add", "percent") if sub.has(k)]
+        if len(present) != 1:
+            raise sub.error("give exactly one of set, add or percent")
+        mode_key = present[0]
+        v = sub.number(mode_key)
+        sub.finish()
+        if mode_key == "percent":
+            mode, val, text = "scale", 1.0 + v / 100.0, f"{v:+g}%"
+        elif mode_key == "add":
+            mode, val, text = "add", v, f"{v:+g}"
+        else:
+            mode, val, text = "set", v, f"{v:g}"
+    else:
+        if raw is None:
+            raw = str(value)
+        if isinstance(value, bool) or value is None or isinstance(value, (list, dict)):
+            raise sec.error(f"must be a number, a signed change (+0.1, -15%), got "
+                            f"{value!r}", key)
+        m_pct = _PCT_RE.match(raw)
+        m_sign = _SIGNED_RE.match(raw)
+        if m_pct:
+            pct = float(m_pct.group(2)) * (-1.0 if m_pct.group(1) == "-" else 1.0)
+            mode, val, text = "scale", 1.0 + pct / 100.0, f"{pct:+g}%"
+        elif raw.strip().endswith("%"):
+            raise sec.error(f"write a percent change with its sign, like -15% or +10%, "
+                            f"got '{raw}'", key)
+        elif m_sign:
+            amount = float(m_sign.group(2)) * (-1.0 if m_sign.group(1) == "-" else 1.0)
+            mode, val, text = "add", amount, f"{amount:+g}"
+        elif isinstance(value, (int, float)) and raw.lstrip()[:1] in ("+", "-"):
+            # a signed number in another YAML spelling (+1_000, +0x10): the sign
+            # written makes it a signed amount; YAML has already applied it
+            amount = float(value)
+            mode, val, text = "add", amount, f"{amount:+g}"
+        elif isinstance(value, (int, float)):
+            mode, val, text = "set", float(value), f"{float(value):g}"
+        else:
+            raise sec.error(f"must be a number (new value), a signed amount (+0.12) or a "
+                            f"signed percent (-15%), got '{raw}'", key)
+        if not math.isfinite(float(val)):
+            raise sec.error("must be finite", key)
+    return mode, val, text
+
+
+def _attach_stds(sec: Section, rd: _Reader, section: str, changes: list, stds: dict,
+                 own_values: bool) -> list:
+    """Standard uncertainties attached to the changes of their keys; a lone one states the
+    uncertainty of the vehicle's own value where ``own_values`` allows it."""
     # attach standard uncertainties to their changes
     final = []
-    for ch in out:
+    for ch in changes:
         std_key = next((s for s, k in STD_KEYS.items() if k == ch.key), None)
         if std_key and std_key in stds:
             ch = dc_replace(ch, std=stds.pop(std_key))
@@ -553,9 +569,7 @@ def _read_changes(sec: Section, rd: _Reader, section: str, own_values: bool = Fa
         raise sec.error(f"{std_key} needs a change of {target} in the same modification "
                         "(alone it is allowed on the baseline and with a vehicle file)",
                         std_key)
-    if not final:
-        raise sec.error("list at least one change")
-    return tuple(final)
+    return final
 
 
 def _read_combinations(sec: Section, mods: list) -> list:
