@@ -197,37 +197,33 @@ class PerformanceSpec:
 
 
 def parse_performance(sec: Section) -> PerformanceSpec:
-    """Read a ``performance`` block (keys documented in the README)."""
-    share = sec.number("driven_axle_load_share", min=0.0, min_inclusive=False, max=1.0)
-    mu = sec.number("tyre_road_friction", min=0.05, max=3.0)
+    """Read a ``performance`` block (keys documented in the README; the ranges are those
+    of :attr:`PerformanceSpec.CHANGEABLE`)."""
+    share = _number(sec, "driven_axle_load_share")
+    mu = _number(sec, "tyre_road_friction")
     axle = sec.string("driven_axle", required=False, choices=("front", "rear", "all"))
-    h = sec.number("cg_height_m", required=False, min=0.05, max=3.0, unit="m")
-    wb = sec.number("wheelbase_m", required=False, min=0.5, max=10.0, unit="m")
+    h = _number(sec, "cg_height_m", required=False)
+    wb = _number(sec, "wheelbase_m", required=False)
     if (h is None) != (wb is None):
         missing = "wheelbase_m" if wb is None else "cg_height_m"
         raise sec.error("load transfer needs both cg_height_m and wheelbase_m", missing)
     if h is not None and axle is None:
         raise sec.error("missing required key with cg_height_m (front, rear or all)",
                         "driven_axle")
-    df_share = sec.number("downforce_driven_share", required=False, min=0.0, max=1.0)
-    shift = sec.number("shift_time_s", required=False, min=0.0, max=5.0, unit="s")
-    gov = sec.number("governor_kmh", required=False, min=0.0, min_inclusive=False, max=600.0,
-                     unit="km/h")
-    gspeed = sec.number("gradeability_speed_kmh", required=False,
-                        default=DEFAULT_GRADEABILITY_SPEED_KMH, min=0.0, max=300.0,
-                        unit="km/h")
-    launch = sec.number("launch_speed_rpm", required=False, min=100.0, max=25000.0,
-                        unit="rpm")
+    df_share = _number(sec, "downforce_driven_share", required=False)
+    shift = _number(sec, "shift_time_s", required=False)
+    gov = _number(sec, "governor_kmh", required=False)
+    gspeed = _number(sec, "gradeability_speed_kmh", required=False,
+                     default=DEFAULT_GRADEABILITY_SPEED_KMH)
+    launch = _number(sec, "launch_speed_rpm", required=False)
     src = sec.only_one_of(("full_load",), ("motor",), what="drive source")
     full_load = parse_full_load(sec.section("full_load")) if src == 0 else None
     motor = parse_motor(sec.section("motor")) if src == 1 else None
     ratios = parse_gear_ratios(sec) if sec.has("gear_ratios") else None
-    final = sec.number("final_drive_ratio", required=False, min=0.0, min_inclusive=False,
-                       max=20.0)
-    radius = sec.number("tyre_radius_m", required=False, min=0.1, max=1.5, unit="m")
-    eff = sec.number("driveline_efficiency", required=False, min=0.5, max=1.0)
-    rev = sec.number("rev_limit_rpm", required=False, min=500.0, max=MAX_SHAFT_SPEED_RPM,
-                     unit="rpm")
+    final = _number(sec, "final_drive_ratio", required=False)
+    radius = _number(sec, "tyre_radius_m", required=False)
+    eff = _number(sec, "driveline_efficiency", required=False)
+    rev = _number(sec, "rev_limit_rpm", required=False)
     if motor is not None:
         for k in ("rev_limit_rpm", "launch_speed_rpm"):
             if sec.has(k):
@@ -239,6 +235,13 @@ def parse_performance(sec: Section) -> PerformanceSpec:
     return PerformanceSpec(share, mu, axle, h, wb, df_share, shift, gov, gspeed, launch,
                            full_load, motor, ratios, final, radius, eff, rev, sec.file,
                            sec.line)
+
+
+def _number(sec: Section, key: str, **kw):
+    """A number read with the range of its entry in :attr:`PerformanceSpec.CHANGEABLE`."""
+    fld = PerformanceSpec.CHANGEABLE[key]
+    return sec.number(key, min=fld.min, max=fld.max, min_inclusive=fld.min_inclusive,
+                      unit=fld.unit, **kw)
 
 
 # ---------------------------------------------------------------------------
