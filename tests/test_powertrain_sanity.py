@@ -157,3 +157,19 @@ def test_electric_van_charging_loss_in_doe_range(runs):
     for r, _ in out.values():
         loss = 1 - float(r.battery_energy_kwh) / float(r.wall_energy_kwh)
         assert 0.16 <= loss <= 0.19, loss
+
+
+def test_both_powertrains_implement_the_one_interface():
+    # interface check (typing.Protocol, PEP 544): the electric and the combustion model
+    # take the same consume signature, ambient temperature included
+    import inspect
+
+    from tractive.powertrain import CombustionPowertrain, ElectricPowertrain, Powertrain
+
+    sigs = {cls: inspect.signature(cls.consume) for cls in (ElectricPowertrain,
+                                                            CombustionPowertrain)}
+    ref = inspect.signature(Powertrain.consume)
+    for cls, sig in sigs.items():
+        assert list(sig.parameters) == list(ref.parameters), cls
+        assert sig.parameters["ambient_temperature_c"].kind is inspect.Parameter.KEYWORD_ONLY
+        assert cls.kind in ("electric", "combustion")

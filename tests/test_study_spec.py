@@ -11,8 +11,8 @@ import numpy as np
 import pytest
 
 from tractive.cli import main
-from tractive.study.modify import (TYRE_CLASS_UPPER_KG_T, parse_tyre_label,
-                                   tyre_class_interval_kg_t, tyre_label_crr)
+from tractive.study.tyres import (TYRE_CLASS_UPPER_KG_T, parse_tyre_label,
+                                  tyre_class_interval_kg_t, tyre_label_crr)
 from tractive.study.spec import load_study
 
 ROOT = Path(__file__).resolve().parents[1]

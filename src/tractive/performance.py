@@ -81,13 +81,17 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
+from typing import ClassVar
 
 import numpy as np
 
 from .demand import inertial_mass_kg
 from .errors import InputError
-from .powertrain.drive import (RPM_RADS, FullLoadCurve, Gearing, MotorEnvelope, parse_full_load,
-                               parse_gear_ratios, parse_motor)
+from .limits import MAX_SHAFT_SPEED_RPM
+from .plain import plain
+from .powertrain.base import ParamField
+from .powertrain.drive import (RPM_RADS, FullLoadCurve, Gearing, MotorEnvelope, motor_fields,
+                               parse_full_load, parse_gear_ratios, parse_motor)
 from .roadload import PhysicalRoadLoad
 from .spec import Section
 from .units import KMH_MS, STANDARD_GRAVITY_MS2
@@ -138,6 +142,48 @@ class PerformanceSpec:
     file: str | None = None
     line: int | None = None
 
+    #: vehicle-file keys a study may change (see :class:`tractive.powertrain.base.ParamField`)
+    CHANGEABLE: ClassVar[dict] = {
+        "driven_axle_load_share": ParamField(("driven_axle_load_share",), min=0.0,
+                                             min_inclusive=False, max=1.0),
+        "tyre_road_friction": ParamField(("tyre_road_friction",), min=0.05, max=3.0),
+        "cg_height_m": ParamField(("cg_height_m",), "m", min=0.05, max=3.0),
+        "wheelbase_m": ParamField(("wheelbase_m",), "m", min=0.5, max=10.0),
+        "downforce_driven_share": ParamField(("downforce_driven_share",), min=0.0, max=1.0,
+                                             optional=True),
+        "shift_time_s": ParamField(("shift_time_s",), "s", min=0.0, max=5.0, optional=True),
+        "governor_kmh": ParamField(("governor_kmh",), "km/h", min=0.0, min_inclusive=False,
+                                   max=600.0, optional=True),
+        "gradeability_speed_kmh": ParamField(("gradeability_speed_kmh",), "km/h", min=0.0,
+                                             max=300.0),
+        "launch_speed_rpm": ParamField(("launch_speed_rpm",), "rpm", min=100.0, max=25000.0,
+                                       optional=True),
+        "final_drive_ratio": ParamField(("final_drive_ratio",), min=0.0, min_inclusive=False,
+                                        max=20.0, optional=True),
+        "tyre_radius_m": ParamField(("tyre_radius_m",), "m", min=0.1, max=1.5, optional=True),
+        "driveline_efficiency": ParamField(("driveline_efficiency",), min=0.5, max=1.0,
+                                           optional=True),
+        "rev_limit_rpm": ParamField(("rev_limit_rpm",), "rpm", min=500.0,
+                                    max=MAX_SHAFT_SPEED_RPM, optional=True),
+        **motor_fields(),
+    }
+
+    def check_changed(self):
+        """(key, message) of a rule between values that a change breaks, else None."""
+        h, wb, mu = self.cg_height_m, self.wheelbase_m, self.tyre_road_friction
+        if h is not None and wb is not None and h / wb * mu >= 1.0 and \
+                self.driven_axle == "rear":
+            return ("cg_height_m", f"friction × cg_height_m / wheelbase_m = {mu * h / wb:.2f} "
+                    "≥ 1: the front wheels would lift before the rear tyres slip")
+        if self.motor is not None:
+            if self.rev_limit_rpm is not None or self.launch_speed_rpm is not None:
+                key = "rev_limit_rpm" if self.rev_limit_rpm is not None else "launch_speed_rpm"
+                return (key, "is for engines; a motor's limit is motor.max_speed_rpm")
+            bad = self.motor.check_changed()
+            if bad:
+                return ("motor." + bad[0], bad[1])
+        return None
+
     def to_dict(self) -> dict:
         out = {k: getattr(self, k) for k in (
             "driven_axle_load_share", "tyre_road_friction", "driven_axle", "cg_height_m",
@@ -151,36 +197,33 @@ class PerformanceSpec:
 
 
 def parse_performance(sec: Section) -> PerformanceSpec:
-    """Read a ``performance`` block (keys documented in docs/vehicle-file.md)."""
-    share = sec.number("driven_axle_load_share", min=0.0, min_inclusive=False, max=1.0)
-    mu = sec.number("tyre_road_friction", min=0.05, max=3.0)
+    """Read a ``performance`` block (keys documented in docs/vehicle-file.md; the ranges
+    are those of :attr:`PerformanceSpec.CHANGEABLE`)."""
+    share = _number(sec, "driven_axle_load_share")
+    mu = _number(sec, "tyre_road_friction")
     axle = sec.string("driven_axle", required=False, choices=("front", "rear", "all"))
-    h = sec.number("cg_height_m", required=False, min=0.05, max=3.0, unit="m")
-    wb = sec.number("wheelbase_m", required=False, min=0.5, max=10.0, unit="m")
+    h = _number(sec, "cg_height_m", required=False)
+    wb = _number(sec, "wheelbase_m", required=False)
     if (h is None) != (wb is None):
         missing = "wheelbase_m" if wb is None else "cg_height_m"
         raise sec.error("load transfer needs both cg_height_m and wheelbase_m", missing)
     if h is not None and axle is None:
         raise sec.error("missing required key with cg_height_m (front, rear or all)",
                         "driven_axle")
-    df_share = sec.number("downforce_driven_share", required=False, min=0.0, max=1.0)
-    shift = sec.number("shift_time_s", required=False, min=0.0, max=5.0, unit="s")
-    gov = sec.number("governor_kmh", required=False, min=0.0, min_inclusive=False, max=600.0,
-                     unit="km/h")
-    gspeed = sec.number("gradeability_speed_kmh", required=False,
-                        default=DEFAULT_GRADEABILITY_SPEED_KMH, min=0.0, max=300.0,
-                        unit="km/h")
-    launch = sec.number("launch_speed_rpm", required=False, min=100.0, max=25000.0,
-                        unit="rpm")
+    df_share = _number(sec, "downforce_driven_share", required=False)
+    shift = _number(sec, "shift_time_s", required=False)
+    gov = _number(sec, "governor_kmh", required=False)
+    gspeed = _number(sec, "gradeability_speed_kmh", required=False,
+                     default=DEFAULT_GRADEABILITY_SPEED_KMH)
+    launch = _number(sec, "launch_speed_rpm", required=False)
     src = sec.only_one_of(("full_load",), ("motor",), what="drive source")
     full_load = parse_full_load(sec.section("full_load")) if src == 0 else None
     motor = parse_motor(sec.section("motor")) if src == 1 else None
     ratios = parse_gear_ratios(sec) if sec.has("gear_ratios") else None
-    final = sec.number("final_drive_ratio", required=False, min=0.0, min_inclusive=False,
-                       max=20.0)
-    radius = sec.number("tyre_radius_m", required=False, min=0.1, max=1.5, unit="m")
-    eff = sec.number("driveline_efficiency", required=False, min=0.5, max=1.0)
-    rev = sec.number("rev_limit_rpm", required=False, min=500.0, max=100000.0, unit="rpm")
+    final = _number(sec, "final_drive_ratio", required=False)
+    radius = _number(sec, "tyre_radius_m", required=False)
+    eff = _number(sec, "driveline_efficiency", required=False)
+    rev = _number(sec, "rev_limit_rpm", required=False)
     if motor is not None:
         for k in ("rev_limit_rpm", "launch_speed_rpm"):
             if sec.has(k):
@@ -192,6 +235,13 @@ def parse_performance(sec: Section) -> PerformanceSpec:
     return PerformanceSpec(share, mu, axle, h, wb, df_share, shift, gov, gspeed, launch,
                            full_load, motor, ratios, final, radius, eff, rev, sec.file,
                            sec.line)
+
+
+def _number(sec: Section, key: str, **kw):
+    """A number read with the range of its entry in :attr:`PerformanceSpec.CHANGEABLE`."""
+    fld = PerformanceSpec.CHANGEABLE[key]
+    return sec.number(key, min=fld.min, max=fld.max, min_inclusive=fld.min_inclusive,
+                      unit=fld.unit, **kw)
 
 
 # ---------------------------------------------------------------------------
@@ -518,13 +568,11 @@ def _model(vehicle) -> _Model:
 # ---------------------------------------------------------------------------
 
 def _plain(x, integer=False):
-    """JSON-ready: a number, str, bool or None as is; an array as a list (NaN → None)."""
-    if not isinstance(x, np.ndarray):
-        return x
-    if x.dtype.kind in "USb":
-        return x.tolist()
-    return [None if not np.isfinite(v) else (int(v) if integer else float(v))
-            for v in x.tolist()]
+    """JSON-ready (see :func:`tractive.plain.plain`); ``integer`` turns a float array of
+    whole numbers (gears, shift counts) into ints, NaN into None."""
+    if integer and isinstance(x, np.ndarray) and x.dtype.kind == "f":
+        return [None if not math.isfinite(v) else int(v) for v in x.tolist()]
+    return plain(x)
 
 
 def _one(x, i, integer=False):

@@ -9,15 +9,18 @@ A vehicle file's ``powertrain:`` block chooses a model with ``kind``:
   (fuel table, Willans line or BSFC map, gears and shift rule with a lowest
   pulling speed, accessory load, idle, fuel cut-off).
 
-Both have ``consume(vehicle, demand, profile)`` returning a result with
-``to_dict()``, ``steady(vehicle, speed_ms)`` for constant-speed consumption,
-and ``to_dict()``. :func:`range_curve` sweeps constant speeds and
+Both implement :class:`~tractive.powertrain.base.Powertrain`:
+``consume(vehicle, demand, profile, *, ambient_temperature_c=None)``
+returning a result with ``to_dict()``, ``steady(vehicle, speed_ms, *,
+ambient_temperature_c=None)`` for constant-speed consumption, and
+``to_dict()``. :func:`range_curve` sweeps constant speeds and
 :func:`mix_results` combines profiles by distance share.
 """
 
 from __future__ import annotations
 
 from ..spec import Section
+from .base import Powertrain
 from .combustion import (BsfcEngine, CombustionPowertrain, CombustionResult, WillansEngine,
                          parse_combustion)
 from .curve import RangeCurve, range_curve
@@ -43,7 +46,7 @@ def parse_powertrain(sec: Section):
     return parse_combustion(sec)
 
 
-__all__ = ["parse_powertrain", "ElectricPowertrain", "ElectricResult", "Regeneration",
+__all__ = ["Powertrain", "parse_powertrain", "ElectricPowertrain", "ElectricResult", "Regeneration",
            "CombustionPowertrain", "CombustionResult", "WillansEngine", "BsfcEngine",
            "FUELS", "Fuel", "get_fuel", "Gearing", "FullLoadCurve", "MotorEnvelope",
            "RangeCurve", "range_curve", "MixResult", "mix_results", "KINDS"]

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..plain import plain_number as plain  # noqa: F401 (the one JSON rule; mix.py uses it)
+
 #: speeds below this [m/s] count as standstill
 STANDSTILL_MS = 1e-6
 
@@ -12,14 +14,6 @@ def col(x):
     """Give a per-vehicle parameter of shape (N,) a trailing axis for (N, T) arrays."""
     x = np.asarray(x, float)
     return x[..., None] if x.ndim >= 1 else x
-
-
-def plain(x):
-    """float for a scalar, list for an array (JSON-ready); None stays None."""
-    if x is None:
-        return None
-    x = np.asarray(x, float)
-    return float(x) if x.ndim == 0 else x.tolist()
 
 
 def safe_divide(num, den):

@@ -63,12 +63,15 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import ClassVar
 
 import numpy as np
 
 from ..spec import Section
 from ..units import KMH_MS, KWH_J, MILE_M, UK_GALLON_L, US_GALLON_L
-from ._common import STANDSTILL_MS, col, plain, range_from, safe_divide
+from ..plain import plain_number
+from ._common import STANDSTILL_MS, col, range_from, safe_divide
+from .base import ParamField
 from .drive import (RPM_RADS, FullLoadCurve, Gearing, parse_full_load, parse_gear_ratios,
                     rads_to_rpm)
 from .fuels import Fuel, get_fuel
@@ -163,11 +166,11 @@ class WillansEngine:
                                       self.lhv_j_per_kg)
 
     def to_dict(self) -> dict:
-        out = {"model": self.model, "marginal_efficiency": plain(self.marginal_efficiency)}
+        out = {"model": self.model, "marginal_efficiency": plain_number(self.marginal_efficiency)}
         if self.friction_power_w is not None:
-            out["friction_power_kw"] = plain(np.asarray(self.friction_power_w) / 1000.0)
+            out["friction_power_kw"] = plain_number(np.asarray(self.friction_power_w) / 1000.0)
         else:
-            out["friction_mep_kpa"] = plain(np.asarray(self.friction_mep_pa) / 1000.0)
+            out["friction_mep_kpa"] = plain_number(np.asarray(self.friction_mep_pa) / 1000.0)
             out["displacement_l"] = self.displacement_m3 * 1000.0
         return out
 
@@ -321,20 +324,20 @@ class CombustionResult:
         return {
             "powertrain": self.kind,
             "fuel": self.fuel.name,
-            "fuel_l": plain(self.fuel_l),
-            "fuel_l_per_100km": plain(self.fuel_l_per_100km),
-            "fuel_kg": plain(self.fuel_kg),
-            "fuel_kg_per_100km": plain(self.fuel_kg_per_100km),
-            "fuel_energy_mj": plain(self.fuel_energy_mj),
-            "idle_fuel_kg": plain(self.idle_fuel_kg),
-            "mpg_us": plain(self.mpg_us),
-            "mpg_uk": plain(self.mpg_uk),
-            "co2_kg": plain(self.co2_kg),
-            "co2_g_per_km": plain(self.co2_g_per_km),
-            "range_km": plain(self.range_km),
-            "tank_to_wheel_efficiency": plain(self.tank_to_wheel_efficiency),
-            "engine_limit_exceeded_s": plain(self.engine_limit_exceeded_s),
-            "accessory_energy_kwh": plain(self.accessory_energy_kwh),
+            "fuel_l": plain_number(self.fuel_l),
+            "fuel_l_per_100km": plain_number(self.fuel_l_per_100km),
+            "fuel_kg": plain_number(self.fuel_kg),
+            "fuel_kg_per_100km": plain_number(self.fuel_kg_per_100km),
+            "fuel_energy_mj": plain_number(self.fuel_energy_mj),
+            "idle_fuel_kg": plain_number(self.idle_fuel_kg),
+            "mpg_us": plain_number(self.mpg_us),
+            "mpg_uk": plain_number(self.mpg_uk),
+            "co2_kg": plain_number(self.co2_kg),
+            "co2_g_per_km": plain_number(self.co2_g_per_km),
+            "range_km": plain_number(self.range_km),
+            "tank_to_wheel_efficiency": plain_number(self.tank_to_wheel_efficiency),
+            "engine_limit_exceeded_s": plain_number(self.engine_limit_exceeded_s),
+            "accessory_energy_kwh": plain_number(self.accessory_energy_kwh),
         }
 
 
@@ -397,6 +400,61 @@ class CombustionPowertrain:
 
     kind = "combustion"
 
+    #: vehicle-file keys a study may change (see :class:`tractive.powertrain.base.ParamField`)
+    CHANGEABLE: ClassVar[dict] = {
+        "tank_l": ParamField(("tank_l",), "L", min=0.0, min_inclusive=False, max=5000.0),
+        "tank_kg": ParamField(("tank_kg",), "kg", min=0.0, min_inclusive=False, max=5000.0),
+        "final_drive_ratio": ParamField(("gearing", "final_drive_ratio"), min=0.0,
+                                        min_inclusive=False, max=20.0),
+        "tyre_radius_m": ParamField(("gearing", "tyre_radius_m"), "m", min=0.1, max=1.5),
+        "transmission_efficiency": ParamField(("gearing", "efficiency"), min=0.5, max=1.0,
+                                              uncertain=(1e-6, 1.0)),
+        "idle_speed_rpm": ParamField(("idle_speed_rpm",), "rpm", min=200.0, max=3000.0),
+        "rev_limit_rpm": ParamField(("rev_limit_rpm",), "rpm", min=500.0, max=25000.0),
+        "min_pulling_speed_rpm": ParamField(("min_pulling_speed_rpm",), "rpm", min=0.0,
+                                            optional=True),
+        "accessory_power_kw": ParamField(("accessory_power_w",), "kW", scale=1000.0, min=0.0,
+                                         max=50.0),
+        "idle_fuel_l_per_h": ParamField(
+            ("idle_fuel_kg_s",), "L/h", min=0.0, max=50.0, uncertain=(0.0, math.inf),
+            available=lambda pt: pt.fuel.liquid,
+            to_model=lambda pt, x: x * pt.fuel.density_kg_per_l / 3600.0,
+            from_model=lambda pt, v: v * 3600.0 / pt.fuel.density_kg_per_l),
+        "idle_fuel_kg_per_h": ParamField(("idle_fuel_kg_s",), "kg/h", divisor=3600.0, min=0.0,
+                                         max=50.0, uncertain=(0.0, math.inf)),
+        "willans.marginal_efficiency": ParamField(
+            ("engine", "marginal_efficiency"), min=0.05, max=0.7, uncertain=(1e-6, 1.0),
+            available=lambda pt: pt.engine.model == "willans"),
+        "willans.friction_mep_kpa": ParamField(
+            ("engine", "friction_mep_pa"), "kPa", scale=1000.0, min=0.0, max=1000.0,
+            uncertain=(0.0, math.inf), available=lambda pt: pt.engine.model == "willans"),
+        "willans.friction_power_kw": ParamField(
+            ("engine", "friction_power_w"), "kW", scale=1000.0, min=0.0, max=500.0,
+            uncertain=(0.0, math.inf), available=lambda pt: pt.engine.model == "willans"),
+        "willans.displacement_l": ParamField(
+            ("engine", "displacement_m3"), "L", divisor=1000.0, min=0.0, min_inclusive=False,
+            max=40.0, available=lambda pt: pt.engine.model == "willans"),
+    }
+
+    def check_changed(self):
+        """(key, message) of a rule between values that a change breaks, else None
+        (the parser's rules between idle speed, rev limit, pulling floor and full load)."""
+        idle, rev = self.idle_speed_rpm, self.rev_limit_rpm
+        if rev <= idle:
+            return ("rev_limit_rpm", f"must be above idle_speed_rpm ({idle:g})")
+        if self.full_load is not None and self.full_load.speed_rpm[0] > idle + 1e-9:
+            return ("full_load", f"full_load must start at or below idle_speed_rpm ({idle:g} "
+                    f"rpm); it starts at {self.full_load.speed_rpm[0]:g} rpm")
+        pull = self.min_pulling_speed_rpm
+        if pull is not None and np.ndim(pull) == 0:
+            if pull < idle:
+                return ("min_pulling_speed_rpm", f"must be at least idle_speed_rpm "
+                        f"({idle:g} rpm), got {pull:g}")
+            if pull >= rev:
+                return ("min_pulling_speed_rpm", f"must be below rev_limit_rpm ({rev:g} rpm), "
+                        f"got {pull:g}")
+        return None
+
     @property
     def pulling_speed_floor_rpm(self):
         """Lowest engine speed while pulling in gear [rpm] (default resolved)."""
@@ -428,6 +486,11 @@ class CombustionPowertrain:
     def operation(self, force_n, speed_ms, *, accessory_scale=1.0) -> dict:
         """Gear, engine speed and torque, and fuel rate per interval.
 
+        With the ``speeds`` shift rule the gear follows from the speed, the
+        demand sign and the pulling floor alone, so the engine is evaluated in
+        that one gear; the ``efficient`` rule compares the fuel rate of every
+        gear, so every gear is evaluated (a leading gear axis).
+
         Parameters
         ----------
         force_n : array (T,) or (N, T)
@@ -446,6 +509,41 @@ class CombustionPowertrain:
         (brake torque, accessories included), ``fuel_kg_s``, ``idle`` (clutch
         open), ``over_limit`` (demand beyond the engine's full load or rev limit).
         """
+        f, v = self._operating_shape(force_n, speed_ms, accessory_scale)
+        w_pull_min = col(self.pulling_speed_floor_rpm) * RPM_RADS
+        p_acc = col(self.accessory_power_w) * col(accessory_scale)
+        moving = v > STANDSTILL_MS
+        pulling = moving & (f > 0)
+        idle_rate = self.idle_fuel_rate_kg_s(p_acc)
+        ratios = self.gearing.overall_ratios
+        if self.shift_rule == "speeds":
+            g = self._speed_rule_gear(v, pulling, w_pull_min)
+            sel = self._in_gear(f, v, ratios[g], g == 0, pulling, p_acc, idle_rate,
+                                w_pull_min)
+        else:
+            gear_axis = (len(ratios),) + (1,) * f.ndim
+            first = (np.arange(len(ratios)) == 0).reshape(gear_axis)
+            st = self._in_gear(f, v, ratios.reshape(gear_axis), first, pulling, p_acc,
+                               idle_rate, w_pull_min, choose=True)
+            # ties (e.g. fuel cut-off in every gear) go to the lowest engine speed
+            cost = np.where(st["feasible"], st["fuel"], 1.0e6 + st["penalty"]) \
+                + 1e-15 * st["w_eng"]
+            g = np.broadcast_to(np.argmin(cost, axis=0), f.shape)
+            sel = {k: np.take_along_axis(np.broadcast_to(st[k], st["w_gear"].shape), g[None],
+                                         axis=0)[0]
+                   for k in ("fuel", "w_eng", "t_eng", "slip_over", "over")}
+        w_idle = self.idle_speed_rpm * RPM_RADS
+        off = self.engine_off_at_rest
+        return {"gear": np.where(moving, g + 1, 0),
+                "engine_speed_rads": np.where(moving, sel["w_eng"], 0.0 if off else w_idle),
+                "engine_torque_nm": np.where(moving, sel["t_eng"],
+                                             0.0 if off else p_acc / w_idle),
+                "fuel_kg_s": np.where(moving, sel["fuel"], 0.0 if off else idle_rate),
+                "idle": ~moving | (sel["slip_over"] & ~pulling),
+                "over_limit": moving & sel["over"]}
+
+    def _operating_shape(self, force_n, speed_ms, accessory_scale):
+        """Force [N] and speed [m/s] broadcast together and with per-vehicle parameters."""
         f, v = np.broadcast_arrays(np.asarray(force_n, float), np.asarray(speed_ms, float))
         # parameters given per vehicle (N,) add a vehicle axis even to a plain demand
         params = [self.gearing.efficiency, self.idle_fuel_kg_s, self.min_pulling_speed_rpm,
@@ -457,20 +555,37 @@ class CombustionPowertrain:
         if pshape:
             shape = np.broadcast_shapes(f.shape, pshape)
             f, v = np.broadcast_to(f, shape), np.broadcast_to(v, shape)
+        return f, v
+
+    def _speed_rule_gear(self, v, pulling, w_pull_min):
+        """0-based gear of the ``speeds`` rule: upshift speeds, and while pulling never
+        below the pulling floor (the highest gear that keeps the engine at or above it;
+        first gear slips the clutch when none does)."""
         gr = self.gearing
-        n_g = gr.n_gears
-        gear_axis = (n_g,) + (1,) * f.ndim
-        ratios = gr.overall_ratios.reshape(gear_axis)
-        first = (np.arange(n_g) == 0).reshape(gear_axis)
+        g = np.searchsorted(np.asarray(self.upshift_speeds_ms, float), v, side="right")
+        g = np.minimum(g, gr.n_gears - 1)
+        floor = w_pull_min * (1 - 1e-12)
+        n_ok = np.zeros(np.shape(v), dtype=np.intp)
+        for ratio in gr.overall_ratios:        # a few gears: one comparison each
+            n_ok += v * ratio / gr.tyre_radius_m >= floor
+        return np.where(pulling, np.minimum(g, np.maximum(n_ok - 1, 0)), g)
+
+    def _in_gear(self, f, v, ratio, first, pulling, p_acc, idle_rate, w_pull_min, *,
+                 choose=False) -> dict:
+        """Engine state in gear(s) of overall ratio ``ratio`` (a gear axis or one per step).
+
+        Returns ``w_gear`` (engine speed the gear gives) [rad/s], ``w_eng``
+        [rad/s] and ``t_eng`` [N m] (clutch slip and idle applied), ``fuel``
+        [kg/s], ``slip_over`` (clutch open, not pulling), ``over`` (beyond the
+        rev limit or full load); with ``choose`` also ``feasible`` and
+        ``penalty`` for the ``efficient`` rule.
+        """
+        gr = self.gearing
         eta = col(gr.efficiency)
         r = gr.tyre_radius_m
-        w_gear = v * ratios / r                                    # (G, ...)
+        w_gear = v * ratio / r
         w_idle = self.idle_speed_rpm * RPM_RADS
         w_max = self.rev_limit_rpm * RPM_RADS
-        w_pull_min = col(self.pulling_speed_floor_rpm) * RPM_RADS
-        p_acc = col(self.accessory_power_w) * col(accessory_scale)
-        moving = v > STANDSTILL_MS
-        pulling = moving & (f > 0)
         # pulling: first gear slips the clutch below the lowest pulling speed (the engine
         # holds that speed); a higher gear below it lugs (not feasible) and slips only
         # below idle. Not pulling: the clutch opens below idle and the engine idles.
@@ -478,67 +593,46 @@ class CombustionPowertrain:
         w_over = np.maximum(w_gear, w_idle)
         slip_over = w_gear < w_idle
         w_eng = np.where(pulling, w_pull, w_over)
-        t_wheel = f * r / ratios
+        t_wheel = f * r / ratio
         t_acc_over = p_acc / w_over
         t_pull = np.maximum(t_wheel, 0.0) / eta + p_acc / w_pull
         t_over = np.minimum(t_wheel, 0.0) * eta + t_acc_over   # motored: wheel power × η
-        idle_rate = self.idle_fuel_rate_kg_s(p_acc)
         # overrun in gear: with cut-off, fuel only where the overrun power does not cover
         # friction and accessories (the engine line continued below zero torque, clipped at
         # zero); without cut-off at least the zero-load rate with the accessories
         t_fuel = np.where(pulling, t_pull, t_over if self.fuel_cutoff else t_acc_over)
-        fuel_engaged = self.engine.fuel_rate_kg_s(w_eng, t_fuel)
-        fuel_g = np.where(~pulling & slip_over, idle_rate, fuel_engaged)
+        fuel = np.where(~pulling & slip_over, idle_rate, self.engine.fuel_rate_kg_s(w_eng, t_fuel))
         t_idle = p_acc / w_idle                           # clutch open: accessories only
         t_eng = np.where(pulling, t_pull, np.where(slip_over, t_idle, t_over))
+        rev_ok = w_gear <= w_max * (1 + 1e-12)
+        torque_ok = True
         if self.full_load is not None:
             t_max = self.full_load.max_torque_nm(w_eng)
             torque_ok = ~pulling | (t_pull <= t_max * (1 + 1e-9))
-            torque_excess = np.where(pulling, np.maximum(t_pull / np.maximum(t_max, 1e-9) - 1,
-                                                         0.0), 0.0)
-        else:
-            torque_ok = np.ones(w_gear.shape, bool)
-            torque_excess = np.zeros(w_gear.shape)
-        rev_ok = w_gear <= w_max * (1 + 1e-12)
-        # lowest engine speed in gear: the pulling floor while pulling, idle otherwise
-        w_floor = np.where(pulling, w_pull_min, w_idle)
-        low_ok = first | (w_gear >= w_floor * (1 - 1e-12))
-        over_g = ~(rev_ok & torque_ok)
-        if self.shift_rule == "speeds":
-            g = np.searchsorted(np.asarray(self.upshift_speeds_ms, float), v, side="right")
-            g = np.minimum(g, n_g - 1)
-            # while pulling, never below the pulling floor: the highest gear that keeps the
-            # engine at or above it (first gear slips the clutch when none does)
-            n_ok = np.sum(w_gear >= w_pull_min * (1 - 1e-12), axis=0)
-            g = np.where(pulling, np.minimum(g, np.maximum(n_ok - 1, 0)), g)
-        else:
-            feasible = rev_ok & low_ok & torque_ok
-            penalty = (np.maximum(w_gear / w_max - 1.0, 0.0)
-                       + np.where(first, 0.0, np.maximum(1.0 - w_gear / w_floor, 0.0))
-                       + torque_excess)
-            # ties (e.g. fuel cut-off in every gear) go to the lowest engine speed
-            cost = np.where(feasible, fuel_g, 1.0e6 + penalty) + 1e-15 * w_eng
-            g = np.argmin(cost, axis=0)
-        g = np.broadcast_to(g, f.shape)
+        out = {"w_gear": w_gear, "w_eng": w_eng, "t_eng": t_eng, "fuel": fuel,
+               "slip_over": slip_over, "over": ~(rev_ok & torque_ok)}
+        if choose:
+            excess = 0.0
+            if self.full_load is not None:
+                excess = np.where(pulling, np.maximum(t_pull / np.maximum(t_max, 1e-9) - 1,
+                                                      0.0), 0.0)
+            # lowest engine speed in gear: the pulling floor while pulling, idle otherwise
+            w_floor = np.where(pulling, w_pull_min, w_idle)
+            low_ok = first | (w_gear >= w_floor * (1 - 1e-12))
+            out["feasible"] = rev_ok & low_ok & torque_ok
+            out["penalty"] = (np.maximum(w_gear / w_max - 1.0, 0.0)
+                              + np.where(first, 0.0, np.maximum(1.0 - w_gear / w_floor, 0.0))
+                              + excess)
+        return out
 
-        def pick(a):
-            return np.take_along_axis(np.broadcast_to(a, w_gear.shape), g[None], axis=0)[0]
+    def consume(self, vehicle, demand, profile=None, *, ambient_temperature_c=None
+                ) -> CombustionResult:
+        """Fuel, CO2 and tank range on one profile (demand of shape (T-1,) or (N, T-1)).
 
-        fuel = pick(fuel_g)
-        w_sel = pick(w_eng)
-        t_sel = pick(t_eng)
-        idle = ~moving | (pick(slip_over) & ~pulling)
-        rest_rate = 0.0 if self.engine_off_at_rest else idle_rate
-        fuel = np.where(moving, fuel, rest_rate)
-        w_sel = np.where(moving, w_sel, 0.0 if self.engine_off_at_rest else w_idle)
-        t_sel = np.where(moving, t_sel, 0.0 if self.engine_off_at_rest else t_idle)
-        over = moving & pick(over_g)
-        gear = np.where(moving, g + 1, 0)
-        return {"gear": gear, "engine_speed_rads": w_sel, "engine_torque_nm": t_sel,
-                "fuel_kg_s": fuel, "idle": idle, "over_limit": over}
-
-    def consume(self, vehicle, demand, profile=None) -> CombustionResult:
-        """Fuel, CO2 and tank range on one profile (demand of shape (T-1,) or (N, T-1))."""
+        ``ambient_temperature_c`` [°C] is accepted for the common
+        :class:`~tractive.powertrain.base.Powertrain` interface; this model has no
+        temperature-dependent load and ignores it.
+        """
         iv = demand.intervals
         dt = np.asarray(iv.dt_s, float)
         duration = float(np.sum(dt))
@@ -563,7 +657,7 @@ class CombustionPowertrain:
             positive_wheel_energy_kwh=np.asarray(demand.positive_energy_j) / KWH_J,
             engine_limit_exceeded_s=over_s, accessory_energy_kwh=acc_kwh)
 
-    def steady(self, vehicle, speed_ms, **_) -> dict:
+    def steady(self, vehicle, speed_ms, *, ambient_temperature_c=None) -> dict:
         """Consumption at constant speeds on a level road, no wind.
 
         Returns a dict of (S,) arrays: ``store_per_km`` (L/km, or kg/km for CNG),
@@ -597,9 +691,9 @@ class CombustionPowertrain:
                "shift_rule": self.shift_rule,
                "upshift_speeds_kmh": [s / KMH_MS for s in self.upshift_speeds_ms] or None,
                "fuel_cutoff": self.fuel_cutoff, "engine_off_at_rest": self.engine_off_at_rest,
-               "idle_fuel_kg_per_h": plain(np.squeeze(self.idle_fuel_rate_kg_s()) * 3600.0),
-               "min_pulling_speed_rpm": plain(self.pulling_speed_floor_rpm),
-               "accessory_power_kw": plain(np.asarray(self.accessory_power_w, float) / 1000.0),
+               "idle_fuel_kg_per_h": plain_number(np.squeeze(self.idle_fuel_rate_kg_s()) * 3600.0),
+               "min_pulling_speed_rpm": plain_number(self.pulling_speed_floor_rpm),
+               "accessory_power_kw": plain_number(np.asarray(self.accessory_power_w, float) / 1000.0),
                "full_load": None if self.full_load is None else self.full_load.to_dict()}
         out.update(self.gearing.to_dict())
         out["transmission_efficiency"] = out.pop("driveline_efficiency")
@@ -611,7 +705,11 @@ class CombustionPowertrain:
 # ---------------------------------------------------------------------------
 
 def parse_combustion(sec: Section) -> CombustionPowertrain:
-    """Read a ``powertrain`` block with ``kind: combustion`` (keys in the docs)."""
+    """Read a ``powertrain`` block with ``kind: combustion`` (keys in the docs).
+
+    The ranges of the keys a study may change are those of
+    :attr:`CombustionPowertrain.CHANGEABLE`.
+    """
     fuel = get_fuel(sec.string("fuel"), where=lambda m: sec.error(m, "fuel"))
     tank_form = sec.only_one_of(("tank_l",), ("tank_kg",), what="tank size")
     if tank_form is None:
@@ -620,40 +718,66 @@ def parse_combustion(sec: Section) -> CombustionPowertrain:
     if tank_form == 0:
         if not fuel.liquid:
             raise sec.error(f"{fuel.name} is stored by mass: give tank_kg", "tank_l")
-        tank_l = sec.number("tank_l", min=0.0, min_inclusive=False, max=5000.0, unit="L")
+        tank_l = _number(sec, "tank_l")
     else:
-        tank_kg = sec.number("tank_kg", min=0.0, min_inclusive=False, max=5000.0, unit="kg")
+        tank_kg = _number(sec, "tank_kg")
     ratios = parse_gear_ratios(sec)
-    final = sec.number("final_drive_ratio", min=0.0, min_inclusive=False, max=20.0)
-    radius = sec.number("tyre_radius_m", min=0.1, max=1.5, unit="m")
-    eff = sec.number("transmission_efficiency", min=0.5, max=1.0)
-    gearing = Gearing(ratios, final, radius, eff)
-    idle = sec.number("idle_speed_rpm", min=200.0, max=3000.0, unit="rpm")
+    gearing = Gearing(ratios, _number(sec, "final_drive_ratio"), _number(sec, "tyre_radius_m"),
+                      _number(sec, "transmission_efficiency"))
+    idle, rev, pull_min, full_load = _parse_engine_speeds(sec)
+    acc_w = 1000.0 * _number(sec, "accessory_power_kw", required=False,
+                             default=DEFAULT_ACCESSORY_POWER_W / 1000.0)
+    rule, upshift = _parse_shift_rule(sec, ratios)
+    cutoff = sec.boolean("fuel_cutoff", default=True)
+    off_at_rest = sec.boolean("engine_off_at_rest", default=False)
+    engine = _parse_engine_model(sec, fuel)
+    idle_kg_s = _parse_idle_fuel(sec, fuel, engine)
+    sec.finish(allowed_extra=("kind",))
+    return CombustionPowertrain(
+        fuel=fuel, engine=engine, gearing=gearing, idle_speed_rpm=idle, rev_limit_rpm=rev,
+        shift_rule=rule, upshift_speeds_ms=upshift, fuel_cutoff=cutoff,
+        engine_off_at_rest=off_at_rest, idle_fuel_kg_s=idle_kg_s, full_load=full_load,
+        tank_l=tank_l, tank_kg=tank_kg, min_pulling_speed_rpm=pull_min,
+        accessory_power_w=acc_w)
+
+
+def _number(sec: Section, key: str, prefix: str = "", **kw):
+    """A number read with the range of its entry in :attr:`CombustionPowertrain.CHANGEABLE`
+    (``prefix``: the entry of a nested block, e.g. ``willans.``)."""
+    fld = CombustionPowertrain.CHANGEABLE[prefix + key]
+    return sec.number(key, min=fld.min, max=fld.max, min_inclusive=fld.min_inclusive,
+                      unit=fld.unit, **kw)
+
+
+def _parse_engine_speeds(sec: Section) -> tuple:
+    """Idle speed, rev limit, given pulling floor (None for the default) [rpm] and the
+    full-load curve, with the rules between them."""
+    idle = _number(sec, "idle_speed_rpm")
     full_load = parse_full_load(sec.section("full_load")) if sec.has("full_load") else None
     if full_load is None and not sec.has("rev_limit_rpm"):
         raise sec.error("missing required key (or give full_load, whose last speed is then "
                         "the rev limit)", "rev_limit_rpm")
     default_limit = None if full_load is None else float(full_load.speed_rpm[-1])
-    rev = sec.number("rev_limit_rpm", required=False, default=default_limit, min=500.0,
-                     max=25000.0, unit="rpm")
+    rev = _number(sec, "rev_limit_rpm", required=False, default=default_limit)
     if rev <= idle:
         raise sec.error(f"must be above idle_speed_rpm ({idle:g})", "rev_limit_rpm")
     if full_load is not None and full_load.speed_rpm[0] > idle + 1e-9:
         raise sec.error(f"full_load must start at or below idle_speed_rpm ({idle:g} rpm); "
                         f"it starts at {full_load.speed_rpm[0]:g} rpm", "full_load")
-    pull_default = min(MIN_PULLING_SPEED_IDLE_FACTOR * idle, rev)
-    pull_min = sec.number("min_pulling_speed_rpm", required=False, default=pull_default,
-                          min=0.0, unit="rpm")
+    if not sec.has("min_pulling_speed_rpm"):
+        return idle, rev, None, full_load      # default: see pulling_speed_floor_rpm
+    pull_min = _number(sec, "min_pulling_speed_rpm")
     if pull_min < idle:
         raise sec.error(f"must be at least idle_speed_rpm ({idle:g} rpm), got {pull_min:g}",
                         "min_pulling_speed_rpm")
-    if sec.has("min_pulling_speed_rpm") and pull_min >= rev:
+    if pull_min >= rev:
         raise sec.error(f"must be below rev_limit_rpm ({rev:g} rpm), got {pull_min:g}",
                         "min_pulling_speed_rpm")
-    acc_w = 1000.0 * sec.number("accessory_power_kw", required=False,
-                                default=DEFAULT_ACCESSORY_POWER_W / 1000.0, min=0.0, max=50.0,
-                                unit="kW")
-    # shift rule
+    return idle, rev, pull_min, full_load
+
+
+def _parse_shift_rule(sec: Section, ratios) -> tuple:
+    """Shift rule and upshift speeds [m/s] (empty unless the ``speeds`` rule)."""
     rule = sec.string("shift_rule", required=False, choices=("efficient", "speeds"),
                       default="speeds" if sec.has("upshift_speeds_kmh") else "efficient")
     upshift = ()
@@ -668,24 +792,29 @@ def parse_combustion(sec: Section) -> CombustionPowertrain:
             upshift = tuple(float(u) * KMH_MS for u in up)
     elif sec.has("upshift_speeds_kmh"):
         raise sec.error("is only used with shift_rule: speeds", "upshift_speeds_kmh")
-    cutoff = sec.boolean("fuel_cutoff", default=True)
-    off_at_rest = sec.boolean("engine_off_at_rest", default=False)
-    # engine model
+    return rule, upshift
+
+
+def _parse_engine_model(sec: Section, fuel: Fuel):
+    """The ``willans`` or ``bsfc_map`` engine model."""
     model = sec.only_one_of(("willans",), ("bsfc_map",), what="engine model")
     if model is None:
         raise sec.error("give an engine model: willans (marginal efficiency and friction) or "
                         "bsfc_map (brake-specific fuel consumption over speed and torque)")
     if model == 0:
-        engine = _parse_willans(sec.section("willans"), fuel)
-    else:
-        msec = sec.section("bsfc_map")
-        bmap = parse_speed_torque_map(msec, "bsfc_g_per_kwh", unit="g/kWh", value_min=100.0,
-                                      value_max=5000.0, torque_min=0.0)
-        if bmap.torque_nm[0] <= 0:
-            raise msec.error("the lowest torque must be above 0 N m (specific consumption is "
-                             "not defined at zero torque; the model extends the fuel rate "
-                             "there)", "torque_nm")
-        engine = BsfcEngine.from_map(bmap)
+        return _parse_willans(sec.section("willans"), fuel)
+    msec = sec.section("bsfc_map")
+    bmap = parse_speed_torque_map(msec, "bsfc_g_per_kwh", unit="g/kWh", value_min=100.0,
+                                  value_max=5000.0, torque_min=0.0)
+    if bmap.torque_nm[0] <= 0:
+        raise msec.error("the lowest torque must be above 0 N m (specific consumption is "
+                         "not defined at zero torque; the model extends the fuel rate "
+                         "there)", "torque_nm")
+    return BsfcEngine.from_map(bmap)
+
+
+def _parse_idle_fuel(sec: Section, fuel: Fuel, engine) -> float | None:
+    """Given idle fuel rate [kg/s], or None to take it from the engine model."""
     idle_form = sec.only_one_of(("idle_fuel_l_per_h",), ("idle_fuel_kg_per_h",),
                                 what="idle fuel rate")
     idle_kg_s = None
@@ -693,35 +822,29 @@ def parse_combustion(sec: Section) -> CombustionPowertrain:
         if not fuel.liquid:
             raise sec.error(f"{fuel.name} is measured by mass: give idle_fuel_kg_per_h",
                             "idle_fuel_l_per_h")
-        idle_kg_s = sec.number("idle_fuel_l_per_h", min=0.0, max=50.0, unit="L/h") \
-            * fuel.density_kg_per_l / 3600.0
+        idle_kg_s = _number(sec, "idle_fuel_l_per_h") * fuel.density_kg_per_l / 3600.0
     elif idle_form == 1:
-        idle_kg_s = sec.number("idle_fuel_kg_per_h", min=0.0, max=50.0, unit="kg/h") / 3600.0
-    if idle_kg_s is None and model == 0 and engine.friction_power_w is not None:
+        idle_kg_s = _number(sec, "idle_fuel_kg_per_h") / 3600.0
+    if idle_kg_s is None and engine.model == "willans" and engine.friction_power_w is not None:
         raise sec.error("missing: with a constant willans.friction_power_kw give "
                         "idle_fuel_l_per_h or idle_fuel_kg_per_h (friction at idle differs "
                         "from friction while driving)", "idle_fuel_l_per_h")
-    sec.finish(allowed_extra=("kind",))
-    return CombustionPowertrain(
-        fuel=fuel, engine=engine, gearing=gearing, idle_speed_rpm=idle, rev_limit_rpm=rev,
-        shift_rule=rule, upshift_speeds_ms=upshift, fuel_cutoff=cutoff,
-        engine_off_at_rest=off_at_rest, idle_fuel_kg_s=idle_kg_s, full_load=full_load,
-        tank_l=tank_l, tank_kg=tank_kg, min_pulling_speed_rpm=pull_min,
-        accessory_power_w=acc_w)
+    return idle_kg_s
 
 
 def _parse_willans(sec: Section, fuel: Fuel) -> WillansEngine:
-    e = sec.number("marginal_efficiency", min=0.05, max=0.7)
+    """Read a ``willans`` block (marginal efficiency and one friction form)."""
+    e = _number(sec, "marginal_efficiency", "willans.")
     form = sec.only_one_of(("friction_power_kw",), ("friction_mep_kpa", "displacement_l"),
                            what="friction form")
     if form is None:
         raise sec.error("give friction_power_kw, or friction_mep_kpa with displacement_l")
     if form == 0:
-        p0 = sec.number("friction_power_kw", min=0.0, max=500.0, unit="kW") * 1000.0
+        p0 = _number(sec, "friction_power_kw", "willans.") * 1000.0
         sec.finish()
         return WillansEngine(e, fuel.lhv_j_per_kg, friction_power_w=p0)
-    pme0 = sec.number("friction_mep_kpa", min=0.0, max=1000.0, unit="kPa") * 1000.0
-    vd = sec.number("displacement_l", min=0.0, min_inclusive=False, max=40.0, unit="L") / 1000.0
+    pme0 = _number(sec, "friction_mep_kpa", "willans.") * 1000.0
+    vd = _number(sec, "displacement_l", "willans.") / 1000.0
     sec.finish()
     return WillansEngine(e, fuel.lhv_j_per_kg, friction_mep_pa=pme0, displacement_m3=vd)
 

@@ -111,11 +111,10 @@ def range_curve(vehicle, speeds_kmh=DEFAULT_SPEEDS_KMH, *, ambient_temperature_c
             or np.any(speeds <= 0):
         raise InputError("speeds must be positive numbers in km/h", field="speeds_kmh")
     speeds = np.unique(speeds)
-    kw = {"ambient_temperature_c": ambient_temperature_c} if pt.kind == "electric" else {}
     gov = getattr(vehicle.performance, "governor_kmh", None)
 
     def steady(v_ms):
-        out = pt.steady(vehicle, v_ms, **kw)
+        out = pt.steady(vehicle, v_ms, ambient_temperature_c=ambient_temperature_c)
         if gov is not None:   # a set speed limit (performance.governor_kmh)
             out["feasible"] = out["feasible"] & (v_ms <= gov * KMH_MS * (1 + 1e-12))
         return out

@@ -24,10 +24,11 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from ..limits import MAX_SHAFT_SPEED_RPM
 from ..spec import Section
 
 RPM_RADS = 2.0 * math.pi / 60.0
@@ -158,6 +159,36 @@ class MotorEnvelope:
     peak_power_w: float
     peak_torque_nm: float
     max_speed_rpm: float | None = None
+    #: the two of peak_power_kw, peak_torque_nm, base_speed_rpm the file gives (a change
+    #: to one of them holds the other fixed, as the file states them)
+    given: tuple = field(default=("peak_power_kw", "peak_torque_nm"), compare=False)
+
+    def key_value(self, key: str):
+        """A vehicle-file key of the envelope [its unit]; None when the file does not give it."""
+        values = {"peak_power_kw": self.peak_power_w / 1000.0,
+                  "peak_torque_nm": self.peak_torque_nm, "base_speed_rpm": self.base_speed_rpm,
+                  "max_speed_rpm": self.max_speed_rpm}
+        return values[key] if key in self.given or key == "max_speed_rpm" else None
+
+    def with_key(self, key: str, value: float) -> "MotorEnvelope":
+        """The envelope with one key of the file changed; the other given key is held."""
+        if key == "max_speed_rpm":
+            return replace(self, max_speed_rpm=float(value))
+        keys = {k: self.key_value(k) for k in self.given}
+        keys[key] = float(value)
+        p, t, nb = (keys.get(k) for k in ("peak_power_kw", "peak_torque_nm", "base_speed_rpm"))
+        if p is None:
+            p = t * nb * RPM_RADS / 1000.0
+        elif t is None:
+            t = p * 1000.0 / (nb * RPM_RADS)
+        return MotorEnvelope(p * 1000.0, t, self.max_speed_rpm, self.given)
+
+    def check_changed(self):
+        """(key, message) of a rule between values that a change breaks, else None."""
+        if self.max_speed_rpm is not None and self.max_speed_rpm < self.base_speed_rpm:
+            return ("max_speed_rpm", f"is below the base speed {self.base_speed_rpm:.0f} rpm "
+                    "(peak power / peak torque)")
+        return None
 
     @property
     def base_speed_rads(self) -> float:
@@ -216,24 +247,49 @@ def parse_motor(sec: Section) -> MotorEnvelope:
     if len(given) != 2:
         raise sec.error("give exactly two of peak_power_kw, peak_torque_nm and base_speed_rpm "
                         f"(base speed = peak power / peak torque); got {len(given)}")
-    p = sec.number("peak_power_kw", required=False, min=0.0, min_inclusive=False, max=5000.0,
-                   unit="kW")
-    t = sec.number("peak_torque_nm", required=False, min=0.0, min_inclusive=False,
-                   max=50000.0, unit="N m")
-    nb = sec.number("base_speed_rpm", required=False, min=0.0, min_inclusive=False,
-                    max=100000.0, unit="rpm")
-    nmax = sec.number("max_speed_rpm", required=False, min=0.0, min_inclusive=False,
-                      max=100000.0, unit="rpm")
+    p = sec.number("peak_power_kw", required=False, **MOTOR_LIMITS["peak_power_kw"])
+    t = sec.number("peak_torque_nm", required=False, **MOTOR_LIMITS["peak_torque_nm"])
+    nb = sec.number("base_speed_rpm", required=False, **MOTOR_LIMITS["base_speed_rpm"])
+    nmax = sec.number("max_speed_rpm", required=False, **MOTOR_LIMITS["max_speed_rpm"])
     sec.finish()
     if p is None:
         p = t * nb * RPM_RADS / 1000.0
     elif t is None:
         t = p * 1000.0 / (nb * RPM_RADS)
-    env = MotorEnvelope(p * 1000.0, t, nmax)
+    env = MotorEnvelope(p * 1000.0, t, nmax, tuple(given))
     if nmax is not None and nmax < env.base_speed_rpm:
         raise sec.error(f"is below the base speed {env.base_speed_rpm:.0f} rpm "
                         "(peak power / peak torque)", "max_speed_rpm")
     return env
+
+
+#: ranges the parser accepts for the motor keys (shared with the study's change tables)
+MOTOR_LIMITS = {"peak_power_kw": dict(min=0.0, min_inclusive=False, max=5000.0, unit="kW"),
+                "peak_torque_nm": dict(min=0.0, min_inclusive=False, max=50000.0, unit="N m"),
+                "base_speed_rpm": dict(min=0.0, min_inclusive=False, max=MAX_SHAFT_SPEED_RPM,
+                                       unit="rpm"),
+                "max_speed_rpm": dict(min=0.0, min_inclusive=False, max=MAX_SHAFT_SPEED_RPM,
+                                      unit="rpm")}
+
+
+def motor_fields(attr: str = "motor") -> dict:
+    """Change-table entries ``motor.<key>`` for a model holding a :class:`MotorEnvelope`
+    at attribute ``attr`` (see :class:`tractive.powertrain.base.ParamField`)."""
+    from .base import ParamField
+
+    def entry(key):
+        def setter(obj, x):
+            return replace(obj, **{attr: getattr(obj, attr).with_key(key, x)})
+
+        def available(obj):
+            motor = getattr(obj, attr)
+            return motor is not None and (key == "max_speed_rpm" or key in motor.given)
+
+        return ParamField((attr,), setter=setter, available=available,
+                          from_model=lambda obj, motor: motor.key_value(key),
+                          optional=key == "max_speed_rpm", **MOTOR_LIMITS[key])
+
+    return {f"motor.{k}": entry(k) for k in MOTOR_LIMITS}
 
 
 def parse_gear_ratios(sec: Section, key: str = "gear_ratios"):

@@ -36,14 +36,18 @@ References
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
+from typing import ClassVar
 
 import numpy as np
 
 from ..spec import Section
 from ..units import KMH_MS, KWH_J
-from ._common import STANDSTILL_MS, col, plain, range_from, safe_divide
-from .drive import MotorEnvelope, parse_motor, rads_to_rpm
+from ..plain import plain_number
+from ._common import STANDSTILL_MS, col, range_from, safe_divide
+from .base import ParamField
+from .drive import MotorEnvelope, motor_fields, parse_motor, rads_to_rpm
 from .maps import SpeedTorqueMap, parse_speed_torque_map
 
 
@@ -145,17 +149,17 @@ class ElectricResult:
     def to_dict(self) -> dict:
         return {
             "powertrain": self.kind,
-            "battery_energy_kwh": plain(self.battery_energy_kwh),
-            "battery_wh_per_km": plain(self.battery_wh_per_km),
-            "range_km": plain(self.range_km),
-            "traction_battery_energy_kwh": plain(self.traction_energy_kwh),
-            "regenerated_energy_kwh": plain(self.regenerated_energy_kwh),
-            "auxiliary_energy_kwh": plain(self.auxiliary_energy_kwh),
-            "auxiliary_power_kw": plain(self.auxiliary_power_kw),
-            "wall_energy_kwh": plain(self.wall_energy_kwh),
-            "wall_wh_per_km": plain(self.wall_wh_per_km),
-            "usable_battery_kwh": plain(self.usable_battery_kwh),
-            "motor_limit_exceeded_s": plain(self.motor_limit_exceeded_s),
+            "battery_energy_kwh": plain_number(self.battery_energy_kwh),
+            "battery_wh_per_km": plain_number(self.battery_wh_per_km),
+            "range_km": plain_number(self.range_km),
+            "traction_battery_energy_kwh": plain_number(self.traction_energy_kwh),
+            "regenerated_energy_kwh": plain_number(self.regenerated_energy_kwh),
+            "auxiliary_energy_kwh": plain_number(self.auxiliary_energy_kwh),
+            "auxiliary_power_kw": plain_number(self.auxiliary_power_kw),
+            "wall_energy_kwh": plain_number(self.wall_energy_kwh),
+            "wall_wh_per_km": plain_number(self.wall_wh_per_km),
+            "usable_battery_kwh": plain_number(self.usable_battery_kwh),
+            "motor_limit_exceeded_s": plain_number(self.motor_limit_exceeded_s),
         }
 
 
@@ -206,6 +210,42 @@ class ElectricPowertrain:
     charger_efficiency: object = None
 
     kind = "electric"
+
+    #: vehicle-file keys a study may change (see :class:`tractive.powertrain.base.ParamField`)
+    CHANGEABLE: ClassVar[dict] = {
+        "battery_usable_kwh": ParamField(("battery_usable_kwh",), "kWh", min=0.0,
+                                         min_inclusive=False, max=5000.0,
+                                         uncertain=(1e-9, math.inf)),
+        "drive_efficiency": ParamField(("drive_efficiency",), min=0.0, min_inclusive=False,
+                                       max=1.0, uncertain=(1e-6, 1.0)),
+        "gear_ratio": ParamField(("gear_ratio",), min=0.0, min_inclusive=False, max=50.0),
+        "tyre_radius_m": ParamField(("tyre_radius_m",), "m", min=0.1, max=1.5),
+        "gear_efficiency": ParamField(("gear_efficiency",), min=0.5, max=1.0,
+                                      uncertain=(1e-6, 1.0)),
+        "auxiliary_power_kw": ParamField(("auxiliary_power_w",), "kW", scale=1000.0, min=0.0,
+                                         max=100.0, uncertain=(0.0, math.inf)),
+        "ambient_temperature_c": ParamField(("ambient_temperature_c",), "°C", min=-60.0,
+                                            max=60.0),
+        "charger_efficiency": ParamField(("charger_efficiency",), min=0.0, min_inclusive=False,
+                                         max=1.0, uncertain=(1e-6, 1.0), optional=True),
+        "regen.efficiency": ParamField(("regen", "efficiency"), min=0.0, max=1.0,
+                                       uncertain=(0.0, 1.0)),
+        "regen.max_power_kw": ParamField(("regen", "max_power_w"), "kW", scale=1000.0,
+                                         min=0.0, max=5000.0, optional=True),
+        "regen.fade_below_kmh": ParamField(("regen", "fade_below_ms"), "km/h", scale=KMH_MS,
+                                           min=0.0, max=60.0),
+        "regen.recoverable_share": ParamField(("regen", "recoverable_share"), min=0.0,
+                                              max=1.0, uncertain=(0.0, 1.0)),
+        **motor_fields(),
+    }
+
+    def check_changed(self):
+        """(key, message) of a rule between values that a change breaks, else None."""
+        if self.motor is not None:
+            bad = self.motor.check_changed()
+            if bad:
+                return ("motor." + bad[0], bad[1])
+        return None
 
     # -- pieces of the model ------------------------------------------------
     def auxiliary_power(self, ambient_temperature_c=None):
@@ -351,17 +391,17 @@ class ElectricPowertrain:
         return out
 
     def to_dict(self) -> dict:
-        out = {"kind": self.kind, "battery_usable_kwh": plain(self.battery_usable_kwh),
-               "drive_efficiency": plain(self.drive_efficiency),
+        out = {"kind": self.kind, "battery_usable_kwh": plain_number(self.battery_usable_kwh),
+               "drive_efficiency": plain_number(self.drive_efficiency),
                "efficiency_map": None if self.efficiency_map is None
                else self.efficiency_map.to_dict(),
-               "gear_ratio": self.gear_ratio, "gear_efficiency": plain(self.gear_efficiency),
+               "gear_ratio": self.gear_ratio, "gear_efficiency": plain_number(self.gear_efficiency),
                "tyre_radius_m": self.tyre_radius_m,
                "motor": None if self.motor is None else self.motor.to_dict(),
                "regen": None if self.regen is None else self.regen.to_dict(),
-               "charger_efficiency": plain(self.charger_efficiency)}
+               "charger_efficiency": plain_number(self.charger_efficiency)}
         if self.auxiliary_power_table_w is None:
-            out["auxiliary_power_kw"] = plain(np.asarray(self.auxiliary_power_w) / 1000.0)
+            out["auxiliary_power_kw"] = plain_number(np.asarray(self.auxiliary_power_w) / 1000.0)
         else:
             out["auxiliary_power_by_temperature"] = {
                 "temperature_c": self.auxiliary_temperature_c.tolist(),
@@ -376,8 +416,7 @@ class ElectricPowertrain:
 
 def parse_electric(sec: Section) -> ElectricPowertrain:
     """Read a ``powertrain`` block with ``kind: electric`` (keys in the docs)."""
-    usable = sec.number("battery_usable_kwh", min=0.0, min_inclusive=False, max=5000.0,
-                        unit="kWh")
+    usable = _number(sec, "battery_usable_kwh")
     form = sec.only_one_of(("drive_efficiency",), ("efficiency_map",),
                            what="drive efficiency (drive_efficiency or efficiency_map)")
     if form is None:
@@ -386,7 +425,7 @@ def parse_electric(sec: Section) -> ElectricPowertrain:
     drive_eff = None
     emap = None
     if form == 0:
-        drive_eff = sec.number("drive_efficiency", min=0.0, min_inclusive=False, max=1.0)
+        drive_eff = _number(sec, "drive_efficiency")
     else:
         emap = parse_speed_torque_map(sec.section("efficiency_map"), "efficiency", unit="",
                                       value_min=0.0, value_min_inclusive=False, value_max=1.0,
@@ -399,12 +438,12 @@ def parse_electric(sec: Section) -> ElectricPowertrain:
             if not sec.has(k):
                 raise sec.error(f"missing required key (needed with {why} to turn wheel "
                                 "speed and force into motor speed and torque)", k)
-    ratio = sec.number("gear_ratio", required=False, min=0.0, min_inclusive=False, max=50.0)
-    radius = sec.number("tyre_radius_m", required=False, min=0.1, max=1.5, unit="m")
+    ratio = _number(sec, "gear_ratio", required=False)
+    radius = _number(sec, "tyre_radius_m", required=False)
     if emap is not None and not sec.has("gear_efficiency"):
         raise sec.error("missing required key (needed with an efficiency_map: the map covers "
                         "motor and inverter only)", "gear_efficiency")
-    gear_eff = sec.number("gear_efficiency", required=False, min=0.5, max=1.0)
+    gear_eff = _number(sec, "gear_efficiency", required=False)
     regen = None
     if sec.has("regen"):
         regen = _parse_regen(sec.section("regen"), with_map=emap is not None)
@@ -431,8 +470,7 @@ def parse_electric(sec: Section) -> ElectricPowertrain:
                              f"{len(aux_p)}", "power_kw")
         tsec.finish()
         ambient = sec.number("ambient_temperature_c", min=-60.0, max=60.0, unit="°C")
-    charger = sec.number("charger_efficiency", required=False, min=0.0, min_inclusive=False,
-                         max=1.0)
+    charger = _number(sec, "charger_efficiency", required=False)
     sec.finish(allowed_extra=("kind",))
     return ElectricPowertrain(
         battery_usable_kwh=usable, drive_efficiency=drive_eff, efficiency_map=emap,
@@ -440,6 +478,13 @@ def parse_electric(sec: Section) -> ElectricPowertrain:
         regen=regen, auxiliary_power_w=aux_w, auxiliary_temperature_c=aux_t,
         auxiliary_power_table_w=aux_p, ambient_temperature_c=ambient,
         charger_efficiency=charger)
+
+
+def _number(sec: Section, key: str, *, required: bool = True, table_key: str | None = None):
+    """A number read with the range of its entry in :attr:`ElectricPowertrain.CHANGEABLE`."""
+    fld = ElectricPowertrain.CHANGEABLE[table_key or key]
+    return sec.number(key, required=required, min=fld.min, max=fld.max,
+                      min_inclusive=fld.min_inclusive, unit=fld.unit)
 
 
 def _parse_regen(sec: Section, *, with_map: bool) -> Regeneration:

@@ -280,7 +280,7 @@ def _build_variants(spec: StudySpec, rng, n: int, warnings: list) -> tuple:
 
 def _build_baseline(spec: StudySpec, z_base, z_changes, n: int, warnings: list) -> tuple:
     """The baseline's parameter set with its draws and changes, and its uncertain inputs."""
-    base_nom, stds, cov = modify.nominal_params(spec.baseline, spec.baseline_raw,
+    base_nom, stds, cov = modify.nominal_params(spec.baseline,
                                                 air_density_kg_m3=spec.air_density_kg_m3)
     uncertain = [f"baseline {k} ± {v:g}" for k, v in stds.items()]
     if cov is not None:
@@ -364,7 +364,7 @@ def _build_variant(spec, members, base_mc, z_base, z_changes, n, warnings, label
     whole = [m for m in members if m.vehicle is not None]
     if whole:
         m0 = whole[0]
-        nom, stds, cov = modify.nominal_params(m0.vehicle, m0.raw,
+        nom, stds, cov = modify.nominal_params(m0.vehicle,
                                                air_density_kg_m3=spec.air_density_kg_m3)
         if nom.form == modify.COEFFICIENT and base_mc.form == modify.COEFFICIENT:
             # state the variant's rolling coefficients at the baseline mass, so that the
@@ -438,9 +438,12 @@ def _note_clipped(warnings, label, clipped):
 #: memory the Monte Carlo evaluation of one variant on one profile may take at a time [bytes]
 CHUNK_MEMORY_BYTES = 256 * 2 ** 20
 #: float64 values per time step and vehicle held at the peak of one evaluation: wheel
-#: demand with an electric powertrain (measured with tracemalloc: about 30), and per gear
-#: of a combustion powertrain, every gear being evaluated at every step (about 18 with a
-#: BSFC map); with a margin, checked by tests/test_study_engine.py and benchmarks/run.py
+#: demand with an electric powertrain (measured with tracemalloc: about 30) or with a
+#: combustion powertrain on the ``speeds`` shift rule, which evaluates the engine in the
+#: one gear the rule picks (about 20 with a Willans line); and per gear of a combustion
+#: powertrain on the ``efficient`` rule, which evaluates every gear at every step (about
+#: 17 with a Willans line, 22 with a BSFC map); with a margin, checked by
+#: tests/test_study_engine.py and benchmarks/run.py
 _ARRAYS_PER_STEP = 40
 _ARRAYS_PER_STEP_AND_GEAR = 24
 
@@ -450,7 +453,8 @@ def chunk_size_for(ps, profiles, memory_bytes: int = CHUNK_MEMORY_BYTES) -> int:
 
     The evaluation of N vehicles on a profile of T steps holds about
     N · T · (a + b · G) float64 values at its peak, G being the number of
-    gears of a combustion powertrain (0 otherwise); a and b are
+    gears of a combustion powertrain whose shift rule compares every gear
+    (``efficient``; 0 otherwise); a and b are
     :data:`_ARRAYS_PER_STEP` and :data:`_ARRAYS_PER_STEP_AND_GEAR`, measured
     with a margin. The chunk is the largest N whose peak fits
     ``memory_bytes`` (at least 1).
@@ -466,7 +470,7 @@ def chunk_size_for(ps, profiles, memory_bytes: int = CHUNK_MEMORY_BYTES) -> int:
     steps = max((len(prof.time_s) for _, prof in profiles), default=1)
     gears = 0
     pt = ps.powertrain
-    if getattr(pt, "kind", "") == "combustion":
+    if getattr(pt, "kind", "") == "combustion" and getattr(pt, "shift_rule", "") != "speeds":
         gears = int(getattr(getattr(pt, "gearing", None), "n_gears", 1) or 1)
     per_vehicle = 8 * steps * (_ARRAYS_PER_STEP + _ARRAYS_PER_STEP_AND_GEAR * gears)
     return max(1, int(memory_bytes // per_vehicle))
@@ -513,15 +517,6 @@ def _evaluate_chunk(ps, profiles, ambient_temperature_c=None) -> tuple:
     powertrain = vehicle.powertrain
     out = {}
     demands = {}
-    consume_kw = {}
-    if powertrain is not None and ambient_temperature_c is not None:
-        import inspect
-        try:
-            if "ambient_temperature_c" in inspect.signature(powertrain.consume).parameters:
-                consume_kw["ambient_temperature_c"] = ambient_temperature_c
-        except (TypeError, ValueError):
-            pass
-
     def full(x):
         return np.broadcast_to(np.asarray(x, float), (size,)).copy()
 
@@ -538,7 +533,8 @@ def _evaluate_chunk(ps, profiles, ambient_temperature_c=None) -> tuple:
         for comp in COMPONENTS:
             met[f"{comp}_energy_wh_per_km"] = full(d.components_j[comp] / 3600.0 / km)
         if powertrain is not None:
-            res = powertrain.consume(vehicle, d, prof, **consume_kw)
+            res = powertrain.consume(vehicle, d, prof,
+                                    ambient_temperature_c=ambient_temperature_c)
             data = res.to_dict() if hasattr(res, "to_dict") else dict(res)
             for key in POWERTRAIN_KEYS:
                 value = data.get(key)

@@ -54,16 +54,9 @@ An absolute mass, CdA or Crr written in the short form that moves the value
 by more than 50 % gets a warning (:func:`absolute_change_note`): it is
 likely a forgotten sign.
 
-Tyre-label input: ``tyre_label: C2/B`` sets Crr from an EU label class of
-Regulation (EU) 2020/740 (labels since May 2021, classes A–E) or, written
-``C2/B 1222/2009``, of the older Regulation (EC) No 1222/2009 (classes A–G;
-D only for C3); a label without a regulation is read under 2020/740. The
-class is known, the value inside it is not: the nominal Crr is the class
-middle, and the Monte Carlo draws are uniform over the class (a rectangular
-distribution, propagated by sampling it, JCGM 101:2008 6.4.2), whose
-standard deviation is class width / √12 (JCGM 100:2008, 4.3.7). The
-open-ended best and worst classes are taken one neighbouring-class width
-wide (an assumption of this tool).
+Tyre-label input (``tyre_label: C2/B``): the class tables and the Crr a
+class stands for live in :mod:`tractive.study.tyres`; a label sets Crr to the
+class middle and the Monte Carlo draws it uniformly over the class.
 
 References
 ----------
@@ -81,9 +74,7 @@ References
 
 from __future__ import annotations
 
-import copy
 import math
-import re
 from dataclasses import dataclass, field, replace
 from typing import Any
 
@@ -94,9 +85,13 @@ from ..demand import inertial_mass_kg
 from ..errors import InputError
 from ..limits import MAX_MASS_KG
 from ..roadload import CoefficientRoadLoad, PhysicalRoadLoad, RoadLoad
-from ..spec import Section
 from ..units import KMH_MS, STANDARD_GRAVITY_MS2
+from ..plain import plain
+from ..powertrain.base import changeable, check_value, current_value, field_of, with_value
 from ..vehicle import Vehicle
+from .tyres import (DEFAULT_TYRE_REGULATION, TYRE_CLASS_UPPER_KG_T,  # noqa: F401 (re-exported)
+                    TYRE_REGULATIONS, TyreLabel, parse_tyre_label, tyre_class_interval_kg_t,
+                    tyre_label_crr, tyre_label_note)
 
 GROUPS = ("aero", "rolling", "mass", "downforce", "powertrain")
 
@@ -128,214 +123,6 @@ _LIMITS = {"mass_kg": (1e-6, MAX_MASS_KG), "rotating_mass_fraction": (0.0, 1.0),
 
 
 # ---------------------------------------------------------------------------
-# tyre label classes [kg/t]
-# ---------------------------------------------------------------------------
-
-#: regulation key → its name; labels since May 2021 follow (EU) 2020/740
-TYRE_REGULATIONS = {"2020/740": "Regulation (EU) 2020/740",
-                    "1222/2009": "Regulation (EC) No 1222/2009"}
-#: regulation of a label whose regulation is not written (the one in force for new labels)
-DEFAULT_TYRE_REGULATION = "2020/740"
-
-#: upper class limits (RRC in kg/t = N/kN = 1000 × Crr), continuous form, per regulation
-#: and tyre category; the last class of each category is open-ended (None).
-#: (EC) 1222/2009 Annex I Part A (read in the regulation); (EU) 2020/740 Annex I Part A
-#: keeps A-E: the empty D of C1/C2 is dropped, the old E becomes D and the old F/G (C3:
-#: E/F) merge into E (structure confirmed, boundaries from memory)
-TYRE_CLASS_UPPER_KG_T = {
-    "1222/2009": {
-        "C1": {"A": 6.5, "B": 7.7, "C": 9.0, "E": 10.5, "F": 12.0, "G": None},
-        "C2": {"A": 5.5, "B": 6.7, "C": 8.0, "E": 9.2, "F": 10.5, "G": None},
-        "C3": {"A": 4.0, "B": 5.0, "C": 6.0, "D": 7.0, "E": 8.0, "F": None},
-    },
-    "2020/740": {
-        "C1": {"A": 6.5, "B": 7.7, "C": 9.0, "D": 10.5, "E": None},
-        "C2": {"A": 5.5, "B": 6.7, "C": 8.0, "D": 9.2, "E": None},
-        "C3": {"A": 4.0, "B": 5.0, "C": 6.0, "D": 7.0, "E": None},
-    },
-}
-
-_LABEL_RE = re.compile(
-    r"^\s*(C[123])\s*[/:\- ]\s*([A-Za-z])"
-    r"(?:\s*[,;]?\s*\(?\s*(?:(?:regulation|reg\.?)\s*)?(?:\(?(?:EU|EC)\)?\s*)?"
-    r"(?:No\.?\s*)?([0-9]+\s*/\s*[0-9]+)\s*\)?)?\s*$", re.IGNORECASE)
-
-
-@dataclass(frozen=True)
-class TyreLabel:
-    """An EU tyre-label rolling-resistance class.
-
-    Attributes
-    ----------
-    category : str
-        ``C1`` (car), ``C2`` (van) or ``C3`` (truck) tyres.
-    cls : str
-        Class letter.
-    regulation : str
-        ``"2020/740"`` or ``"1222/2009"`` (a key of :data:`TYRE_REGULATIONS`).
-    stated : bool
-        True when the regulation was written, False when it is the default.
-    """
-
-    category: str
-    cls: str
-    regulation: str = DEFAULT_TYRE_REGULATION
-    stated: bool = True
-
-    def interval_kg_t(self) -> tuple:
-        """Class interval (low, high] [kg/t] (see :func:`tyre_class_interval_kg_t`)."""
-        return tyre_class_interval_kg_t(self.category, self.cls, self.regulation)
-
-    def text(self) -> str:
-        return f"{self.category}/{self.cls} ({TYRE_REGULATIONS[self.regulation]})"
-
-
-def _check_label(category: str, cls: str, regulation: str, stated: bool) -> TyreLabel:
-    category = category.upper()
-    cls = cls.upper()
-    regulation = re.sub(r"\s+", "", regulation)
-    if regulation not in TYRE_CLASS_UPPER_KG_T:
-        raise ValueError(f"unknown tyre-label regulation '{regulation}'; use 2020/740 "
-                         f"(labels since May 2021) or 1222/2009 (older labels)")
-    if category not in TYRE_CLASS_UPPER_KG_T[regulation]:
-        raise ValueError(f"unknown tyre category '{category}'; use C1 (car), C2 (van) or "
-                         f"C3 (truck)")
-    table = TYRE_CLASS_UPPER_KG_T[regulation][category]
-    if cls not in table:
-        other = [r for r, t in TYRE_CLASS_UPPER_KG_T.items()
-                 if r != regulation and cls in t[category]]
-        hint = ""
-        if other:
-            hint = (f"; class {cls} exists on labels of {TYRE_REGULATIONS[other[0]]}: "
-                    f"write {category}/{cls} {other[0]}")
-        raise ValueError(f"class {cls} does not exist for {category} tyres under "
-                         f"{TYRE_REGULATIONS[regulation]} (classes {', '.join(table)})"
-                         f"{hint}")
-    return TyreLabel(category, cls, regulation, stated)
-
-
-def parse_tyre_label(value) -> TyreLabel:
-    """A :class:`TyreLabel` from ``"C2/B"``, ``"C2/B 1222/2009"`` or a mapping.
-
-    The mapping form is ``{category: C2, class: B, regulation: "2020/740"}``
-    (``regulation`` optional). Without a regulation the label is read under
-    :data:`DEFAULT_TYRE_REGULATION`.
-
-    Raises
-    ------
-    ValueError
-        With a message naming what is wrong (unknown category or regulation, a
-        class that the regulation does not have).
-    """
-    if isinstance(value, dict):
-        unknown = set(value) - {"category", "class", "regulation"}
-        if unknown:
-            raise ValueError(f"unknown key '{sorted(unknown)[0]}' in the tyre label; "
-                             f"give category, class and (optional) regulation")
-        if "category" not in value or "class" not in value:
-            raise ValueError("give the tyre category and class, like "
-                             "{category: C2, class: B, regulation: \"2020/740\"}")
-        reg = value.get("regulation")
-        stated = reg is not None
-        return _check_label(str(value["category"]), str(value["class"]),
-                            str(reg) if stated else DEFAULT_TYRE_REGULATION, stated)
-    m = _LABEL_RE.match(str(value))
-    if not m:
-        raise ValueError("write the tyre category and class, like C1/B or C2/A, optionally "
-                         "with the regulation: C2/B 2020/740 (labels since May 2021) or "
-                         "C2/B 1222/2009 (older labels)")
-    reg = m.group(3)
-    return _check_label(m.group(1), m.group(2), reg if reg else DEFAULT_TYRE_REGULATION,
-                        reg is not None)
-
-
-def tyre_class_interval_kg_t(category: str, cls: str,
-                             regulation: str = DEFAULT_TYRE_REGULATION) -> tuple:
-    """Interval (low, high] of the rolling-resistance coefficient [kg/t] of a label class.
-
-    Parameters
-    ----------
-    category : str
-        ``C1``, ``C2`` or ``C3``.
-    cls : str
-        Class letter of the regulation.
-    regulation : str
-        ``"2020/740"`` (Regulation (EU) 2020/740, Annex I Part A; boundaries from
-        memory) or ``"1222/2009"`` (Regulation (EC) No 1222/2009, Annex I Part A).
-
-    The best class is taken to start one width of the next class below its
-    limit, the worst to end one width of the class before above its lower
-    limit (an assumption of this tool: both are open-ended in the regulations).
-    """
-    table = TYRE_CLASS_UPPER_KG_T[regulation][category]
-    names = list(table)
-    i = names.index(cls)
-    if i == 0:
-        upper = table[names[0]]
-        width = table[names[1]] - upper
-        return upper - width, upper
-    lower = table[names[i - 1]]
-    upper = table[cls]
-    if upper is None:
-        prev_lower = table[names[i - 2]] if i >= 2 else lower
-        width = lower - prev_lower
-        return lower, lower + width
-    return lower, upper
-
-
-def tyre_label_crr(label, regulation: str | None = None) -> tuple:
-    """Crr [-] and its standard uncertainty [-] of a label class.
-
-    Parameters
-    ----------
-    label : str, mapping or TyreLabel
-        ``"C2/B"``, ``"C2/B 1222/2009"``, a mapping (see :func:`parse_tyre_label`)
-        or a parsed label.
-    regulation : str, optional
-        Overrides the label's regulation.
-
-    Returns the class middle and the standard deviation of the rectangular
-    distribution over the class, width / √12 (JCGM 100:2008 4.3.7), both
-    converted from kg/t by /1000.
-    """
-    lab = label if isinstance(label, TyreLabel) else parse_tyre_label(label)
-    if regulation is not None:
-        lab = _check_label(lab.category, lab.cls, regulation, True)
-    lo, hi = lab.interval_kg_t()
-    return (lo + hi) / 2000.0, (hi - lo) / 1000.0 / math.sqrt(12.0)
-
-
-def tyre_label_note(label: TyreLabel) -> str | None:
-    """A warning when an unstated regulation changes what the class letter means."""
-    if label.stated:
-        return None
-    here = label.interval_kg_t()
-    for reg, table in TYRE_CLASS_UPPER_KG_T.items():
-        if reg == label.regulation or label.cls not in table[label.category]:
-            continue
-        there = tyre_class_interval_kg_t(label.category, label.cls, reg)
-        if there != here:
-            return (f"tyre label {label.category}/{label.cls} has no regulation written and "
-                    f"is read under {TYRE_REGULATIONS[label.regulation]} "
-                    f"({_interval_text(label.category, label.cls, label.regulation)} kg/t); "
-                    f"under {TYRE_REGULATIONS[reg]} the same letter means "
-                    f"{_interval_text(label.category, label.cls, reg)} kg/t: write "
-                    f"{label.category}/{label.cls} {label.regulation} or "
-                    f"{label.category}/{label.cls} {reg}")
-    return None
-
-
-def _interval_text(category, cls, regulation) -> str:
-    table = TYRE_CLASS_UPPER_KG_T[regulation][category]
-    names = list(table)
-    i = names.index(cls)
-    if i == 0:
-        return f"≤ {table[cls]:.1f}"
-    lower = table[names[i - 1]] + 0.1       # the regulation's one-decimal steps
-    return f"≥ {lower:.1f}" if table[cls] is None else f"{lower:.1f}–{table[cls]:.1f}"
-
-
-# ---------------------------------------------------------------------------
 # parameter sets
 # ---------------------------------------------------------------------------
 
@@ -352,11 +139,7 @@ class ParamSet:
     powertrain, performance : objects or None
         Parsed blocks (not varied by Monte Carlo).
     template : Vehicle
-        The vehicle the set came from (name, source, raw-block holder).
-    raw : dict
-        The vehicle's raw YAML mapping (for powertrain/performance changes).
-    changed_blocks : frozenset
-        Blocks (``powertrain``, ``performance``) a change has rewritten.
+        The vehicle the set came from (name, source).
     pt_values : dict of str → (N,) arrays
         Powertrain keys that carry a standard uncertainty (see
         :data:`POWERTRAIN_UNCERTAIN`): the value of each vehicle, in the key's
@@ -368,8 +151,6 @@ class ParamSet:
     powertrain: Any
     performance: Any
     template: Vehicle
-    raw: dict = field(default_factory=dict)
-    changed_blocks: frozenset = frozenset()
     pt_values: dict = field(default_factory=dict)
 
     @property
@@ -499,14 +280,15 @@ def reference_air_density(rl) -> tuple:
                                        "(f0/f1/f2 coefficients, none stated)")
 
 
-def nominal_params(vehicle: Vehicle, raw: dict, *, air_density_kg_m3: float | None) -> tuple:
+def nominal_params(vehicle: Vehicle, raw: dict | None = None, *,
+                   air_density_kg_m3: float | None) -> tuple:
     """Parameters of a vehicle (vehicle axis of length 1) and their uncertainties.
 
     Parameters
     ----------
     vehicle : Vehicle
-    raw : dict
-        The vehicle's raw YAML mapping.
+    raw : dict, optional
+        Not used: changes act on the parsed blocks (accepted for older callers).
     air_density_kg_m3 : float or None
         Study air density [kg/m³]; None keeps the vehicle file's own air (a
         physical road load) or the reference density of measured coefficients
@@ -551,7 +333,7 @@ def nominal_params(vehicle: Vehicle, raw: dict, *, air_density_kg_m3: float | No
     else:
         raise InputError("this road-load form cannot be used in a study", file=vehicle.source,
                          field="road_load")
-    return (ParamSet(form, params, vehicle.powertrain, vehicle.performance, vehicle, raw),
+    return (ParamSet(form, params, vehicle.powertrain, vehicle.performance, vehicle),
             stds, cov)
 
 
@@ -600,21 +382,7 @@ def apply_change(ps: ParamSet, change, z=None) -> ParamSet:
     noise = 0.0 if (z is None or not change.std) else change.std * np.asarray(z, float)
     mode, value = change.mode, change.value
     if key == "tyre_label":
-        try:
-            label = value if isinstance(value, TyreLabel) else parse_tyre_label(value)
-        except ValueError as exc:
-            raise change.error(str(exc)) from None
-        lo, hi = label.interval_kg_t()
-        if z is None:
-            share = 0.5
-        else:
-            # the class is known, the value within it is not: a rectangular distribution
-            # over the class, drawn as Φ(z) (uniform on (0, 1) for a standard-normal z;
-            # z = 0, the nominal vehicle, gives the class middle)
-            from scipy.special import ndtr
-            share = ndtr(np.asarray(z, float))
-        crr_new = np.zeros_like(p["crr"]) + (lo + (hi - lo) * share) / 1000.0
-        return replace(ps, params=_set_tyre_crr(p, crr_new))
+        return replace(ps, params=_set_tyre_crr(p, _label_crr(p["crr"], change, z)))
     if ps.form == PHYSICAL and key == "crr" and mode in ("set", "scale"):
         # a new tyre (an absolute Crr) or a percent change scales the tyre's rolling
         # coefficient as a whole: the speed slope crr_per_kmh with it
@@ -635,7 +403,12 @@ def apply_change(ps: ParamSet, change, z=None) -> ParamSet:
         if not (lo <= nominal <= hi):
             raise change.error(f"gives {key} = {nominal:g}, outside {lo:g} to {hi:g}")
         return replace(ps, params=p)
-    # measured coefficients
+    return _apply_coefficient_change(ps, p, change, z, noise)
+
+
+def _apply_coefficient_change(ps: ParamSet, p: dict, change, z, noise) -> ParamSet:
+    """A change to measured coefficients (f0/f1/f2), by the rules of the module docstring."""
+    key, mode, value = change.key, change.mode, change.value
     if key in ("f0_n", "f1_n_per_kmh", "f2_n_per_kmh2"):
         p[key] = _operate(p[key], mode, value) + noise
         lo, hi = _LIMITS.get(key, (-math.inf, math.inf))
@@ -670,6 +443,26 @@ def apply_change(ps: ParamSet, change, z=None) -> ParamSet:
         p["crr_per_kmh_add"] = p["crr_per_kmh_add"] + value + noise
         return replace(ps, params=p)
     raise change.error("cannot be changed")  # unreachable: change_group checked the key
+
+
+def _label_crr(crr, change, z):
+    """Crr of a tyre-label change: the class middle at nominal, and per draw uniform over
+    the class (Φ(z) of the change's standard-normal draw)."""
+    value = change.value
+    try:
+        label = value if isinstance(value, TyreLabel) else parse_tyre_label(value)
+    except ValueError as exc:
+        raise change.error(str(exc)) from None
+    lo, hi = label.interval_kg_t()
+    if z is None:
+        share = 0.5
+    else:
+        # the class is known, the value within it is not: a rectangular distribution
+        # over the class, drawn as Φ(z) (uniform on (0, 1) for a standard-normal z;
+        # z = 0, the nominal vehicle, gives the class middle)
+        from scipy.special import ndtr
+        share = ndtr(np.asarray(z, float))
+    return np.zeros_like(crr) + (lo + (hi - lo) * share) / 1000.0
 
 
 #: keys whose absolute value, written in the short form, is checked for a forgotten sign
@@ -729,44 +522,41 @@ def _operate(current, mode, value):
 
 
 def _apply_block_change(ps: ParamSet, change, z=None) -> ParamSet:
+    """A ``powertrain.<key>`` or ``performance.<key>`` change: a replace on the parsed block.
+
+    The key's entry in the block's ``CHANGEABLE`` table says where the value
+    lives and which range it must keep; the block's ``check_changed`` checks
+    the rules between values. A key that carries a standard uncertainty also
+    moves its per-vehicle values (``pt_values``).
+    """
     block, _, path = change.key.partition(".")
-    if block not in ps.raw or not isinstance(ps.raw.get(block), dict):
+    obj = ps.powertrain if block == "powertrain" else ps.performance
+    if obj is None:
         raise change.error(f"the vehicle has no {block} block to change")
-    uncertain = block == "powertrain" and (change.std or path in ps.pt_values)
     if change.std:
         _check_uncertain_key(ps, block, path, change)
-    raw = copy.deepcopy(ps.raw)
-    node = raw[block]
-    parts = path.split(".")
-    for part in parts[:-1]:
-        if not isinstance(node.get(part), dict):
-            raise change.error(f"the vehicle's {block} block has no '{part}' mapping")
-        node = node[part]
-    leaf = parts[-1]
-    current = node.get(leaf)
-    if change.mode in ("add", "scale"):
-        if leaf not in node:
-            raise change.error(f"the vehicle's {block} block has no key '{path}' to change")
-        if isinstance(current, bool) or not isinstance(current, (int, float)):
-            raise change.error(f"'{path}' is not a number, it cannot change by {change.text}")
-        node[leaf] = float(_operate(np.array([current]), change.mode, change.value)[0])
+    if field_of(obj, path) is None:
+        keys = ", ".join(k for k in changeable(obj) if field_of(obj, k) is not None)
+        raise change.error(f"the vehicle's {block} block has no key '{path}' to change "
+                           f"(possible: {keys})")
+    current = current_value(obj, path)
+    if current is None and (change.mode != "set" or not changeable(obj)[path].optional):
+        raise change.error(f"the vehicle's {block} block has no key '{path}' to change")
+    if change.mode == "set":
+        nominal = float(change.value)
     else:
-        node[leaf] = change.value
-    sec = Section(raw[block], file=ps.template.source or None, prefix=block)
+        nominal = float(_operate(np.array([float(current)]), change.mode, change.value)[0])
     try:
-        if block == "powertrain":
-            from ..powertrain import parse_powertrain
-            obj = parse_powertrain(sec)
-            out = replace(ps, powertrain=obj, raw=raw)
-        else:
-            from ..performance import parse_performance
-            obj = parse_performance(sec)
-            out = replace(ps, performance=obj, raw=raw)
+        check_value(obj, path, nominal, field=f"{block}.{path}")
+        out_obj = with_value(obj, path, nominal)
+        broken = out_obj.check_changed()
+        if broken:
+            raise InputError(broken[1], field=f"{block}.{broken[0]}")
     except InputError as exc:
         raise change.error(f"the changed {block} block is not valid: "
                            f"{exc.field + ': ' if exc.field else ''}{exc.message}") from None
-    out = replace(out, changed_blocks=out.changed_blocks | {block})
-    if uncertain:
+    out = replace(ps, **{block: out_obj})
+    if block == "powertrain" and (change.std or path in ps.pt_values):
         # the per-vehicle values follow the change like any parameter array: a new value
         # replaces, an amount adds, a percentage multiplies; the change's own
         # uncertainty adds on top
@@ -774,7 +564,7 @@ def _apply_block_change(ps: ParamSet, change, z=None) -> ParamSet:
         if path in values:
             arr = _operate(values[path], change.mode, change.value)
         else:
-            arr = np.full(ps.size, float(node[leaf]))
+            arr = np.full(ps.size, nominal)
         if change.std and z is not None:
             arr = arr + change.std * np.asarray(z, float)
         values[path] = arr
@@ -791,52 +581,24 @@ def _apply_block_change(ps: ParamSet, change, z=None) -> ParamSet:
 # powertrain keys with a standard uncertainty
 # ---------------------------------------------------------------------------
 
-def _set(attr, factor=1.0):
-    def setter(pt, x):
-        return replace(pt, **{attr: x * factor if factor != 1.0 else x})
-    return setter
+def _uncertain_table() -> dict:
+    """key → (powertrain kind, setter, clip limits) from the models' change tables."""
+    from ..powertrain import CombustionPowertrain, ElectricPowertrain
 
-
-def _set_in(outer, attr, factor=1.0):
-    def setter(pt, x):
-        inner = getattr(pt, outer)
-        return replace(pt, **{outer: replace(inner, **{attr: x * factor if factor != 1.0
-                                                       else x})})
-    return setter
-
-
-def _set_idle_l_per_h(pt, x):
-    return replace(pt, idle_fuel_kg_s=x * pt.fuel.density_kg_per_l / 3600.0)
-
-
-def _set_idle_kg_per_h(pt, x):
-    return replace(pt, idle_fuel_kg_s=x / 3600.0)
+    out = {}
+    for cls in (ElectricPowertrain, CombustionPowertrain):
+        for key, fld in cls.CHANGEABLE.items():
+            if fld.uncertain is not None:
+                out[key] = (cls.kind, lambda pt, x, key=key: with_value(pt, key, x),
+                            fld.uncertain)
+    return out
 
 
 #: powertrain keys (paths in the ``powertrain`` block) whose value may carry a standard
 #: uncertainty, with the powertrain kind, how the value (in the key's unit) enters the
 #: model (its ``consume`` takes these as per-vehicle arrays), and the physical limits a
-#: drawn value is clipped to
-POWERTRAIN_UNCERTAIN = {
-    "battery_usable_kwh": ("electric", _set("battery_usable_kwh"), (1e-9, math.inf)),
-    "drive_efficiency": ("electric", _set("drive_efficiency"), (1e-6, 1.0)),
-    "gear_efficiency": ("electric", _set("gear_efficiency"), (1e-6, 1.0)),
-    "auxiliary_power_kw": ("electric", _set("auxiliary_power_w", 1000.0), (0.0, math.inf)),
-    "charger_efficiency": ("electric", _set("charger_efficiency"), (1e-6, 1.0)),
-    "regen.efficiency": ("electric", _set_in("regen", "efficiency"), (0.0, 1.0)),
-    "regen.recoverable_share": ("electric", _set_in("regen", "recoverable_share"),
-                                (0.0, 1.0)),
-    "transmission_efficiency": ("combustion", _set_in("gearing", "efficiency"),
-                                (1e-6, 1.0)),
-    "idle_fuel_l_per_h": ("combustion", _set_idle_l_per_h, (0.0, math.inf)),
-    "idle_fuel_kg_per_h": ("combustion", _set_idle_kg_per_h, (0.0, math.inf)),
-    "willans.marginal_efficiency": ("combustion", _set_in("engine", "marginal_efficiency"),
-                                    (1e-6, 1.0)),
-    "willans.friction_mep_kpa": ("combustion", _set_in("engine", "friction_mep_pa", 1000.0),
-                                 (0.0, math.inf)),
-    "willans.friction_power_kw": ("combustion", _set_in("engine", "friction_power_w", 1000.0),
-                                  (0.0, math.inf)),
-}
+#: drawn value is clipped to; built from the models' ``CHANGEABLE`` tables
+POWERTRAIN_UNCERTAIN = _uncertain_table()
 
 
 def std_key_of(path: str) -> str:
@@ -868,12 +630,9 @@ def _check_uncertain_key(ps: ParamSet, block: str, path: str, change) -> None:
         keys = [k for k, e in POWERTRAIN_UNCERTAIN.items() if e[0] == kind]
         hint = f"; possible with this {kind} powertrain: {', '.join(keys)}" if keys else ""
         raise change.error(f"{block}.{path} cannot carry a standard uncertainty{hint}")
-    node = ps.raw.get(block)
-    for part in path.split("."):
-        if not isinstance(node, dict) or part not in node:
-            raise change.error(f"the vehicle's {block} block has no key '{path}' whose "
-                               "uncertainty could be stated")
-        node = node[part]
+    if field_of(ps.powertrain, path) is None or current_value(ps.powertrain, path) is None:
+        raise change.error(f"the vehicle's {block} block has no key '{path}' whose "
+                           "uncertainty could be stated")
 
 
 def powertrain_with(powertrain, values: dict):
@@ -891,6 +650,9 @@ def powertrain_with(powertrain, values: dict):
         if entry is None or entry[0] != getattr(pt, "kind", None):
             raise InputError(f"powertrain.{path} cannot carry a standard uncertainty with "
                              f"this powertrain")
+        if field_of(pt, path) is None or current_value(pt, path) is None:
+            raise InputError(f"powertrain.{path} cannot carry a standard uncertainty with "
+                             f"this powertrain model")
         try:
             pt = entry[1](pt, value)
         except (AttributeError, TypeError):
@@ -927,11 +689,12 @@ def differing_groups(base: ParamSet, variant: ParamSet) -> tuple:
             continue
         if not np.array_equal(np.asarray(value)[:1], np.asarray(variant.params[name])[:1]):
             out.add(g)
-    if _block(base, "powertrain") != _block(variant, "powertrain") or \
-            _block(base, "performance") != _block(variant, "performance"):
+    if _block(base.powertrain) != _block(variant.powertrain) or \
+            _block(base.performance) != _block(variant.performance):
         out.add("powertrain")
     return tuple(g for g in GROUPS if g in out)
 
 
-def _block(ps: ParamSet, name: str):
-    return ps.raw.get(name) if isinstance(ps.raw, dict) else None
+def _block(obj):
+    """A parsed block as comparable plain data (None for none)."""
+    return None if obj is None else plain(obj.to_dict())

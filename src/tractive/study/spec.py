@@ -30,10 +30,11 @@ import yaml
 from ..atmosphere import ambient_air
 from ..errors import InputError
 from ..limits import MAX_DRAWS
-from ..spec import Section, load_section, read_yaml
-from ..vehicle import Vehicle, load_vehicle, vehicle_from_section
+from ..spec import Section, load_section
+from ..vehicle import Vehicle, vehicle_from_section
 from ..roadload import CoefficientRoadLoad
-from .modify import POWERTRAIN_STD_KEYS, parse_tyre_label, reference_air_density
+from .modify import POWERTRAIN_STD_KEYS, reference_air_density
+from .tyres import parse_tyre_label
 from .results import InputItem
 
 #: Monte Carlo draws when the study does not say
@@ -223,6 +224,8 @@ class _Reader:
         self.file = str(path)
         self.raw = _raw_scalars(self.path)
         self.inputs: list[InputItem] = []
+        #: vehicle files read in this study: resolved path → (Vehicle, mapping as read)
+        self.vehicles: dict = {}
 
     def src(self, sec: Section, key: str | None = None) -> str:
         line = sec.line_of(key)
@@ -322,28 +325,34 @@ def _read_ambient(sec: Section, rd: _Reader):
     return air["density_kg_m3"], air["basis"], (None if math.isnan(t_c) else t_c)
 
 
-def _vehicle_from(sec: Section, key: str, rd: _Reader) -> Vehicle:
-    """A vehicle given as a file path or inline under ``key``."""
+def _vehicle_from(sec: Section, key: str, rd: _Reader) -> tuple:
+    """A vehicle given as a file path or inline under ``key``: (Vehicle, source, mapping).
+
+    A file is read and parsed once per study (cached by its resolved path); the
+    mapping as read is kept for the inputs echo only.
+    """
     value = sec.raw(key)
     if value is None:
         raise sec.error("missing required key", key)
     if isinstance(value, dict):
         veh = vehicle_from_section(sec.section(key), name_default="baseline")
-        src = rd.src(sec, key)
-        raw = value
-    else:
-        vpath = sec.path(key)
-        if not vpath.is_file():
-            raise sec.error(f"vehicle file not found: {vpath}", key)
+        return veh, rd.src(sec, key), value
+    vpath = sec.path(key)
+    if not vpath.is_file():
+        raise sec.error(f"vehicle file not found: {vpath}", key)
+    resolved = vpath.resolve()
+    if resolved not in rd.vehicles:
         try:
-            veh = load_vehicle(vpath)
+            vsec = load_section(vpath)
+            rd.vehicles[resolved] = (vehicle_from_section(vsec), vsec.data)
         except InputError as exc:
             if exc.file is None:
                 raise exc.located(file=str(vpath)) from None
             raise
-        src = str(vpath)
-        raw = read_yaml(vpath)
-    return veh, src, raw
+    veh, raw = rd.vehicles[resolved]
+    if veh.source != str(vpath):
+        veh = dc_replace(veh, source=str(vpath))   # the path as this study names it
+    return veh, str(vpath), raw
 
 
 def _read_baseline(sec: Section, rd: _Reader):
@@ -484,58 +493,74 @@ def _read_changes(sec: Section, rd: _Reader, section: str, own_values: bool = Fa
                     "new labels")
             continue
         explicit = isinstance(value, dict)
-        if explicit:
-            sub = sec.section(key)
-            present = [k for k in ("set", "add", "percent") if sub.has(k)]
-            if len(present) != 1:
-                raise sub.error("give exactly one of set, add or percent")
-            mode_key = present[0]
-            v = sub.number(mode_key)
-            sub.finish()
-            if mode_key == "percent":
-                mode, val, text = "scale", 1.0 + v / 100.0, f"{v:+g}%"
-            elif mode_key == "add":
-                mode, val, text = "add", v, f"{v:+g}"
-            else:
-                mode, val, text = "set", v, f"{v:g}"
-        else:
-            raw = rd.raw.get((line, key))
-            if raw is None:
-                raw = str(value)
-            if isinstance(value, bool) or value is None or isinstance(value, (list, dict)):
-                raise sec.error(f"must be a number, a signed change (+0.1, -15%), got "
-                                f"{value!r}", key)
-            m_pct = _PCT_RE.match(raw)
-            m_sign = _SIGNED_RE.match(raw)
-            if m_pct:
-                pct = float(m_pct.group(2)) * (-1.0 if m_pct.group(1) == "-" else 1.0)
-                mode, val, text = "scale", 1.0 + pct / 100.0, f"{pct:+g}%"
-            elif raw.strip().endswith("%"):
-                raise sec.error(f"write a percent change with its sign, like -15% or +10%, "
-                                f"got '{raw}'", key)
-            elif m_sign:
-                amount = float(m_sign.group(2)) * (-1.0 if m_sign.group(1) == "-" else 1.0)
-                mode, val, text = "add", amount, f"{amount:+g}"
-            elif isinstance(value, (int, float)) and raw.lstrip()[:1] in ("+", "-"):
-                # a signed number in another YAML spelling (+1_000, +0x10): the sign
-                # written makes it a signed amount; YAML has already applied it
-                amount = float(value)
-                mode, val, text = "add", amount, f"{amount:+g}"
-            elif isinstance(value, (int, float)):
-                mode, val, text = "set", float(value), f"{float(value):g}"
-            else:
-                raise sec.error(f"must be a number (new value), a signed amount (+0.12) or a "
-                                f"signed percent (-15%), got '{raw}'", key)
-            if not math.isfinite(float(val)):
-                raise sec.error("must be finite", key)
+        mode, val, text = _change_value(sec, key, value, rd.raw.get((line, key)))
         if mode == "scale" and val < 0:
             raise sec.error(f"a change of {text} would make the value negative", key)
         out.append(Change(key, mode, val, 0.0, text, sec.file, fld, line, explicit))
         rd.echo(section, key, text, _unit_of_key(key) if mode != "scale" else "%",
                 rd.src(sec, key))
+    final = _attach_stds(sec, rd, section, out, stds, own_values)
+    if not final:
+        raise sec.error("list at least one change")
+    return tuple(final)
+
+
+def _change_value(sec: Section, key: str, value, raw: str | None) -> tuple:
+    """(mode, value, text) of one change: the long form ``{set|add|percent: x}`` or the
+    short form as written (``raw``: the scalar text, so that a sign survives)."""
+    if isinstance(value, dict):
+        sub = sec.section(key)
+        present = [k for k in ("set", "add", "percent") if sub.has(k)]
+        if len(present) != 1:
+            raise sub.error("give exactly one of set, add or percent")
+        mode_key = present[0]
+        v = sub.number(mode_key)
+        sub.finish()
+        if mode_key == "percent":
+            mode, val, text = "scale", 1.0 + v / 100.0, f"{v:+g}%"
+        elif mode_key == "add":
+            mode, val, text = "add", v, f"{v:+g}"
+        else:
+            mode, val, text = "set", v, f"{v:g}"
+    else:
+        if raw is None:
+            raw = str(value)
+        if isinstance(value, bool) or value is None or isinstance(value, (list, dict)):
+            raise sec.error(f"must be a number, a signed change (+0.1, -15%), got "
+                            f"{value!r}", key)
+        m_pct = _PCT_RE.match(raw)
+        m_sign = _SIGNED_RE.match(raw)
+        if m_pct:
+            pct = float(m_pct.group(2)) * (-1.0 if m_pct.group(1) == "-" else 1.0)
+            mode, val, text = "scale", 1.0 + pct / 100.0, f"{pct:+g}%"
+        elif raw.strip().endswith("%"):
+            raise sec.error(f"write a percent change with its sign, like -15% or +10%, "
+                            f"got '{raw}'", key)
+        elif m_sign:
+            amount = float(m_sign.group(2)) * (-1.0 if m_sign.group(1) == "-" else 1.0)
+            mode, val, text = "add", amount, f"{amount:+g}"
+        elif isinstance(value, (int, float)) and raw.lstrip()[:1] in ("+", "-"):
+            # a signed number in another YAML spelling (+1_000, +0x10): the sign
+            # written makes it a signed amount; YAML has already applied it
+            amount = float(value)
+            mode, val, text = "add", amount, f"{amount:+g}"
+        elif isinstance(value, (int, float)):
+            mode, val, text = "set", float(value), f"{float(value):g}"
+        else:
+            raise sec.error(f"must be a number (new value), a signed amount (+0.12) or a "
+                            f"signed percent (-15%), got '{raw}'", key)
+        if not math.isfinite(float(val)):
+            raise sec.error("must be finite", key)
+    return mode, val, text
+
+
+def _attach_stds(sec: Section, rd: _Reader, section: str, changes: list, stds: dict,
+                 own_values: bool) -> list:
+    """Standard uncertainties attached to the changes of their keys; a lone one states the
+    uncertainty of the vehicle's own value where ``own_values`` allows it."""
     # attach standard uncertainties to their changes
     final = []
-    for ch in out:
+    for ch in changes:
         std_key = next((s for s, k in STD_KEYS.items() if k == ch.key), None)
         if std_key and std_key in stds:
             ch = dc_replace(ch, std=stds.pop(std_key))
@@ -553,9 +578,7 @@ def _read_changes(sec: Section, rd: _Reader, section: str, own_values: bool = Fa
         raise sec.error(f"{std_key} needs a change of {target} in the same modification "
                         "(alone it is allowed on the baseline and with a vehicle file)",
                         std_key)
-    if not final:
-        raise sec.error("list at least one change")
-    return tuple(final)
+    return final
 
 
 def _read_combinations(sec: Section, mods: list) -> list:
