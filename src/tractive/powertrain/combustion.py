@@ -67,9 +67,10 @@ from typing import ClassVar
 
 import numpy as np
 
-from ..spec import Section
-from ..units import KMH_MS, KWH_J, MILE_M, UK_GALLON_L, US_GALLON_L
+from ..metrics import l_per_100km_to_mpg
 from ..plain import plain_number
+from ..spec import Section
+from ..units import KMH_MS, KWH_J, UK_GALLON_L, US_GALLON_L
 from ._common import STANDSTILL_MS, col, range_from, safe_divide
 from .base import ParamField
 from .drive import (RPM_RADS, FullLoadCurve, Gearing, parse_full_load, parse_gear_ratios,
@@ -278,7 +279,7 @@ class CombustionResult:
         fl = self.fuel_l
         if fl is None:
             return None
-        return safe_divide(self.distance_km * 1000.0 / MILE_M, fl / US_GALLON_L)
+        return l_per_100km_to_mpg(self.fuel_l_per_100km, US_GALLON_L)
 
     @property
     def mpg_uk(self):
@@ -286,7 +287,7 @@ class CombustionResult:
         fl = self.fuel_l
         if fl is None:
             return None
-        return safe_divide(self.distance_km * 1000.0 / MILE_M, fl / UK_GALLON_L)
+        return l_per_100km_to_mpg(self.fuel_l_per_100km, UK_GALLON_L)
 
     @property
     def co2_kg(self):
