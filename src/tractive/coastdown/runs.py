@@ -51,10 +51,15 @@ from scipy.ndimage import median_filter
 from scipy.signal import savgol_filter
 
 from ..errors import InputError
+from ..limits import MAX_TEST_SPEED_KMH
 from ..units import KMH_MS, STANDARD_GRAVITY_MS2
 from .logs import CoastdownLog
 from .motion import odd_window
 
+#: longest gap [s] a user may allow inside a run (a longer one is no coasting record)
+MAX_GAP_LIMIT_S = 60.0
+#: highest speed [km/h] of the speed window
+MAX_WINDOW_SPEED_KMH = MAX_TEST_SPEED_KMH
 #: Gaussian σ per median absolute deviation (Rousseeuw and Croux 1993)
 MAD_TO_SIGMA = 1.482602218505602
 
@@ -97,6 +102,21 @@ class DetectionSettings:
     brake_window_s: float = 1.5
     brake_margin_ms2: float = 0.15
     spike_floor_kmh: float = 1.0
+
+    def __post_init__(self):
+        lo, hi = (float(x) for x in self.speed_window_kmh)
+        if not (0.0 <= lo < hi <= MAX_WINDOW_SPEED_KMH):
+            raise InputError(f"needs 0 ≤ low < high ≤ {MAX_WINDOW_SPEED_KMH:g} km/h, got "
+                             f"{lo:g}-{hi:g}", field="speed_window_kmh")
+        object.__setattr__(self, "speed_window_kmh", (lo, hi))
+        span = float(self.min_span_kmh)
+        if not (0.0 < span < hi - lo + 1e-9):
+            raise InputError(f"must be positive and fit in the speed window, got {span:g}",
+                             field="min_span_kmh")
+        gap = self.max_gap_s
+        if gap is not None and not (0.0 < gap <= MAX_GAP_LIMIT_S):
+            raise InputError(f"must be above 0 and at most {MAX_GAP_LIMIT_S:g} s, got "
+                             f"{gap:g}", field="max_gap_s")
 
 
 @dataclass(frozen=True)
