@@ -5,19 +5,15 @@ from __future__ import annotations
 import contextlib
 
 import click
-import numpy as np
 
-from ..coastdown import analyze_coastdown, plot_coastdown, two_interval_estimate
-from ..coastdown.corrections import REFERENCES
-from ..coastdown.fitting import COMBINES, METHODS
-from ..coastdown.output import PLOT_SUFFIXES, ROAD_LOAD_SUFFIXES, write_road_load
-from ..errors import InputError
-from ..limits import MAX_MASS_KG
-from ..report.common import check_target
-from ..units import KMH_MS
+from .. import api
 from . import cli
 from ._checks import Number, ranged
 from ._output import emit_json, fmt, table
+
+#: choices and limits of the options (from the library)
+CHOICES = api.coastdown_choices()
+DEFAULTS = CHOICES["defaults"]
 
 SAFETY = """\b
 SAFETY: run coast-down tests only on closed roads or proving grounds where
@@ -28,8 +24,8 @@ and the track's rules."""
 
 
 #: checked numeric options (finite, physical ranges)
-MASS = Number(0.0, MAX_MASS_KG, low_open=True, unit="kg")
-MASS_STD = Number(0.0, MAX_MASS_KG, unit="kg")
+MASS = Number(0.0, CHOICES["max_mass_kg"], low_open=True, unit="kg")
+MASS_STD = Number(0.0, CHOICES["max_mass_kg"], unit="kg")
 ROTATING = Number(0.0, 1.0, unit="")
 AREA = Number(0.0, 30.0, low_open=True, unit="m²")
 WINDOW_SPEED = Number(0.0, 400.0, unit="km/h")
@@ -46,7 +42,8 @@ DENSITY = Number(0.5, 2.0, unit="kg/m³")
 
 #: library field → command-line option, for errors about an option's value
 _OPTION_OF = {"high_kmh": "--high", "high_time_s": "--high", "low_kmh": "--low",
-              "low_time_s": "--low", "terms": "--terms"}
+              "low_time_s": "--low", "terms": "--terms", "output": "--output",
+              "plot": "--plot"}
 
 
 @contextlib.contextmanager
@@ -55,7 +52,7 @@ def _options_named():
     (``min_span_kmh`` → ``--min-span-kmh``); errors naming a file pass unchanged."""
     try:
         yield
-    except InputError as exc:
+    except api.InputError as exc:
         ctx = click.get_current_context(silent=True)
         names = {}
         for p in (ctx.command.params if ctx else ()):
@@ -63,29 +60,12 @@ def _options_named():
             if isinstance(p, click.Option) and long:
                 names[p.name] = long[0]
         option = _OPTION_OF.get(exc.field) or names.get(exc.field)
+        if exc.field in ("output", "plot"):       # an output file: keep its name
+            raise api.InputError(exc.message, file=exc.file, field=option,
+                                 line=exc.line) from None
         if exc.file is None and option:
-            raise InputError(exc.message, field=option, line=exc.line) from None
+            raise api.InputError(exc.message, field=option, line=exc.line) from None
         raise
-
-
-def _check_outputs(output, plot, logs):
-    """Refuse output names that are input logs, in a missing or read-only folder, or
-    with an ending the writer does not produce, before any work is done."""
-    if output is not None:
-        with _naming("--output"):
-            check_target(output, logs, suffixes=ROAD_LOAD_SUFFIXES)
-    if plot is not None:
-        with _naming("--plot"):
-            check_target(plot, logs, suffixes=PLOT_SUFFIXES)
-
-
-@contextlib.contextmanager
-def _naming(option):
-    """Add the option to an output-file error that names no field."""
-    try:
-        yield
-    except InputError as exc:
-        raise exc.located(field=option) from None
 
 
 @cli.command("coastdown", help=f"""Road-load coefficients f0, f1, f2 (with covariance) from
@@ -119,9 +99,9 @@ writes a road_load block with its covariance for a vehicle or study file.
                    "below --mass-kg.")
 @click.option("--frontal-area-m2", type=AREA, default=None,
               help=ranged("Frontal area [m²]; gives Cd from CdA.", AREA))
-@click.option("--method", type=click.Choice(METHODS), default="speed-time", show_default=True,
+@click.option("--method", type=click.Choice(CHOICES["methods"]), default=DEFAULTS["method"], show_default=True,
               help="Fitting method.")
-@click.option("--combine", type=click.Choice(COMBINES), default="joint", show_default=True,
+@click.option("--combine", type=click.Choice(CHOICES["combines"]), default=DEFAULTS["combine"], show_default=True,
               help="joint: all runs with a steady wind and slope term; pairs: average "
                    "opposite-direction pairs; none: no wind or slope terms (for runs in "
                    "one direction).")
@@ -140,7 +120,8 @@ writes a road_load block with its covariance for a vehicle or study file.
               help="Use run N despite its rejection (repeatable).")
 @click.option("--drop", type=int, multiple=True, metavar="N",
               help="Leave run N out (repeatable).")
-@click.option("--reference", type=click.Choice(REFERENCES), default="gtr15", show_default=True,
+@click.option("--reference", type=click.Choice(CHOICES["references"]),
+              default=DEFAULTS["reference"], show_default=True,
               help="Reference conditions: gtr15 (20 °C, 100 kPa, K0 8.6e-3/K; values from "
                    "memory), j2263 (20 °C, 98.21 kPa, air only) or none.")
 @click.option("--air-temperature-c", type=AIR_T, default=None,
@@ -156,7 +137,7 @@ writes a road_load block with its covariance for a vehicle or study file.
               help="Remove each run's mean grade, from its elevation_m column.")
 @click.option("--smoothing-s", type=SMOOTH, default=5.0, show_default=True,
               help=ranged("Savitzky-Golay window of the deceleration method [s].", SMOOTH))
-@click.option("--speed-column", type=click.Choice(["speed_kmh", "speed_mph", "speed_ms"]),
+@click.option("--speed-column", type=click.Choice(CHOICES["speed_columns"]),
               default=None, help="Speed column to use when a CSV has several.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
 @click.option("-o", "--output", "output", default=None, metavar="FILE.yaml",
@@ -172,43 +153,23 @@ def coastdown_command(logs, mass_kg, rotating_mass_fraction, mass_std_kg, fronta
                       drop, reference, air_temperature_c, air_pressure_pa,
                       rolling_factor_per_k, grade_from_elevation, smoothing_s, speed_column,
                       as_json, output, plot):
-    _check_outputs(output, plot, logs)
+    options = dict(mass_kg=mass_kg, rotating_mass_fraction=rotating_mass_fraction,
+                   mass_std_kg=mass_std_kg, frontal_area_m2=frontal_area_m2, method=method,
+                   combine=combine, terms=int(terms), speed_window_kmh=tuple(speed_window_kmh),
+                   min_span_kmh=min_span_kmh, max_gap_s=max_gap_s, keep=keep, drop=drop,
+                   reference=reference, air_temperature_c=air_temperature_c,
+                   air_pressure_pa=air_pressure_pa, rolling_factor_per_k=rolling_factor_per_k,
+                   grade_from_elevation=grade_from_elevation, smoothing_s=smoothing_s,
+                   speed_column=speed_column)
     with _options_named():
-        result = _analyze(logs, mass_kg, rotating_mass_fraction, mass_std_kg, frontal_area_m2,
-                          method, combine, terms, speed_window_kmh, min_span_kmh, max_gap_s,
-                          keep, drop, reference, air_temperature_c, air_pressure_pa,
-                          rolling_factor_per_k, grade_from_elevation, smoothing_s,
-                          speed_column)
-    written = []
-    if output:
-        with _naming("--output"):
-            written.append(str(write_road_load(result, output, inputs=logs)))
-    if plot:
-        with _naming("--plot"):
-            written.append(str(plot_coastdown(result, plot, inputs=logs)))
-    data = result.to_dict()
+        report = api.coastdown(list(logs), output=output, plot=plot, **options)
+    data = report.to_dict()
     if as_json:
-        if written:
-            data["written"] = written
         emit_json(data)
         return
-    _print_text(result, data)
-    for w in written:
+    _print_text(report.result, data)
+    for w in report.written:
         click.echo(f"wrote {w}")
-
-
-def _analyze(logs, mass_kg, rotating_mass_fraction, mass_std_kg, frontal_area_m2, method,
-             combine, terms, speed_window_kmh, min_span_kmh, max_gap_s, keep, drop,
-             reference, air_temperature_c, air_pressure_pa, rolling_factor_per_k,
-             grade_from_elevation, smoothing_s, speed_column):
-    return analyze_coastdown(
-        list(logs), mass_kg=mass_kg, rotating_mass_fraction=rotating_mass_fraction,
-        frontal_area_m2=frontal_area_m2, method=method, combine=combine, terms=int(terms),
-        speed_window_kmh=tuple(speed_window_kmh), min_span_kmh=min_span_kmh,
-        max_gap_s=max_gap_s, keep=keep, drop=drop, reference=reference,
-        air_temperature_c=air_temperature_c, air_pressure_pa=air_pressure_pa,
-        rolling_factor_per_k=rolling_factor_per_k, grade_from_elevation=grade_from_elevation,
-        mass_std_kg=mass_std_kg, smoothing_s=smoothing_s, speed_column=speed_column)
 
 
 def _print_text(result, data):
@@ -244,13 +205,13 @@ def _print_text(result, data):
         click.echo(f"steady wind along the road {fit.wind_ms:.2f} ± {fit.wind_std_ms:.2f} m/s "
                    f"against direction {dir_a}; slope {100 * fit.grade:.3f} ± "
                    f"{100 * fit.grade_std:.3f} % uphill in direction {dir_a}")
-    rms = (f"{fit.residual_rms / KMH_MS:.3f} km/h" if result.method == "speed-time"
-           else f"{fit.residual_rms:.1f} N")
+    rms = (f"{data['residual_rms_kmh']:.3f} km/h" if "residual_rms_kmh" in data
+           else f"{data['residual_rms_n']:.1f} N")
     click.echo(f"fit: R² {fit.r_squared:.6f}, residual rms {rms}")
     click.echo(f"agreement of runs within their noise: chi2 {fit.homogeneity_chi2:.1f} with "
                f"{fit.homogeneity_dof} dof (p = {fit.homogeneity_p:.2g})")
-    if fit.between_dof is not None and np.any(np.isfinite(fit.effective_dof)):
-        dofs = ", ".join("-" if not np.isfinite(x) else f"{x:.1f}" for x in fit.effective_dof)
+    if fit.between_dof is not None and any(x is not None for x in data["effective_dof"]):
+        dofs = ", ".join("-" if x is None else f"{x:.1f}" for x in data["effective_dof"])
         click.echo(f"uncertainty includes run-to-run variation ({fit.between_dof:.1f} dof); "
                    f"effective dof of f0, f1, f2: {dofs} (Student-t 95 % intervals)")
     click.echo("")
@@ -305,7 +266,7 @@ coastdown' with logged speeds.
 def coastdown_quick_command(mass_kg, rotating_mass_fraction, high, low, air_density_kg_m3,
                             as_json):
     with _options_named():
-        est = two_interval_estimate(
+        est = api.coastdown_quick(
             mass_kg=mass_kg, rotating_mass_fraction=rotating_mass_fraction,
             high_kmh=high[:2], high_time_s=high[2], low_kmh=low[:2], low_time_s=low[2],
             air_density_kg_m3=air_density_kg_m3)

@@ -21,6 +21,7 @@ from typing import Iterable
 import numpy as np
 
 from ..errors import InputError
+from ..plain import json_text
 from ..report.common import atomic_write, check_target, write_text_atomic
 from ..units import KMH_MS
 
@@ -41,24 +42,6 @@ def _num(x: float) -> str:
         mant, exp = text.split("e")
         text = f"{mant}.0e{exp}"
     return text
-
-
-def _json_ready(obj):
-    """Plain JSON data: numpy scalars and arrays as Python values, NaN and inf as null."""
-    if isinstance(obj, dict):
-        return {str(k): _json_ready(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_json_ready(v) for v in obj]
-    if isinstance(obj, np.ndarray):
-        return _json_ready(obj.tolist())
-    if isinstance(obj, (np.floating, float)):
-        v = float(obj)
-        return v if np.isfinite(v) else None
-    if isinstance(obj, np.integer):
-        return int(obj)
-    if isinstance(obj, np.bool_):
-        return bool(obj)
-    return obj
 
 
 def _require_finite(result, path) -> None:
@@ -130,11 +113,8 @@ def write_road_load(result, path, *, inputs: Iterable = ()):
     target = check_target(path, inputs, suffixes=ROAD_LOAD_SUFFIXES)
     if target.suffix.lower() != ".json":
         return write_road_load_yaml(result, path, inputs=inputs)
-    import json
-
     _require_finite(result, path)
-    text = json.dumps(_json_ready(result.to_dict()), indent=2, allow_nan=False,
-                      ensure_ascii=False) + "\n"
+    text = json_text(result.to_dict()) + "\n"
     return write_text_atomic(path, text, inputs=inputs)
 
 
