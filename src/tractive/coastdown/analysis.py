@@ -239,6 +239,8 @@ class CoastdownResult:
             "notes": list(self.notes),
             "road_load": self.road_load_block(),
         }
+        if fit.pairs_wind is not None:
+            out["pairs_wind"] = fit.pairs_wind.to_dict()
         return out
 
 
