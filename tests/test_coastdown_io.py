@@ -17,6 +17,7 @@ import pytest
 import yaml
 from scipy import stats
 
+from conftest import run_cli
 from test_coastdown import MASS, TRUTH, as_log, simulate
 from tractive.coastdown import analyze_coastdown, correction_factors, read_coastdown_log
 from tractive.coastdown.corrections import REFERENCE_STATES
@@ -28,6 +29,12 @@ EXAMPLE = ROOT / "examples" / "coastdown" / "coastdown_log.csv"
 
 
 def run(*args, cwd=None):
+    """The command in-process (conftest.run_cli)."""
+    return run_cli(*args, cwd=cwd)
+
+
+def run_process(*args, cwd=None):
+    """The command as its own process (end-to-end smoke test only)."""
     return subprocess.run([sys.executable, "-m", "tractive", *map(str, args)],
                           capture_output=True, text=True, cwd=cwd)
 
@@ -190,9 +197,12 @@ def test_help_carries_the_safety_cautions():
 
 
 def test_text_report_lists_runs(csv_log):
-    r = run("coastdown", csv_log, "--mass-kg", MASS)
+    # end-to-end: the installed module as its own process, as a user runs it
+    r = run_process("coastdown", csv_log, "--mass-kg", MASS)
     assert r.returncode == 0, r.stderr
     assert "f0" in r.stdout and "reason / notes" in r.stdout and "Crr" in r.stdout
+    for line in r.stdout.splitlines():           # not a terminal: 100 columns
+        assert len(line) <= 100, line
 
 
 # -- study --------------------------------------------------------------------------

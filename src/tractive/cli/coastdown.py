@@ -3,6 +3,9 @@
 from __future__ import annotations
 
 import contextlib
+import os
+import sys
+import textwrap
 
 import click
 
@@ -140,6 +143,10 @@ writes a road_load block with its covariance for a vehicle or study file.
 @click.option("--speed-column", type=click.Choice(CHOICES["speed_columns"]),
               default=None, help="Speed column to use when a CSV has several.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
+@click.option("--wide", is_flag=True,
+              help="Run table with every column (log, times, f1, deviation) and the "
+                   "reasons on one line each; without it the table fits the terminal "
+                   "(COLUMNS, else 100 characters).")
 @click.option("-o", "--output", "output", default=None, metavar="FILE.yaml",
               help="Write the road load to this file: .yaml or .yml for the road_load "
                    "block (coefficients and covariance, with comments), .json for the whole "
@@ -152,7 +159,7 @@ def coastdown_command(logs, mass_kg, rotating_mass_fraction, mass_std_kg, fronta
                       method, combine, terms, speed_window_kmh, min_span_kmh, max_gap_s, keep,
                       drop, reference, air_temperature_c, air_pressure_pa,
                       rolling_factor_per_k, grade_from_elevation, smoothing_s, speed_column,
-                      as_json, output, plot):
+                      as_json, wide, output, plot):
     options = dict(mass_kg=mass_kg, rotating_mass_fraction=rotating_mass_fraction,
                    mass_std_kg=mass_std_kg, frontal_area_m2=frontal_area_m2, method=method,
                    combine=combine, terms=int(terms), speed_window_kmh=tuple(speed_window_kmh),
@@ -167,15 +174,26 @@ def coastdown_command(logs, mass_kg, rotating_mass_fraction, mass_std_kg, fronta
     if as_json:
         emit_json(data)
         return
-    _print_text(report.result, data)
+    _print_text(report.result, data, wide=wide)
     for w in report.written:
         click.echo(f"wrote {w}")
 
 
-def _print_text(result, data):
+def _print_text(result, data, *, wide=False):
+    """The text report: coefficients, corrections, fit quality, run table, notes; lines
+    longer than the width (see :func:`_width`) are wrapped unless ``wide``."""
+    width = _width()
+
+    def say(text=""):
+        if wide or len(text) <= width or "\n" in text:
+            click.echo(text)
+        else:
+            click.echo(textwrap.fill(text, width, subsequent_indent="    ",
+                                     break_on_hyphens=False))
+
     used = data["runs_used"]
     fit = result.fit
-    click.echo(f"Coast-down: {used} of {len(result.runs)} runs used ({result.method} fit, "
+    say(f"Coast-down: {used} of {len(result.runs)} runs used ({result.method} fit, "
                f"combine {result.combine}, {result.terms} terms, "
                f"{result.speed_window_kmh[0]:g}-{result.speed_window_kmh[1]:g} km/h)")
     corr = result.corrections
@@ -183,57 +201,99 @@ def _print_text(result, data):
         head = f"at reference conditions of {corr['standard']} ({corr['basis']})"
     else:
         head = "at test conditions (not corrected)"
-    click.echo(f"road load {head}:")
+    say(f"road load {head}:")
     std = result.std
-    click.echo(f"  f0   {result.f0_n:10.2f} ± {std[0]:.2f} N")
-    click.echo(f"  f1   {result.f1_n_per_kmh:10.4f} ± {std[1]:.4f} N/(km/h)")
-    click.echo(f"  f2   {result.f2_n_per_kmh2:10.5f} ± {std[2]:.5f} N/(km/h)^2")
+    say(f"  f0   {result.f0_n:10.2f} ± {std[0]:.2f} N")
+    say(f"  f1   {result.f1_n_per_kmh:10.4f} ± {std[1]:.4f} N/(km/h)")
+    say(f"  f2   {result.f2_n_per_kmh2:10.5f} ± {std[2]:.5f} N/(km/h)^2")
     line = (f"  CdA  {result.cda_m2:10.3f} ± {result.cda_std_m2:.3f} m^2 "
             f"(air {result.air_density_for_cda_kg_m3:.4f} kg/m^3)")
     if result.cd is not None:
         line += f"   Cd {result.cd:.3f} ± {result.cd_std:.3f}"
-    click.echo(line)
-    click.echo(f"  Crr  {result.crr:10.5f} ± {result.crr_std:.5f}  (f0 / (m g), test mass)")
-    click.echo("  (± one standard uncertainty; 95 % interval about ± 1.96 times it)")
+    say(line)
+    say(f"  Crr  {result.crr:10.5f} ± {result.crr_std:.5f}  (f0 / (m g), test mass)")
+    say("  (± one standard uncertainty; 95 % interval about ± 1.96 times it)")
     m = data["as_measured"]
-    click.echo(f"as measured: f0 {m['f0_n']:.2f} N, f1 {m['f1_n_per_kmh']:.4f} N/(km/h), "
+    say(f"as measured: f0 {m['f0_n']:.2f} N, f1 {m['f1_n_per_kmh']:.4f} N/(km/h), "
                f"f2 {m['f2_n_per_kmh2']:.5f} N/(km/h)^2")
     for text in corr.get("applied", []):
-        click.echo(f"  corrected: {text}")
+        say(f"  corrected: {text}")
     if fit.wind_ms is not None:
         dir_a = next((r.run.direction for r in result.runs if r.run.group == "A"), "A")
-        click.echo(f"steady wind along the road {fit.wind_ms:.2f} ± {fit.wind_std_ms:.2f} m/s "
+        say(f"steady wind along the road {fit.wind_ms:.2f} ± {fit.wind_std_ms:.2f} m/s "
                    f"against direction {dir_a}; slope {100 * fit.grade:.3f} ± "
                    f"{100 * fit.grade_std:.3f} % uphill in direction {dir_a}")
     rms = (f"{data['residual_rms_kmh']:.3f} km/h" if "residual_rms_kmh" in data
            else f"{data['residual_rms_n']:.1f} N")
-    click.echo(f"fit: R² {fit.r_squared:.6f}, residual rms {rms}")
-    click.echo(f"agreement of runs within their noise: chi2 {fit.homogeneity_chi2:.1f} with "
+    say(f"fit: R² {fit.r_squared:.6f}, residual rms {rms}")
+    say(f"agreement of runs within their noise: chi2 {fit.homogeneity_chi2:.1f} with "
                f"{fit.homogeneity_dof} dof (p = {fit.homogeneity_p:.2g})")
     if fit.between_dof is not None and any(x is not None for x in data["effective_dof"]):
         dofs = ", ".join("-" if x is None else f"{x:.1f}" for x in data["effective_dof"])
-        click.echo(f"uncertainty includes run-to-run variation ({fit.between_dof:.1f} dof); "
+        say(f"uncertainty includes run-to-run variation ({fit.between_dof:.1f} dof); "
                    f"effective dof of f0, f1, f2: {dofs} (Student-t 95 % intervals)")
-    click.echo("")
+    say("")
+    say(run_table(data["runs"], width, wide=wide))
+    if data["notes"]:
+        say("\nnotes:")
+        for n in data["notes"]:
+            say(f"  - {n}")
+
+
+#: columns of the run table: (key, header, format); the wide table adds WIDE_COLUMNS
+RUN_COLUMNS = [("run", "run", ".0f"), ("direction", "dir", ""),
+               ("speed_start_kmh", "from km/h", ".1f"), ("speed_end_kmh", "to km/h", ".1f"),
+               ("used_text", "used", ""), ("f0_n", "f0 N", ".1f"),
+               ("f2_n_per_kmh2", "f2", ".3g")]
+WIDE_COLUMNS = [("run", "run", ".0f"), ("log", "log", ""), ("direction", "direction", ""),
+                ("start_s", "start s", ".1f"), ("end_s", "end s", ".1f"),
+                ("speed_start_kmh", "from km/h", ".1f"), ("speed_end_kmh", "to km/h", ".1f"),
+                ("used_text", "used", ""), ("f0_n", "f0 N", ".1f"),
+                ("f1_n_per_kmh", "f1", ".3g"), ("f2_n_per_kmh2", "f2", ".3g"),
+                ("deviation_n", "off N", "+.1f")]
+#: narrowest reason column [characters] before the table is allowed to run wider
+MIN_REASON_WIDTH = 24
+
+
+def _width() -> int:
+    """Columns to fit: the COLUMNS variable, else the terminal's width, else 100."""
+    text = os.environ.get("COLUMNS", "")
+    if text.strip().isdigit() and int(text) > 0:
+        return int(text)
+    try:
+        if sys.stdout.isatty():
+            return os.get_terminal_size(sys.stdout.fileno()).columns
+    except OSError:
+        pass
+    return 100
+
+
+def run_table(runs: list, width: int = 100, *, wide: bool = False) -> str:
+    """The run table: the main columns with the reason wrapped to ``width`` characters,
+    or (``wide``) every column with the reasons on one line."""
     rows = []
-    for r in data["runs"]:
+    for r in runs:
         why = r["reason"]
         if r.get("flag"):
             why = (why + "; " if why else "") + r["flag"]
         if r["notes"]:
             why = (why + "; " if why else "") + "; ".join(r["notes"])
         rows.append({**r, "used_text": "yes" if r["used"] else "no", "why": why})
-    click.echo(table(rows, [("run", "run", ".0f"), ("log", "log", ""),
-                            ("direction", "direction", ""), ("start_s", "start s", ".1f"),
-                            ("end_s", "end s", ".1f"), ("speed_start_kmh", "from km/h", ".1f"),
-                            ("speed_end_kmh", "to km/h", ".1f"), ("used_text", "used", ""),
-                            ("f0_n", "f0 N", ".1f"), ("f1_n_per_kmh", "f1", ".3f"),
-                            ("f2_n_per_kmh2", "f2", ".5f"),
-                            ("deviation_n", "off N", "+.1f"), ("why", "reason / notes", "")]))
-    if data["notes"]:
-        click.echo("\nnotes:")
-        for n in data["notes"]:
-            click.echo(f"  - {n}")
+    columns = WIDE_COLUMNS if wide else RUN_COLUMNS
+    lines = table(rows, columns).splitlines()
+    fixed = max(len(line) for line in lines)
+    lines = [line.ljust(fixed) for line in lines]
+    if wide:
+        head = [lines[0] + "  reason / notes", lines[1] + "  " + "-" * 14]
+        return "\n".join(head + [(line + "  " + row["why"]).rstrip()
+                                  for line, row in zip(lines[2:], rows)])
+    room = max(width - fixed - 2, MIN_REASON_WIDTH)
+    out = [lines[0] + "  reason / notes", lines[1] + "  " + "-" * min(14, room)]
+    for line, row in zip(lines[2:], rows):
+        parts = textwrap.wrap(row["why"], room) or [""]
+        out.append((line + "  " + parts[0]).rstrip())
+        out += [" " * (fixed + 2) + p for p in parts[1:]]
+    return "\n".join(out)
 
 
 @cli.command("coastdown-quick", help=f"""Quick road-load estimate from two timed speed drops.
