@@ -94,26 +94,31 @@ writes a road_load block with its covariance for a vehicle or study file.
 @click.argument("logs", nargs=-1, required=True, metavar="LOG [LOG ...]")
 @click.option("--mass-kg", type=MASS, required=True,
               help=ranged("Vehicle test mass [kg].", MASS))
-@click.option("--rotating-mass-fraction", type=ROTATING, default=0.03, show_default=True,
+@click.option("--rotating-mass-fraction", type=ROTATING,
+              default=DEFAULTS["rotating_mass_fraction"], show_default=True,
               help=ranged("Rotating-mass allowance [-]; inertial mass = mass × (1 + "
                           "fraction).", ROTATING))
-@click.option("--mass-std-kg", type=MASS_STD, default=0.0, show_default=True,
+@click.option("--mass-std-kg", type=MASS_STD, default=DEFAULTS["mass_std_kg"], show_default=True,
               help="Standard uncertainty of the test mass [kg]. Accepted: at least 0 and "
                    "below --mass-kg.")
 @click.option("--frontal-area-m2", type=AREA, default=None,
               help=ranged("Frontal area [m²]; gives Cd from CdA.", AREA))
-@click.option("--method", type=click.Choice(CHOICES["methods"]), default=DEFAULTS["method"], show_default=True,
+@click.option("--method", type=click.Choice(CHOICES["methods"]), default=DEFAULTS["method"],
+              show_default=True,
               help="Fitting method.")
-@click.option("--combine", type=click.Choice(CHOICES["combines"]), default=DEFAULTS["combine"], show_default=True,
+@click.option("--combine", type=click.Choice(CHOICES["combines"]), default=DEFAULTS["combine"],
+              show_default=True,
               help="joint: all runs with a steady wind and slope term; pairs: average "
                    "opposite-direction pairs; none: no wind or slope terms (for runs in "
                    "one direction).")
-@click.option("--terms", type=click.Choice(["3", "2"]), default="3", show_default=True,
+@click.option("--terms", type=click.Choice(["3", "2"]), default=str(DEFAULTS["terms"]),
+              show_default=True,
               help="3: f0 + f1·v + f2·v²; 2: f1 fixed at zero.")
-@click.option("--speed-window-kmh", type=WINDOW_SPEED, nargs=2, default=(15.0, 115.0),
+@click.option("--speed-window-kmh", type=WINDOW_SPEED, nargs=2,
+              default=DEFAULTS["speed_window_kmh"],
               show_default=True, metavar="LOW HIGH",
               help="Speeds fitted [km/h]. Accepted: 0 ≤ LOW < HIGH ≤ 400 km/h.")
-@click.option("--min-span-kmh", type=SPAN, default=20.0, show_default=True,
+@click.option("--min-span-kmh", type=SPAN, default=DEFAULTS["min_span_kmh"], show_default=True,
               help="Least speed drop a run must cover in the window [km/h]. Accepted: above "
                    "0 and at most HIGH − LOW of the window.")
 @click.option("--max-gap-s", type=GAP, default=None,
@@ -138,7 +143,7 @@ writes a road_load block with its covariance for a vehicle or study file.
                           "0.5-1.5.", K0))
 @click.option("--grade-from-elevation", is_flag=True,
               help="Remove each run's mean grade, from its elevation_m column.")
-@click.option("--smoothing-s", type=SMOOTH, default=5.0, show_default=True,
+@click.option("--smoothing-s", type=SMOOTH, default=DEFAULTS["smoothing_s"], show_default=True,
               help=ranged("Savitzky-Golay window of the deceleration method [s].", SMOOTH))
 @click.option("--speed-column", type=click.Choice(CHOICES["speed_columns"]),
               default=None, help="Speed column to use when a CSV has several.")

@@ -22,21 +22,15 @@ import numpy as np
 from ..demand import inertial_mass_kg
 from ..errors import InputError
 from ..units import KMH_MS, STANDARD_GRAVITY_MS2
-from .corrections import REFERENCES, correction_factors  # noqa: F401
+from .corrections import correction_factors
 from .fitting import FitOutcome, FitRun, fit_runs
 from .logs import CoastdownLog, read_coastdown_log
-from .runs import (MAX_GAP_LIMIT_S, Run, apply_user_choice, assign_directions,  # noqa: F401
-                   find_runs, grade_force_n, pair_runs, run_grade)
-from .settings import (AIR_PRESSURE_RANGE_PA, AIR_TEMPERATURE_RANGE_C,  # noqa: F401
-                       DEFAULT_ROTATING_MASS_FRACTION, ROLLING_FACTOR_RANGE_PER_K,
-                       CoastdownSettings)
+from .runs import (Run, apply_user_choice, assign_directions, find_runs, grade_force_n,
+                   pair_runs, run_grade)
+from .settings import CoastdownSettings
 
 #: SI → GTR 15 units for (f0, f1, f2): N, N/(km/h), N/(km/h)² (exact)
 TO_GTR_UNITS = np.array([1.0, KMH_MS, KMH_MS ** 2])
-#: default speed window [km/h] (SAE J2263 coasting range 115 → 15 km/h)
-DEFAULT_SPEED_WINDOW_KMH = (15.0, 115.0)
-#: default method: the speed-time fit does not differentiate noisy speeds
-DEFAULT_METHOD = "speed-time"
 #: ISA sea-level density [kg/m³] used for CdA when the test air is unknown
 _ISA_DENSITY_KG_M3 = 1.225
 
