@@ -17,6 +17,7 @@ import pytest
 import yaml
 from scipy import stats
 
+from conftest import run_cli
 from test_coastdown import MASS, TRUTH, as_log, simulate
 from tractive.coastdown import analyze_coastdown, correction_factors, read_coastdown_log
 from tractive.coastdown.corrections import REFERENCE_STATES
@@ -28,6 +29,12 @@ EXAMPLE = ROOT / "examples" / "coastdown" / "coastdown_log.csv"
 
 
 def run(*args, cwd=None):
+    """The command in-process (conftest.run_cli)."""
+    return run_cli(*args, cwd=cwd)
+
+
+def run_process(*args, cwd=None):
+    """The command as its own process (end-to-end smoke test only)."""
     return subprocess.run([sys.executable, "-m", "tractive", *map(str, args)],
                           capture_output=True, text=True, cwd=cwd)
 
@@ -134,16 +141,19 @@ def test_block_file_feeds_a_vehicle_and_plot_is_written(tmp_path, csv_log):
     assert r.returncode == 0, r.stderr
     d = json.loads(r.stdout)
     assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"          # PNG signature
-    block = yaml.safe_load(out.read_text())
-    assert set(block) == {"f0_n", "f1_n_per_kmh", "f2_n_per_kmh2", "covariance"}
+    doc = yaml.safe_load(out.read_text())
+    assert set(doc) == {"test_mass_kg", "test_rotating_mass_fraction", "road_load"}
+    assert doc["test_mass_kg"] == MASS and doc["test_rotating_mass_fraction"] == 0.03
+    assert set(doc["road_load"]) == {"f0_n", "f1_n_per_kmh", "f2_n_per_kmh2", "covariance"}
     car = tmp_path / "car.yaml"
     car.write_text("name: coasted\nmass_kg: 1500\nroad_load:\n  from_coastdown: rl.yaml\n")
     veh = load_vehicle(car)
     assert veh.road_load.f0_n == d["f0_n"]
     assert np.array_equal(veh.road_load.covariance, np.array(d["covariance"]))
-    # the block can also be pasted under road_load: unchanged
-    text = "name: pasted\nmass_kg: 1500\nroad_load:\n" + "".join(
-        "  " + line + "\n" for line in out.read_text().splitlines())
+    # the lines under road_load: can also be pasted into a vehicle's road_load: unchanged
+    lines = out.read_text().splitlines()
+    text = "name: pasted\nmass_kg: 1500\n" + "\n".join(
+        lines[lines.index("road_load:"):]) + "\n"
     (tmp_path / "pasted.yaml").write_text(text)
     assert load_vehicle(tmp_path / "pasted.yaml").road_load.f2_n_per_kmh2 == d["f2_n_per_kmh2"]
     # and a saved --json document works too (its road_load entry is used)
@@ -187,9 +197,12 @@ def test_help_carries_the_safety_cautions():
 
 
 def test_text_report_lists_runs(csv_log):
-    r = run("coastdown", csv_log, "--mass-kg", MASS)
+    # end-to-end: the installed module as its own process, as a user runs it
+    r = run_process("coastdown", csv_log, "--mass-kg", MASS)
     assert r.returncode == 0, r.stderr
     assert "f0" in r.stdout and "reason / notes" in r.stdout and "Crr" in r.stdout
+    for line in r.stdout.splitlines():           # not a terminal: 100 columns
+        assert len(line) <= 100, line
 
 
 # -- study --------------------------------------------------------------------------
@@ -223,7 +236,7 @@ def test_fitted_covariance_widens_the_study_interval(tmp_path, csv_log):
     # At constant speed E = (f0 + f1 V + f2 V^2) d is linear in (f0, f1, f2), so
     # sd(E) = d sqrt(g' C g) with g = (1, V, V^2) exactly (JCGM 100:2008 eq. 13);
     # the 95 % interval of a normal output is ±1.959964 sd (scipy.stats.norm).
-    block = yaml.safe_load(out.read_text())
+    block = yaml.safe_load(out.read_text())["road_load"]
     cov = np.array(block["covariance"])
     g = np.array([1.0, 90.0, 90.0 ** 2])
     d_m = 90 / 3.6 * 600

@@ -9,14 +9,13 @@ coast-down time table, and the closed-form derivation of the two-term model
 from __future__ import annotations
 
 import json
-import subprocess
-import sys
 
 import numpy as np
 import pytest
 from scipy.integrate import quad, solve_ivp
 from scipy.signal import savgol_filter
 
+from conftest import run_cli
 from tractive.coastdown import coast_speed_ms, coast_time_s, two_interval_estimate
 from tractive.coastdown.motion import (coast_speed_gradient, interpolation_operator,
                                        savgol_operator)
@@ -155,9 +154,8 @@ def test_two_interval_estimate_refuses_impossible_times():
 def test_quick_command_json_matches_the_function():
     # consistency check (no outside reference): the command's JSON carries the library
     # result unchanged; the estimate itself is checked against solve_ivp above
-    r = subprocess.run([sys.executable, "-m", "tractive", "coastdown-quick", "--mass-kg", "1400",
-                        "--high", "110", "90", "17.1", "--low", "40", "20", "47.1", "--json"],
-                       capture_output=True, text=True)
+    r = run_cli("coastdown-quick", "--mass-kg", "1400", "--high", "110", "90", "17.1",
+                "--low", "40", "20", "47.1", "--json")
     assert r.returncode == 0, r.stderr
     data = json.loads(r.stdout)
     est = two_interval_estimate(mass_kg=1400, high_kmh=(110, 90), high_time_s=17.1,

@@ -226,12 +226,12 @@ def test_writers_refuse_a_result_that_is_not_finite(log_file, tmp_path):
 def test_output_names_are_checked_before_the_fit(capsys, monkeypatch, tmp_path, log_file,
                                                  args, needles):
     monkeypatch.chdir(tmp_path)
-    import tractive.cli.coastdown as cmd
+    import tractive.coastdown as cd
 
     def never(*a, **k):
         raise AssertionError("the fit ran before the output names were checked")
 
-    monkeypatch.setattr(cmd, "analyze_coastdown", never)
+    monkeypatch.setattr(cd, "analyze_coastdown", never)
     one_line_error(cli(capsys, "coastdown", log_file, "--mass-kg", MASS, *args), *needles)
     assert list(tmp_path.iterdir()) == []          # no folder created, no file
 

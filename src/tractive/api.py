@@ -577,3 +577,152 @@ def write_range_plot(reports: Sequence[RangeCurveReport], path):
 
     inputs = [r.vehicle.source for r in reports if getattr(r.vehicle, "source", "")]
     return plot_range_curves([r.to_dict() for r in reports], path, inputs=inputs)
+
+
+# ===========================================================================
+# Coast-down: ``tractive coastdown`` and ``tractive coastdown-quick``
+# (this block belongs to the coast-down code; the package is imported inside
+# the functions, so importing tractive.api stays light)
+# ===========================================================================
+
+def coastdown_choices() -> dict:
+    """The fixed choices and limits of the coast-down options, for forms and commands:
+    ``methods``, ``combines``, ``references``, ``road_load_suffixes``, ``plot_suffixes``,
+    ``speed_columns``, ``max_mass_kg``, ``defaults`` (flat option → default value)."""
+    from .coastdown.output import PLOT_SUFFIXES, ROAD_LOAD_SUFFIXES
+    from .coastdown.settings import (COMBINES, DEFAULT_ROTATING_MASS_FRACTION, METHODS,
+                                     CoastdownSettings)
+    from .coastdown.corrections import REFERENCES
+    from .limits import MAX_MASS_KG
+
+    defaults = CoastdownSettings.from_options(mass_kg=1000.0).options()
+    defaults.pop("mass_kg")
+    defaults["rotating_mass_fraction"] = DEFAULT_ROTATING_MASS_FRACTION
+    return {"methods": METHODS, "combines": COMBINES, "references": REFERENCES,
+            "road_load_suffixes": ROAD_LOAD_SUFFIXES, "plot_suffixes": PLOT_SUFFIXES,
+            "speed_columns": ("speed_kmh", "speed_mph", "speed_ms"),
+            "max_mass_kg": MAX_MASS_KG, "defaults": defaults}
+
+
+@dataclass(frozen=True)
+class CoastdownReport:
+    """A coast-down analysis and the files written from it.
+
+    Attributes
+    ----------
+    result : tractive.coastdown.CoastdownResult
+        Coefficients, covariance, runs, corrections, notes.
+    written : tuple of str
+        Files written (road-load block or JSON, figure), in that order.
+    """
+
+    result: object
+    written: tuple = ()
+
+    def to_dict(self) -> dict:
+        """The result's JSON-ready dictionary, with ``written`` when files were written."""
+        data = self.result.to_dict()
+        if self.written:
+            data["written"] = list(self.written)
+        return data
+
+
+def check_coastdown_outputs(logs: Sequence, *, output=None, plot=None) -> None:
+    """Refuse output names before any work: an input log (also through a link), a
+    missing or read-only folder, or an ending the writer does not produce.
+
+    Raises
+    ------
+    InputError
+        With ``field`` "output" or "plot" and ``file`` the output name.
+    """
+    from .coastdown.output import PLOT_SUFFIXES, ROAD_LOAD_SUFFIXES
+    from .report.common import check_target
+
+    inputs = [str(x) for x in logs if isinstance(x, (str, os.PathLike))]
+    for name, path, suffixes in (("output", output, ROAD_LOAD_SUFFIXES),
+                                 ("plot", plot, PLOT_SUFFIXES)):
+        if path is not None:
+            try:
+                check_target(path, inputs, suffixes=suffixes)
+            except InputError as exc:
+                raise exc.located(field=name) from None
+
+
+def coastdown(logs: Sequence, settings=None, *, output=None, plot=None,
+              **options) -> CoastdownReport:
+    """Road-load coefficients with covariance from coast-down logs (``tractive coastdown``).
+
+    Parameters
+    ----------
+    logs : sequence of path or tractive.coastdown.CoastdownLog
+        Raw logs (CSV or GPX).
+    settings : tractive.coastdown.CoastdownSettings, optional
+        Every option as checked dataclasses; or give flat ``options``
+        (``mass_kg=1500, combine="pairs"``, see
+        :func:`tractive.coastdown.analyze_coastdown`).
+    output : path, optional
+        Write the road load: ``.yaml``/``.yml`` block or ``.json`` result.
+    plot : path, optional
+        Write the figure: ``.png``, ``.pdf`` or ``.svg``.
+
+    Returns
+    -------
+    CoastdownReport
+
+    Raises
+    ------
+    InputError
+        Bad options or logs, no usable run, or an output that cannot be
+        written; output names are checked before the fit. The outputs are
+        written all or nothing, never over a file the run read.
+    """
+    from .coastdown import analyze_coastdown, plot_coastdown, write_road_load
+    from .readfiles import is_input, tracking
+    from .report.common import all_or_nothing
+
+    logs = list(logs)
+    check_coastdown_outputs(logs, output=output, plot=plot)
+    with tracking() as read:
+        result = analyze_coastdown(logs, settings, **options)
+    inputs = [str(x) for x in logs if isinstance(x, (str, os.PathLike))]
+    for name, path in (("output", output), ("plot", plot)):
+        hit = path is not None and is_input(path, read)
+        if hit:
+            raise InputError("refusing to overwrite an input file; choose another output "
+                             "name", file=str(path), field=name)
+    written = []
+    with all_or_nothing():
+        for name, path, writer in (("output", output, write_road_load),
+                                   ("plot", plot, plot_coastdown)):
+            if path is None:
+                continue
+            try:
+                written.append(str(writer(result, path, inputs=inputs)))
+            except InputError as exc:
+                raise exc.located(field=name) from None
+    return CoastdownReport(result, tuple(written))
+
+
+def coastdown_quick(*, mass_kg: float, high_kmh, high_time_s: float, low_kmh,
+                    low_time_s: float, rotating_mass_fraction: float = 0.03,
+                    air_density_kg_m3: float | None = None):
+    """Road load f0, f2 from two timed speed drops (``tractive coastdown-quick``).
+
+    Speeds [km/h] as (start, end) pairs, times [s], test mass [kg], air density
+    [kg/m³] for CdA; see :func:`tractive.coastdown.two_interval_estimate`.
+    Returns a :class:`tractive.coastdown.TwoIntervalEstimate` (``to_dict()``).
+    """
+    from .coastdown import two_interval_estimate
+
+    return two_interval_estimate(mass_kg=mass_kg, high_kmh=high_kmh, high_time_s=high_time_s,
+                                 low_kmh=low_kmh, low_time_s=low_time_s,
+                                 rotating_mass_fraction=rotating_mass_fraction,
+                                 air_density_kg_m3=air_density_kg_m3)
+
+
+def read_coastdown_log(path, *, speed_column: str | None = None):
+    """One raw coast-down log (CSV or GPX) as a :class:`tractive.coastdown.CoastdownLog`."""
+    from .coastdown import read_coastdown_log as _read
+
+    return _read(path, speed_column=speed_column)

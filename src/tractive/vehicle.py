@@ -157,14 +157,27 @@ def _parse_from_coastdown(sec: Section) -> CoefficientRoadLoad:
     origin = f"{sec.file}:{line}" if sec.file and line else (sec.file or "the vehicle")
     try:
         inner = load_section(path)
+        test = {}
         if inner.has("road_load"):
+            # the test mass beside the road load: test_* keys of the YAML block written by
+            # ``coastdown -o``, mass_kg and rotating_mass_fraction of the JSON result
+            yaml_keys = inner.has("test_mass_kg") or inner.has("test_rotating_mass_fraction")
+            mass_key, rmf_key = (("test_mass_kg", "test_rotating_mass_fraction") if yaml_keys
+                                 else ("mass_kg", "rotating_mass_fraction"))
+            test = {"test_mass_kg": inner.number(mass_key, required=False, min=0.0,
+                                                 min_inclusive=False, unit="kg"),
+                    "test_rotating_mass_fraction": inner.number(rmf_key, required=False,
+                                                                min=0.0, max=1.0)}
             inner = inner.section("road_load")
         rl = _parse_coefficients(inner)
     except InputError as exc:
         raise InputError(f"{exc.message} (file named by {sec.field('from_coastdown')} in "
                          f"{origin})", file=exc.file or str(path), field=exc.field,
                          line=exc.line) from None
-    return replace(rl, given={**rl.given, "from_coastdown": str(path)})
+    # the test mass and fraction go with the coefficients; tractive.coastdown.mass.
+    # road_load_at_mass carries them to the vehicle's mass (f0, f1 × m / m_test)
+    test = {k: v for k, v in test.items() if v is not None}
+    return replace(rl, given={**rl.given, **test, "from_coastdown": str(path)})
 
 
 def _parse_coefficients(sec: Section) -> CoefficientRoadLoad:

@@ -3,6 +3,8 @@
 Public functions:
 
 * :func:`read_coastdown_log` — read a raw CSV or GPX log (no resampling).
+* :class:`CoastdownSettings` (with :class:`TestVehicle`, :class:`DetectionSettings`,
+  :class:`FitSettings`, :class:`CorrectionSettings`) — every option, checked.
 * :func:`analyze_coastdown` — find runs, fit f0/f1/f2 with covariance,
   correct to reference conditions, derive CdA, Cd and Crr.
 * :func:`two_interval_estimate` — the two-interval quick estimate.
@@ -12,7 +14,7 @@ Public functions:
 
 Modules: ``logs`` (reading), ``runs`` (detection), ``motion`` (closed forms and
 filters), ``fitting`` (methods and covariance), ``corrections`` (reference
-conditions), ``quick`` (two-interval estimate), ``analysis`` (the whole
+conditions), ``settings`` (options), ``quick`` (two-interval estimate), ``analysis`` (the whole
 chain), ``output`` (YAML block and figure).
 """
 
@@ -23,6 +25,8 @@ from .corrections import REFERENCE_STATES, correction_factors
 from .fitting import COMBINES, METHODS
 from .logs import CoastdownLog, read_coastdown_log
 from .motion import coast_speed_ms, coast_time_s
+from .runs import DetectionSettings
+from .settings import CoastdownSettings, CorrectionSettings, FitSettings, TestVehicle
 from .output import plot_coastdown, road_load_yaml, write_road_load, write_road_load_yaml
 from .quick import TwoIntervalEstimate, two_interval_estimate
 
@@ -30,4 +34,5 @@ __all__ = ["CoastdownResult", "RunReport", "analyze_coastdown", "REFERENCE_STATE
            "correction_factors", "COMBINES", "METHODS", "CoastdownLog", "read_coastdown_log",
            "coast_speed_ms", "coast_time_s", "plot_coastdown", "road_load_yaml",
            "write_road_load", "write_road_load_yaml", "TwoIntervalEstimate",
-           "two_interval_estimate"]
+           "two_interval_estimate", "CoastdownSettings", "CorrectionSettings", "FitSettings",
+           "TestVehicle", "DetectionSettings"]

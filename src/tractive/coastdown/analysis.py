@@ -21,33 +21,18 @@ import numpy as np
 
 from ..demand import inertial_mass_kg
 from ..errors import InputError
-from ..limits import MAX_MASS_KG
 from ..units import KMH_MS, STANDARD_GRAVITY_MS2
-from .corrections import REFERENCES, correction_factors
-from .fitting import COMBINES, METHODS, FitOutcome, FitRun, fit_runs
+from .corrections import correction_factors
+from .fitting import FitOutcome, FitRun, fit_runs
 from .logs import CoastdownLog, read_coastdown_log
-from .runs import (DetectionSettings, Run, apply_user_choice, assign_directions, find_runs,
-                   grade_force_n, pair_runs, run_grade)
+from .runs import (Run, apply_user_choice, assign_directions, find_runs, grade_force_n,
+                   pair_runs, run_grade)
+from .settings import CoastdownSettings
 
 #: SI → GTR 15 units for (f0, f1, f2): N, N/(km/h), N/(km/h)² (exact)
 TO_GTR_UNITS = np.array([1.0, KMH_MS, KMH_MS ** 2])
-#: default speed window [km/h] (SAE J2263 coasting range 115 → 15 km/h)
-DEFAULT_SPEED_WINDOW_KMH = (15.0, 115.0)
-#: default method: the speed-time fit does not differentiate noisy speeds
-DEFAULT_METHOD = "speed-time"
-#: default rotating-mass allowance (UN GTR No. 15, from memory; SAE J2263 1.03 × mass)
-DEFAULT_ROTATING_MASS_FRACTION = 0.03
 #: ISA sea-level density [kg/m³] used for CdA when the test air is unknown
 _ISA_DENSITY_KG_M3 = 1.225
-#: longest gap [s] a user may allow inside a run (a longer one is no coasting record)
-MAX_GAP_LIMIT_S = 60.0
-#: accepted test air temperature [°C] (the range of the log column)
-AIR_TEMPERATURE_RANGE_C = (-60.0, 60.0, "°C")
-#: accepted test (station) air pressure [Pa]: about 9 km altitude to a deep low-lying site
-AIR_PRESSURE_RANGE_PA = (30000.0, 110000.0, "Pa")
-#: accepted rolling-resistance temperature factor K0 [1/K]: 0 to a bit over twice the
-#: UN GTR No. 15 value 8.6e-3/K (from memory); rolling resistance falls as tyres warm
-ROLLING_FACTOR_RANGE_PER_K = (0.0, 0.02, "1/K")
 
 
 def _std(cov):
@@ -248,6 +233,8 @@ class CoastdownResult:
             "notes": list(self.notes),
             "road_load": self.road_load_block(),
         }
+        if fit.pairs_wind is not None:
+            out["pairs_wind"] = fit.pairs_wind.to_dict()
         return out
 
 
@@ -269,63 +256,25 @@ def _mean_over(logs, runs, attr):
     return vals
 
 
-def analyze_coastdown(logs: Sequence, *, mass_kg: float,
-                      rotating_mass_fraction: float = DEFAULT_ROTATING_MASS_FRACTION,
-                      frontal_area_m2: float | None = None, method: str = DEFAULT_METHOD,
-                      combine: str = "joint", terms: int = 3,
-                      speed_window_kmh: tuple = DEFAULT_SPEED_WINDOW_KMH,
-                      min_span_kmh: float = 20.0, max_gap_s: float | None = None,
-                      keep: Sequence[int] | None = None, drop: Sequence[int] | None = None,
-                      reference: str = "gtr15", air_temperature_c: float | None = None,
-                      air_pressure_pa: float | None = None,
-                      rolling_factor_per_k: float | None = None,
-                      grade_from_elevation: bool = False, mass_std_kg: float = 0.0,
-                      smoothing_s: float = 5.0, speed_column: str | None = None
-                      ) -> CoastdownResult:
+def analyze_coastdown(logs: Sequence, settings: CoastdownSettings | None = None,
+                      **options) -> CoastdownResult:
     """Fit road-load coefficients (f0, f1, f2) with covariance to coast-down logs.
 
     Parameters
     ----------
     logs : sequence of path or CoastdownLog
         One or more raw logs (CSV or GPX).
-    mass_kg : float
-        Vehicle test mass [kg].
-    rotating_mass_fraction : float
-        Rotating-mass allowance [-]; inertial mass = mass × (1 + fraction).
-    frontal_area_m2 : float, optional
-        Frontal area [m²] for Cd.
-    method : {"speed-time", "deceleration"}
-        Fit the speed-time solution to the speeds (default) or regress
-        deceleration on speed.
-    combine : {"joint", "pairs", "none"}
-        All runs jointly with a steady wind and slope term (default), averages
-        of opposite-direction pairs, or all runs without direction terms.
-    terms : {3, 2}
-        Fit f0 + f1·v + f2·v² (3) or f0 + f2·v² (2).
-    speed_window_kmh : (float, float)
-        Speeds fitted [km/h].
-    min_span_kmh : float
-        Least speed drop [km/h] a run must cover in the window.
-    max_gap_s : float, optional
-        Longest gap [s] allowed inside a run.
-    keep, drop : sequence of int, optional
-        Run numbers to use despite a rejection, or to leave out.
-    reference : {"gtr15", "j2263", "none"}
-        Reference conditions to correct to (see :mod:`.corrections`).
-    air_temperature_c, air_pressure_pa : float, optional
-        Test air temperature [°C] and pressure [Pa] for logs without those
-        columns.
-    rolling_factor_per_k : float, optional
-        Rolling-resistance temperature factor K0 [1/K] overriding the standard's.
-    grade_from_elevation : bool
-        Remove each run's mean grade from its ``elevation_m`` column.
-    mass_std_kg : float
-        Standard uncertainty of the test mass [kg]; all coefficients scale
-        with the inertial mass, so it adds (σ_m/m)²·f·fᵀ to the covariance.
-    smoothing_s : float
-        Savitzky-Golay window [s] of the deceleration method.
-    speed_column : str, optional
-        Speed column to read when a CSV has several.
+    settings : CoastdownSettings, optional
+        Every setting (test vehicle, detection, fit, corrections, run choice);
+        see :mod:`.settings`.
+    **options
+        Flat option names instead of (or changing fields of) ``settings``:
+        ``mass_kg`` (required without ``settings``), ``rotating_mass_fraction``,
+        ``mass_std_kg``, ``frontal_area_m2``, ``method``, ``combine``,
+        ``terms``, ``smoothing_s``, ``xtol``, ``ftol``, ``gtol``,
+        ``speed_window_kmh``, ``min_span_kmh``, ``max_gap_s``, ``reference``,
+        ``air_temperature_c``, ``air_pressure_pa``, ``rolling_factor_per_k``,
+        ``grade_from_elevation``, ``keep``, ``drop``, ``speed_column``.
 
     Returns
     -------
@@ -335,7 +284,7 @@ def analyze_coastdown(logs: Sequence, *, mass_kg: float,
     ------
     InputError
         For unreadable logs, no usable run, one direction only when
-        ``combine`` needs two, or invalid options.
+        ``combine`` needs two, or invalid options (``field`` names the option).
 
     References
     ----------
@@ -343,53 +292,28 @@ def analyze_coastdown(logs: Sequence, *, mass_kg: float,
     .. [2] UN GTR No. 15 Annex 4 (averaging, corrections, rotating mass).
     .. [3] White and Korst, SAE 720099 (speed-time solution).
     """
+    if settings is None:
+        settings = CoastdownSettings.from_options(**options)
+    elif options:
+        settings = settings.with_options(**options)
     if not logs:
         raise InputError("give at least one log", field="logs")
-    if not (mass_kg > 0) or mass_kg > MAX_MASS_KG:
-        raise InputError(f"must be a plausible vehicle mass in kg, got {mass_kg:g}",
-                         field="mass_kg")
-    if not (0.0 <= rotating_mass_fraction <= 1.0):
-        raise InputError(f"must be between 0 and 1, got {rotating_mass_fraction:g}",
-                         field="rotating_mass_fraction")
-    if frontal_area_m2 is not None and not (0.0 < frontal_area_m2 <= 30.0):
-        raise InputError(f"must be between 0 and 30 m², got {frontal_area_m2:g}",
-                         field="frontal_area_m2")
-    if method not in METHODS:
-        raise InputError(f"unknown method '{method}'; use {' or '.join(METHODS)}",
-                         field="method")
-    if combine not in COMBINES:
-        raise InputError(f"unknown combine '{combine}'; use {', '.join(COMBINES)}",
-                         field="combine")
-    if reference not in REFERENCES:
-        raise InputError(f"unknown reference '{reference}'; use {', '.join(REFERENCES)}",
-                         field="reference")
-    lo, hi = (float(x) for x in speed_window_kmh)
-    if not (0.0 <= lo < hi <= 400.0):
-        raise InputError(f"needs 0 ≤ low < high ≤ 400 km/h, got {lo:g}-{hi:g}",
-                         field="speed_window_kmh")
-    if not (0.0 < min_span_kmh < hi - lo + 1e-9):
-        raise InputError(f"must be positive and fit in the speed window, got {min_span_kmh:g}",
-                         field="min_span_kmh")
-    if max_gap_s is not None and not (0.0 < max_gap_s <= MAX_GAP_LIMIT_S):
-        raise InputError(f"must be above 0 and at most {MAX_GAP_LIMIT_S:g} s, got "
-                         f"{max_gap_s:g}", field="max_gap_s")
-    if not (0.0 <= mass_std_kg < mass_kg):
-        raise InputError(f"must be at least 0 and below the test mass {mass_kg:g} kg, got "
-                         f"{mass_std_kg:g}", field="mass_std_kg")
-    for name, value, (low, high, unit) in (
-            ("air_temperature_c", air_temperature_c, AIR_TEMPERATURE_RANGE_C),
-            ("air_pressure_pa", air_pressure_pa, AIR_PRESSURE_RANGE_PA),
-            ("rolling_factor_per_k", rolling_factor_per_k, ROLLING_FACTOR_RANGE_PER_K)):
-        if value is not None and not (low <= value <= high):
-            raise InputError(f"must be between {low:g} and {high:g} {unit}, got {value:g}",
-                             field=name)
-    if not (0.5 <= smoothing_s <= 60.0):
-        raise InputError(f"must be between 0.5 and 60 s, got {smoothing_s:g}",
-                         field="smoothing_s")
+    return _analyze(logs, settings)
+
+
+def _analyze(logs, settings: CoastdownSettings) -> CoastdownResult:
+    """The analysis with checked settings (see :func:`analyze_coastdown`); one long chain
+    of steps kept together so the order of the notes follows the order of the work."""
+    veh, fs, cs = settings.vehicle, settings.fit, settings.corrections
+    mass_kg, mass_std_kg = veh.mass_kg, veh.mass_std_kg
+    rotating_mass_fraction, frontal_area_m2 = veh.rotating_mass_fraction, veh.frontal_area_m2
+    combine, method, terms = fs.combine, fs.method, fs.terms
+    reference, grade_from_elevation = cs.reference, cs.grade_from_elevation
+    air_temperature_c, air_pressure_pa = cs.air_temperature_c, cs.air_pressure_pa
+    lo, hi = settings.detection.speed_window_kmh
+    keep, drop, speed_column = settings.keep, settings.drop, settings.speed_column
     logs = [_as_log(x, speed_column) for x in logs]
-    settings = DetectionSettings(speed_window_kmh=(lo, hi), min_span_kmh=float(min_span_kmh),
-                                 max_gap_s=max_gap_s)
-    runs, scans = find_runs(logs, settings)
+    runs, scans = find_runs(logs, settings.detection)
     runs = apply_user_choice(runs, keep=keep, drop=drop)
     runs, notes = assign_directions(runs)
     notes = list(notes)
@@ -440,7 +364,7 @@ def analyze_coastdown(logs: Sequence, *, mass_kg: float,
         grade = run_grade(log, r.samples)
         known = float(grade_force_n(mass_kg, grade)) if (grade_from_elevation and grade
                                                          is not None) else 0.0
-        sign = {"A": 1.0, "B": -1.0}.get(r.group, 0.0) if combine == "joint" else 0.0
+        sign = {"A": 1.0, "B": -1.0}.get(r.group, 0.0) if combine != "none" else 0.0
         fit_runs_in.append(FitRun(r.run_id, t - t[0], log.speed_ms[r.samples], hw, sign, known,
                                   r.pair))
         extra[r.run_id] = grade
@@ -454,8 +378,7 @@ def analyze_coastdown(logs: Sequence, *, mass_kg: float,
     if any(np.any(fr.headwind_ms != 0) for fr in fit_runs_in):
         notes.append("measured wind used: the drag term uses air speed (ground speed plus "
                      "the measured headwind component)")
-    fit = fit_runs(fit_runs_in, mass_kg=inertial, method=method, combine=combine, terms=terms,
-                   window_s=smoothing_s, test_mass_kg=mass_kg)
+    fit = fit_runs(fit_runs_in, mass_kg=inertial, settings=fs, test_mass_kg=mass_kg)
     notes += fit.notes
     if fit.homogeneity_p < 0.01:
         notes.append(f"the runs scatter more than their noise explains (chi2 "
@@ -481,7 +404,7 @@ def analyze_coastdown(logs: Sequence, *, mass_kg: float,
         notes.append("air pressure taken from the logs; the option value is not used")
     try:
         factors, corr = correction_factors(reference, temperature_c=t_c, pressure_pa=p_pa,
-                                           rolling_factor_per_k=rolling_factor_per_k)
+                                           rolling_factor_per_k=cs.rolling_factor_per_k)
     except InputError as exc:
         if temps and exc.field == "air_temperature_c":   # the temperature came from the logs
             raise InputError(exc.message, field="air_temperature_c column of the logs"

@@ -78,7 +78,7 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 import scipy.sparse as sp
@@ -89,9 +89,10 @@ from ..errors import InputError
 from ..units import STANDARD_GRAVITY_MS2
 from .motion import (coast_speed_gradient, coast_speed_ms, interpolation_operator, odd_window,
                      savgol_operator)
+from .settings import COMBINES, METHODS, FitSettings
 
-METHODS = ("speed-time", "deceleration")
-COMBINES = ("joint", "pairs", "none")
+__all__ = ["METHODS", "COMBINES", "FitRun", "RunFit", "RunSeries", "FitOutcome", "SingleFit",
+           "MethodFit", "RunCheck", "Combination", "fit_runs", "combine_estimates"]
 #: p-value below which a run is flagged as disagreeing with the others
 FLAG_P_VALUE = 0.001
 _POLYORDER = 2
@@ -204,6 +205,13 @@ class FitOutcome:
         run_id → :class:`RunFit`.
     series : list of RunSeries
     notes : list of str
+    success, message, nfev : bool, str, int
+        As in :class:`scipy.optimize.OptimizeResult`: whether every solve
+        converged, the joint solve's message, and the function evaluations of
+        all solves (0 for the closed-form deceleration regression).
+    pairs_wind : PairsWind or None
+        With ``combine="pairs"`` and three terms: the steady wind the pairs
+        show and the bias f2·w² it leaves in f0.
     """
 
     method: str
@@ -228,6 +236,129 @@ class FitOutcome:
     runs: dict
     series: list
     notes: list = field(default_factory=list)
+    success: bool = True
+    message: str = ""
+    nfev: int = 0
+    pairs_wind: object = None
+
+
+@dataclass(frozen=True)
+class SingleFit:
+    """One run fitted alone: apparent coefficients (SI) and its noise.
+
+    Attributes
+    ----------
+    coef : (3,) array
+        Apparent (a, b, c) [N, N/(m/s), N/(m/s)²].
+    cov : (3, 3) array
+        Their covariance from the run's own noise.
+    noise_ms : float
+        Speed noise σ [m/s].
+    autocorrelation : float
+        Lag-one autocorrelation of the speed residuals [-] (0 for the
+        deceleration method).
+    residual_rms : float
+        [m/s] (speed-time) or [N] (deceleration).
+    samples : int
+    """
+
+    coef: np.ndarray
+    cov: np.ndarray
+    noise_ms: float
+    autocorrelation: float
+    residual_rms: float
+    samples: int
+
+
+@dataclass(frozen=True)
+class MethodFit:
+    """What one method gives for a set of runs, before the runs are combined.
+
+    ``theta`` and ``cov`` are the shared parameters (names as in
+    ``_param_names``) and their covariance; ``singles`` maps run_id to
+    :class:`SingleFit`; ``success``, ``message`` and ``nfev`` are as in
+    :class:`scipy.optimize.OptimizeResult` (the deceleration method is a
+    closed-form solve: always successful, no function evaluations).
+    """
+
+    theta: np.ndarray
+    cov: np.ndarray
+    r_squared: float
+    residual_rms: float
+    singles: dict
+    preps: list
+    v0s: np.ndarray
+    notes: list = field(default_factory=list)
+    success: bool = True
+    message: str = "linear least squares (closed form)"
+    nfev: int = 0
+
+
+@dataclass(frozen=True)
+class RunCheck:
+    """A run (or pair) checked against the others: deviation of its mean road-load
+    force [N] from their prediction, its t statistic, two-sided p-value, and the
+    prediction itself."""
+
+    deviation_n: float
+    t_statistic: float
+    p_value: float
+    predicted: np.ndarray
+
+
+@dataclass(frozen=True)
+class Combination:
+    """Per-run estimates combined (see :func:`combine_estimates`).
+
+    Attributes
+    ----------
+    cov_between : (p, p) array
+        Part of the covariance of θ from run-to-run variation.
+    between_dof : float or None
+        Degrees of freedom of the run-to-run covariance estimate (None: too
+        few runs).
+    chi2, dof, p_value : float, int, float
+        χ² test that the runs agree within their own noise.
+    omega : (d, d) array
+        Run-to-run covariance of one run's estimate.
+    checks : list of RunCheck
+    """
+
+    cov_between: np.ndarray
+    between_dof: float | None
+    chi2: float
+    dof: int
+    p_value: float
+    omega: np.ndarray
+    checks: list
+
+
+@dataclass(frozen=True)
+class _Physical:
+    """(f0, f1, f2) and covariance from the fitted parameters, with wind and slope."""
+
+    coef: np.ndarray
+    cov: np.ndarray
+    wind_ms: float | None = None
+    wind_std_ms: float | None = None
+    grade_force_n: float | None = None
+    grade_force_std_n: float | None = None
+
+
+@dataclass(frozen=True)
+class _Solve:
+    """A least-squares solve: parameters, covariance, residuals per run."""
+
+    theta: np.ndarray
+    cov: np.ndarray
+    residuals: list
+    v0s: np.ndarray | None = None
+    noise_ms: tuple = ()
+    autocorrelation: tuple = ()
+    residual_rms: tuple = ()
+    success: bool = True
+    message: str = "linear least squares (closed form)"
+    nfev: int = 0
 
 
 # ---------------------------------------------------------------------------
@@ -254,7 +385,7 @@ def _prediction_matrix(names, run: FitRun):
     return np.array([rows[n] for n in names]).T
 
 
-def _physical(names, theta, cov):
+def _physical(names, theta, cov) -> _Physical:
     """(f0, f1, f2), 3×3 covariance, wind (value, std) and G (value, std)."""
     p = dict(zip(names, theta))
     idx = {n: i for i, n in enumerate(names)}
@@ -269,16 +400,17 @@ def _physical(names, theta, cov):
         jac[1, idx["f1"]] = 1.0
     jac[2, idx["f2"]] = 1.0
     coef = np.array([p["c0"] - d * d / (4.0 * f2), p.get("f1", 0.0), f2])
-    cov3 = jac @ cov @ jac.T
-    wind = grade_force = None
+    out = _Physical(coef, jac @ cov @ jac.T)
     if "d" in idx:
         jw = np.zeros(len(names))
         jw[idx["d"]] = 1.0 / (2.0 * f2)
         jw[idx["f2"]] = -d / (2.0 * f2 * f2)
-        wind = (d / (2.0 * f2), float(np.sqrt(max(jw @ cov @ jw, 0.0))))
+        out = replace(out, wind_ms=d / (2.0 * f2),
+                      wind_std_ms=float(np.sqrt(max(jw @ cov @ jw, 0.0))))
     if "g" in idx:
-        grade_force = (p["g"], float(np.sqrt(max(cov[idx["g"], idx["g"]], 0.0))))
-    return coef, cov3, wind, grade_force
+        out = replace(out, grade_force_n=p["g"],
+                      grade_force_std_n=float(np.sqrt(max(cov[idx["g"], idx["g"]], 0.0))))
+    return out
 
 
 def _columns(names, sign, v, u):
@@ -322,7 +454,7 @@ def _decel_prepare(run: FitRun, mass_kg, window_s):
     return _DecelRun(run, vs, vs + hw, force, deriv.tocsr(), max(sigma, 1e-6))
 
 
-def _decel_solve(preps, names, mass_kg):
+def _decel_solve(preps, names, mass_kg) -> _Solve:
     """Weighted least squares over runs with the exact sandwich covariance."""
     xs, ys, ws = [], [], []
     for p in preps:
@@ -344,21 +476,24 @@ def _decel_solve(preps, names, mass_kg):
         meat += (mass_kg * p.sigma_ms) ** 2 * (g.T @ g)
     cov = bread @ meat @ bread
     resid = [y - x @ theta for x, y in zip(xs, ys)]
-    return theta, cov, resid, ys
+    return _Solve(theta, cov, resid)
 
 
-def _fit_deceleration(runs, names, mass_kg, window_s):
-    preps = [_decel_prepare(r, mass_kg, window_s) for r in runs]
-    theta, cov, resid, ys = _decel_solve(preps, names, mass_kg)
-    y_all = np.concatenate(ys)
-    r_all = np.concatenate(resid)
+def _fit_deceleration(runs, names, mass_kg, settings: FitSettings) -> MethodFit:
+    """Deceleration regression of all runs together and of each run alone."""
+    preps = [_decel_prepare(r, mass_kg, settings.smoothing_s) for r in runs]
+    sol = _decel_solve(preps, names, mass_kg)
+    y_all = np.concatenate([p.force for p in preps])
+    r_all = np.concatenate(sol.residuals)
     r2 = 1.0 - float(r_all @ r_all) / float(np.sum((y_all - y_all.mean()) ** 2))
     singles = {}
     for p in preps:
-        th, cv, res, _ = _decel_solve([p], ["c0", "f1", "f2"], mass_kg)
-        singles[p.run.run_id] = (th, cv, p.sigma_ms, 0.0, float(np.sqrt(np.mean(res[0] ** 2))),
-                                 len(p.run.time_s))
-    return theta, cov, r2, float(np.sqrt(np.mean(r_all ** 2))), singles, preps
+        one = _decel_solve([p], ["c0", "f1", "f2"], mass_kg)
+        singles[p.run.run_id] = SingleFit(
+            one.theta, one.cov, p.sigma_ms, 0.0,
+            float(np.sqrt(np.mean(one.residuals[0] ** 2))), len(p.run.time_s))
+    return MethodFit(sol.theta, sol.cov, r2, float(np.sqrt(np.mean(r_all ** 2))), singles,
+                     preps, np.array([p.speed[0] for p in preps]))
 
 
 # ---------------------------------------------------------------------------
@@ -385,8 +520,11 @@ def _ar1(resid):
     return float(r[1:] @ r[:-1] / den) if den > 0 else 0.0
 
 
-def _speed_time_solve(runs, names, mass_kg, theta0, v0s, sigmas):
-    """Joint least squares over runs; returns theta, v0s, cov of theta, per-run info."""
+def _speed_time_solve(runs, names, mass_kg, theta0, v0s, sigmas,
+                      settings: FitSettings) -> _Solve:
+    """Joint least squares of the speed-time solution over runs (see the module
+    docstring); the covariance of the shared parameters uses each run's noise and
+    residual autocorrelation."""
     p = len(names)
     mats = [_prediction_matrix(names, r) for r in runs]
     sizes = [len(r.time_s) for r in runs]
@@ -421,11 +559,11 @@ def _speed_time_solve(runs, names, mass_kg, theta0, v0s, sigmas):
 
     x0 = np.concatenate([theta0, v0s])
     sol = least_squares(lambda x: evaluate(x)[0], x0, jac=lambda x: evaluate(x)[1],
-                        method="lm", x_scale="jac", xtol=1e-10, ftol=1e-10, gtol=1e-10,
-                        max_nfev=100 * n_par)
+                        method="lm", x_scale="jac", xtol=settings.xtol, ftol=settings.ftol,
+                        gtol=settings.gtol, max_nfev=settings.max_nfev_per_parameter * n_par)
     x = sol.x
     res, jac = evaluate(x)
-    info = []
+    sigs, rhos, rmss, resids = [], [], [], []
     scale = np.empty(offsets[-1])
     for k, run in enumerate(runs):
         rk = res[offsets[k]:offsets[k + 1]] / weights[k]          # m/s
@@ -434,48 +572,57 @@ def _speed_time_solve(runs, names, mass_kg, theta0, v0s, sigmas):
         rho = _ar1(rk)
         infl = max(1.0, (1.0 + rho) / (1.0 - rho)) if rho < 0.99 else 199.0
         scale[offsets[k]:offsets[k + 1]] = 1.0 / (weights[k] * max(sig, 1e-9) * np.sqrt(infl))
-        info.append((sig, rho, float(np.sqrt(np.mean(rk ** 2))), rk))
+        sigs.append(sig)
+        rhos.append(rho)
+        rmss.append(float(np.sqrt(np.mean(rk ** 2))))
+        resids.append(rk)
     jw = jac * scale[:, None]
     try:
         cov_full = np.linalg.inv(jw.T @ jw)
     except np.linalg.LinAlgError:
         raise InputError("the runs do not determine the coefficients (too narrow a speed "
                          "range?)") from None
-    return x[:p], x[p:], cov_full[:p, :p], info, sol.success
+    return _Solve(x[:p], cov_full[:p, :p], resids, v0s=x[p:], noise_ms=tuple(sigs),
+                  autocorrelation=tuple(rhos), residual_rms=tuple(rmss),
+                  success=bool(sol.success), message=str(sol.message), nfev=int(sol.nfev))
 
 
-def _fit_speed_time(runs, names, mass_kg, window_s):
-    # start from the deceleration regression (also gives each run's speed noise)
-    preps = [_decel_prepare(r, mass_kg, window_s) for r in runs]
-    theta0, _, _, _ = _decel_solve(preps, names, mass_kg)
+def _fit_speed_time(runs, names, mass_kg, settings: FitSettings) -> MethodFit:
+    """Speed-time fit of all runs together and of each run alone, each started from
+    the deceleration regression (which also gives each run's speed noise)."""
+    preps = [_decel_prepare(r, mass_kg, settings.smoothing_s) for r in runs]
+    start = _decel_solve(preps, names, mass_kg)
     v0s = np.array([p.speed[0] for p in preps])
     sigmas = [p.sigma_ms for p in preps]
-    theta, v0s, cov, info, ok = _speed_time_solve(runs, names, mass_kg, theta0, v0s, sigmas)
-    fitted, meas = [], []
-    mats = [_prediction_matrix(names, r) for r in runs]
-    for k, run in enumerate(runs):
-        fitted.append(_speed_curve(mats[k] @ theta, v0s[k], run, mass_kg))
-        meas.append(run.speed_ms)
-    vm = np.concatenate(meas)
-    r_all = np.concatenate([i[3] for i in info])
+    sol = _speed_time_solve(runs, names, mass_kg, start.theta, v0s, sigmas, settings)
+    vm = np.concatenate([run.speed_ms for run in runs])
+    r_all = np.concatenate(sol.residuals)
     r2 = 1.0 - float(r_all @ r_all) / float(np.sum((vm - vm.mean()) ** 2))
     singles = {}
     single_names = ["c0", "f1", "f2"]
-    for k, (run, prep) in enumerate(zip(runs, preps)):
-        th0, _, _, _ = _decel_solve([prep], single_names, mass_kg)
-        th, v0, cv, inf1, _ = _speed_time_solve([run], single_names, mass_kg, th0,
-                                                np.array([prep.speed[0]]), [prep.sigma_ms])
-        singles[run.run_id] = (th, cv, inf1[0][0], inf1[0][1], inf1[0][2], len(run.time_s))
-    notes = [] if ok else ["the speed-time fit stopped before converging; check the runs"]
-    return theta, cov, r2, float(np.sqrt(np.mean(r_all ** 2))), singles, preps, v0s, notes
+    nfev, success, message = sol.nfev, sol.success, sol.message
+    for run, prep in zip(runs, preps):
+        th0 = _decel_solve([prep], single_names, mass_kg).theta
+        one = _speed_time_solve([run], single_names, mass_kg, th0, np.array([prep.speed[0]]),
+                                [prep.sigma_ms], settings)
+        nfev += one.nfev
+        if success and not one.success:
+            success, message = False, f"run {run.run_id} alone: {one.message}"
+        singles[run.run_id] = SingleFit(one.theta, one.cov, one.noise_ms[0],
+                                        one.autocorrelation[0], one.residual_rms[0],
+                                        len(run.time_s))
+    notes = [] if success else ["the speed-time fit stopped before converging "
+                                f"({message}); check the runs"]
+    return MethodFit(sol.theta, sol.cov, r2, float(np.sqrt(np.mean(r_all ** 2))), singles,
+                     preps, sol.v0s, notes, success=success, message=message, nfev=nfev)
 
 
 # ---------------------------------------------------------------------------
 # combining
 # ---------------------------------------------------------------------------
 
-def fit_runs(runs, *, mass_kg, method="speed-time", combine="joint", terms=3,
-             window_s=5.0, test_mass_kg=None) -> FitOutcome:
+def fit_runs(runs, *, mass_kg, settings: FitSettings | None = None, test_mass_kg=None,
+             **options) -> FitOutcome:
     """Fit road-load coefficients to prepared runs.
 
     Parameters
@@ -484,13 +631,10 @@ def fit_runs(runs, *, mass_kg, method="speed-time", combine="joint", terms=3,
         The used runs, with signs set (+1/−1) when directions are known.
     mass_kg : float
         Inertial mass [kg] (test mass plus rotating-mass allowance).
-    method : {"speed-time", "deceleration"}
-    combine : {"joint", "pairs", "none"}
-    terms : {3, 2}
-        3: f0 + f1·v + f2·v²; 2: f1 fixed at zero.
-    window_s : float
-        Savitzky-Golay window [s] for the deceleration method (and the start
-        values of the speed-time fit).
+    settings : FitSettings, optional
+        Method, combination, terms, smoothing window and solver tolerances
+        (default ``FitSettings()``); ``options`` (``method="deceleration"``
+        ...) change single fields of it.
     test_mass_kg : float, optional
         Test mass [kg] on which the road slope acts (default ``mass_kg``);
         only used to express the fitted slope force as a grade.
@@ -499,63 +643,57 @@ def fit_runs(runs, *, mass_kg, method="speed-time", combine="joint", terms=3,
     ----------
     See the module docstring.
     """
-    if method not in METHODS:
-        raise InputError(f"unknown method '{method}'; use {' or '.join(METHODS)}",
-                         field="method")
-    if combine not in COMBINES:
-        raise InputError(f"unknown combine '{combine}'; use {', '.join(COMBINES)}",
-                         field="combine")
-    if terms not in (2, 3):
-        raise InputError(f"terms must be 2 or 3, got {terms}", field="terms")
-    signs = {r.sign for r in runs}
-    both = {1.0, -1.0} <= signs
-    notes = []
-    if combine == "pairs":
-        return _fit_pairs(runs, mass_kg, method, terms, window_s)
-    if combine == "none":
-        runs = [FitRun(r.run_id, r.time_s, r.speed_ms, r.headwind_ms, 0.0, r.known_force_n,
-                       r.pair) for r in runs]
-    names = _param_names(combine, terms, both)
-    if method == "deceleration":
-        theta, cov, r2, rms, singles, preps = _fit_deceleration(runs, names, mass_kg, window_s)
-        v0s = np.array([p.speed[0] for p in preps])
-    else:
-        theta, cov, r2, rms, singles, preps, v0s, extra = _fit_speed_time(runs, names, mass_kg,
-                                                                         window_s)
-        notes += extra
+    settings = settings or FitSettings()
+    if options:
+        settings = replace(settings, **options)
+    both = {1.0, -1.0} <= {r.sign for r in runs}
+    if settings.combine == "pairs":
+        return _fit_pairs(runs, mass_kg, settings)
+    if settings.combine == "none":
+        runs = [replace(r, sign=0.0) for r in runs]
+    names = _param_names(settings.combine, settings.terms, both)
+    fitter = _fit_deceleration if settings.method == "deceleration" else _fit_speed_time
+    mf = fitter(runs, names, mass_kg, settings)
+    notes = list(mf.notes)
     mats = [_prediction_matrix(names, r) for r in runs]
-    betas = [singles[r.run_id][0] for r in runs]
-    covs = [singles[r.run_id][1] for r in runs]
-    comb = combine_estimates(betas, covs, mats, [_mean_regressors(r) for r in runs])
-    run_fits = {}
-    for r, (dev, tstat, pval, pred) in zip(runs, comb["checks"]):
-        th, cv, sig, rho, rrms, n = singles[r.run_id]
-        run_fits[r.run_id] = RunFit(r.run_id, th, cv, pred, dev, tstat, pval,
-                                    bool(pval < FLAG_P_VALUE), sig, rho, rrms, n)
-    coef, cov_w, wind, grade_force = _physical(names, theta, cov)
-    _, cov_b, wind_b, _ = _physical(names, theta, comb["cov_between"])
-    cov3, nu_eff, tfac = _widen(cov_w, cov_b, comb["between_dof"])
-    series = _series(runs, names, theta, v0s, preps, mass_kg)
+    singles = [mf.singles[r.run_id] for r in runs]
+    comb = combine_estimates([x.coef for x in singles], [x.cov for x in singles], mats,
+                             [_mean_regressors(r) for r in runs])
+    run_fits = {r.run_id: _run_fit(r.run_id, one, check)
+                for r, one, check in zip(runs, singles, comb.checks)}
+    within = _physical(names, mf.theta, mf.cov)
+    between = _physical(names, mf.theta, comb.cov_between)
+    cov3, nu_eff, tfac = _widen(within.cov, between.cov, comb.between_dof)
     grade = grade_std = None
-    if grade_force is not None:
+    if within.grade_force_n is not None:
         weight_n = (test_mass_kg or mass_kg) * STANDARD_GRAVITY_MS2
-        _, _, _, gf_tot = _physical(names, theta, cov + comb["cov_between"])
-        grade = grade_force[0] / weight_n          # sin θ ≈ tan θ for a road
-        grade_std = gf_tot[1] / weight_n
+        total = _physical(names, mf.theta, mf.cov + comb.cov_between)
+        grade = within.grade_force_n / weight_n          # sin θ ≈ tan θ for a road
+        grade_std = total.grade_force_std_n / weight_n
     wind_std = None
-    if wind is not None:
-        wind_std = float(np.hypot(wind[1], wind_b[1]))
-    if comb["between_dof"] is None:
+    if within.wind_ms is not None:
+        wind_std = float(np.hypot(within.wind_std_ms, between.wind_std_ms))
+    if comb.between_dof is None:
         notes.append("too few runs to estimate run-to-run variation; the uncertainty "
                      "covers measurement noise only")
-    return FitOutcome(method=method, combine=combine, terms=terms, coef=coef, cov=cov3,
-                      cov_internal=cov_w, wind_ms=None if wind is None else wind[0],
-                      wind_std_ms=wind_std, grade=grade, grade_std=grade_std,
-                      homogeneity_chi2=comb["chi2"], homogeneity_dof=comb["dof"],
-                      homogeneity_p=comb["p_value"], between_dof=comb["between_dof"],
-                      effective_dof=nu_eff, t_factor=tfac, cov_between=cov_b,
-                      r_squared=r2, residual_rms=rms, runs=run_fits, series=series,
-                      notes=notes)
+    return FitOutcome(method=settings.method, combine=settings.combine, terms=settings.terms,
+                      coef=within.coef, cov=cov3, cov_internal=within.cov,
+                      wind_ms=within.wind_ms, wind_std_ms=wind_std, grade=grade,
+                      grade_std=grade_std, homogeneity_chi2=comb.chi2,
+                      homogeneity_dof=comb.dof, homogeneity_p=comb.p_value,
+                      between_dof=comb.between_dof, effective_dof=nu_eff, t_factor=tfac,
+                      cov_between=between.cov, r_squared=mf.r_squared,
+                      residual_rms=mf.residual_rms, runs=run_fits,
+                      series=_series(runs, names, mf.theta, mf.v0s, mf.preps, mass_kg),
+                      notes=notes, success=mf.success, message=mf.message, nfev=mf.nfev)
+
+
+def _run_fit(run_id, one: SingleFit, check: RunCheck, coef=None, cov=None) -> RunFit:
+    """A run's report entry from its own fit and its check against the others."""
+    return RunFit(run_id, one.coef if coef is None else coef, one.cov if cov is None else cov,
+                  check.predicted, check.deviation_n, check.t_statistic, check.p_value,
+                  bool(check.p_value < FLAG_P_VALUE), one.noise_ms, one.autocorrelation,
+                  one.residual_rms, one.samples)
 
 
 def _sym_inv(m):
@@ -593,7 +731,7 @@ def _between_covariance(betas, covs, mats):
     return _psd((scatter - expected) / nu), nu, theta, cov
 
 
-def combine_estimates(betas, covs, mats, directions=None):
+def combine_estimates(betas, covs, mats, directions=None) -> Combination:
     """Combine per-run (or per-pair) estimates, allowing for run-to-run variation.
 
     Each run's estimate β_k (covariance C_k from its own noise) is taken as
@@ -613,9 +751,10 @@ def combine_estimates(betas, covs, mats, directions=None):
 
     Returns
     -------
-    dict with ``cov_between`` (p × p), ``between_dof`` (ν or None), ``chi2``,
-    ``dof``, ``p_value``, ``omega`` and ``checks`` (per run: deviation of the
-    mean force, its t statistic, two-sided p-value, prediction).
+    Combination
+        ``cov_between`` (p × p), ``between_dof`` (ν or None), ``chi2``,
+        ``dof``, ``p_value``, ``omega`` and ``checks`` (a :class:`RunCheck`
+        per run).
     """
     k, d = len(betas), len(betas[0])
     p = mats[0].shape[1]
@@ -646,9 +785,8 @@ def combine_estimates(betas, covs, mats, directions=None):
                             else stats.norm.sf(abs(tstat))))
         else:
             pred, dev, tstat, pv = mats[i] @ theta_fe, float("nan"), float("nan"), 1.0
-        checks.append((dev, tstat, pv, pred))
-    return {"cov_between": cov_between, "between_dof": nu, "chi2": chi2, "dof": dof,
-            "p_value": p_value, "omega": omega, "checks": checks}
+        checks.append(RunCheck(dev, float(tstat), pv, pred))
+    return Combination(cov_between, nu, chi2, dof, p_value, omega, checks)
 
 
 def _mean_regressors(run: FitRun, d=3):
@@ -698,7 +836,10 @@ def _series(runs, names, theta, v0s, preps, mass_kg):
     return out
 
 
-def _fit_pairs(runs, mass_kg, method, terms, window_s):
+def _fit_pairs(runs, mass_kg, settings: FitSettings) -> FitOutcome:
+    """Each run alone, averaged per opposite-direction pair, then over the pairs
+    (SAE J2263, UN GTR No. 15 Annex 4); the pairs' scatter gives the run-to-run part."""
+    terms = settings.terms
     names = ["c0", "f1", "f2"] if terms == 3 else ["c0", "f2"]
     pairs = {}
     for r in runs:
@@ -706,26 +847,14 @@ def _fit_pairs(runs, mass_kg, method, terms, window_s):
             raise InputError(f"run {r.run_id} has no opposite-direction run to pair with",
                              field="combine")
         pairs.setdefault(r.pair, []).append(r)
-    run_fits, series, notes = {}, [], []
-    coefs, covs = {}, {}
-    r2s, rmss = [], []
+    fitter = _fit_deceleration if settings.method == "deceleration" else _fit_speed_time
+    series, notes, coefs, covs, methods = [], [], {}, {}, {}
     for r in runs:
-        if method == "deceleration":
-            theta, cov, r2, rms, singles, preps = _fit_deceleration([r], names, mass_kg,
-                                                                    window_s)
-            v0s = np.array([preps[0].speed[0]])
-            sig, rho = preps[0].sigma_ms, 0.0
-        else:
-            theta, cov, r2, rms, singles, preps, v0s, extra = _fit_speed_time(
-                [r], names, mass_kg, window_s)
-            notes += extra
-            sig, rho = singles[r.run_id][2], singles[r.run_id][3]
-        full = _physical(names, theta, cov)
-        coefs[r.run_id], covs[r.run_id] = full[0], full[1]
-        r2s.append(r2)
-        rmss.append(rms)
-        series += _series([r], names, theta, v0s, preps, mass_kg)
-        run_fits[r.run_id] = (sig, rho, rms, len(r.time_s))
+        mf = fitter([r], names, mass_kg, settings)
+        notes += mf.notes
+        full = _physical(names, mf.theta, mf.cov)
+        coefs[r.run_id], covs[r.run_id], methods[r.run_id] = full.coef, full.cov, mf
+        series += _series([r], names, mf.theta, mf.v0s, mf.preps, mass_kg)
     pair_ids = list(pairs)
     pair_means = [np.mean([coefs[m.run_id] for m in pairs[j]], axis=0) for j in pair_ids]
     pair_covs = [sum(covs[m.run_id] for m in pairs[j]) / len(pairs[j]) ** 2 for j in pair_ids]
@@ -740,26 +869,99 @@ def _fit_pairs(runs, mass_kg, method, terms, window_s):
     comb = combine_estimates([pm[sel] for pm in pair_means],
                              [pc[np.ix_(sel, sel)] for pc in pair_covs], [eye] * n_pairs, grids)
     cov_b = np.zeros((3, 3))
-    cov_b[np.ix_(sel, sel)] = comb["omega"] / n_pairs
-    cov3, nu_eff, tfac = _widen(cov_w, cov_b, comb["between_dof"])
-    pair_check = dict(zip(pair_ids, comb["checks"]))
+    cov_b[np.ix_(sel, sel)] = comb.omega / n_pairs
+    cov3, nu_eff, tfac = _widen(cov_w, cov_b, comb.between_dof)
+    pair_check = dict(zip(pair_ids, comb.checks))
     fits = {}
     for r in runs:
-        sig, rho, rms, n = run_fits[r.run_id]
-        dev, tstat, pval, _ = pair_check[r.pair]
-        fits[r.run_id] = RunFit(r.run_id, coefs[r.run_id], covs[r.run_id], coef, dev, tstat,
-                                pval, bool(pval < FLAG_P_VALUE), sig, rho, rms, n)
-    notes.append("pairs: runs are averaged per opposite-direction pair; a steady wind w "
-                 "leaves f2·w² in f0 (combine 'joint' removes it); a run's check is its "
-                 "pair's against the other pairs")
-    if comb["between_dof"] is None:
+        mf = methods[r.run_id]
+        one = replace(mf.singles[r.run_id], residual_rms=mf.residual_rms)
+        fits[r.run_id] = _run_fit(r.run_id, one, replace(pair_check[r.pair], predicted=coef),
+                                  coef=coefs[r.run_id], cov=covs[r.run_id])
+    wind = _pairs_wind(pairs, coefs, covs, coef) if terms == 3 else None
+    notes.append(_pairs_wind_note(wind, coef))
+    if comb.between_dof is None:
         notes.append("one pair only: run-to-run variation cannot be estimated; the "
                      "uncertainty covers measurement noise only")
-    return FitOutcome(method=method, combine="pairs", terms=terms, coef=coef, cov=cov3,
-                      cov_internal=cov_w, wind_ms=None, wind_std_ms=None, grade=None,
-                      grade_std=None, homogeneity_chi2=comb["chi2"],
-                      homogeneity_dof=comb["dof"], homogeneity_p=comb["p_value"],
-                      between_dof=comb["between_dof"], effective_dof=nu_eff, t_factor=tfac,
-                      cov_between=cov_b, r_squared=float(np.mean(r2s)),
-                      residual_rms=float(np.sqrt(np.mean(np.square(rmss)))), runs=fits,
-                      series=series, notes=notes)
+    return FitOutcome(method=settings.method, combine="pairs", terms=terms, coef=coef,
+                      cov=cov3, cov_internal=cov_w, wind_ms=None, wind_std_ms=None,
+                      grade=None, grade_std=None, homogeneity_chi2=comb.chi2,
+                      homogeneity_dof=comb.dof, homogeneity_p=comb.p_value,
+                      between_dof=comb.between_dof, effective_dof=nu_eff, t_factor=tfac,
+                      cov_between=cov_b,
+                      r_squared=float(np.mean([m.r_squared for m in methods.values()])),
+                      residual_rms=float(np.sqrt(np.mean(np.square(
+                          [m.residual_rms for m in methods.values()])))),
+                      runs=fits, series=series, notes=notes,
+                      success=all(m.success for m in methods.values()),
+                      message="; ".join(dict.fromkeys(m.message for m in methods.values())),
+                      nfev=sum(m.nfev for m in methods.values()),
+                      pairs_wind=wind)
+
+
+@dataclass(frozen=True)
+class PairsWind:
+    """Steady wind along the road seen by the pairs, and the bias it leaves in f0.
+
+    With F = f0 + f1·v + f2·(v + s·w)² in the two directions (s = ±1), a run's
+    apparent linear term is f1 + 2·f2·w·s, so w = (f1_A − f1_B)/(4·f2) within
+    each pair; averaging the directions cancels the linear term but leaves
+    f2·w² in the constant term (SAE J2263 and UN GTR No. 15 Annex 4 average
+    the directions; the expansion is algebra).
+
+    Attributes
+    ----------
+    wind_ms, wind_std_ms : float
+        Mean over the pairs [m/s] and its standard uncertainty (the larger of
+        the noise-based one and the pairs' scatter, when there are several).
+    f0_bias_n, f0_bias_std_n : float
+        f2·w² [N] (f0 reads this much high) and its uncertainty by first-order
+        propagation plus the term f2·u_w² of the mean of a square.
+    """
+
+    wind_ms: float
+    wind_std_ms: float
+    f0_bias_n: float
+    f0_bias_std_n: float
+
+    def to_dict(self) -> dict:
+        return {"wind_ms": self.wind_ms, "wind_std_ms": self.wind_std_ms,
+                "f0_bias_n": self.f0_bias_n, "f0_bias_std_n": self.f0_bias_std_n}
+
+
+def _pairs_wind(pairs, coefs, covs, coef) -> PairsWind | None:
+    """Wind from the difference of the directions' linear terms within each pair."""
+    f2 = float(coef[2])
+    if not f2 > 0:
+        return None
+    winds, variances = [], []
+    for members in pairs.values():
+        by_sign = {}
+        for m in members:
+            by_sign.setdefault(m.sign, []).append(m.run_id)
+        if set(by_sign) != {1.0, -1.0}:
+            return None                 # directions unknown: nothing to tell
+        a, b = by_sign[1.0][0], by_sign[-1.0][0]
+        winds.append((coefs[a][1] - coefs[b][1]) / (4.0 * f2))
+        variances.append((covs[a][1, 1] + covs[b][1, 1]) / (4.0 * f2) ** 2)
+    w = float(np.mean(winds))
+    u2 = float(np.sum(variances)) / len(winds) ** 2
+    if len(winds) > 1:
+        u2 = max(u2, float(np.var(winds, ddof=1)) / len(winds))
+    u = float(np.sqrt(u2))
+    return PairsWind(w, u, f2 * w * w, float(np.hypot(2.0 * f2 * abs(w) * u, f2 * u2)))
+
+
+def _pairs_wind_note(wind: PairsWind | None, coef) -> str:
+    """The note of a pairs fit: what averaging leaves in f0, sized when it can be."""
+    head = ("pairs: runs are averaged per opposite-direction pair; a run's check is its "
+            "pair's against the other pairs; ")
+    if wind is None:
+        return head + ("a steady wind w leaves f2·w² in f0 (its size needs the f1 term and "
+                       "known directions; combine 'joint' removes it)")
+    share = 100.0 * wind.f0_bias_n / coef[0] if coef[0] > 0 else float("nan")
+    return head + (f"the directions' f1 differ as a steady wind of {abs(wind.wind_ms):.2f} ± "
+                   f"{wind.wind_std_ms:.2f} m/s along the road would make; averaging cancels "
+                   f"its linear effect only, so f0 holds f2·w² ≈ {wind.f0_bias_n:.2g} ± "
+                   f"{wind.f0_bias_std_n:.2g} N too much ({share:.2g} % of f0, not in its "
+                   "interval); combine 'joint' removes it")

@@ -21,6 +21,7 @@ from typing import Iterable
 import numpy as np
 
 from ..errors import InputError
+from ..plain import json_text
 from ..report.common import atomic_write, check_target, write_text_atomic
 from ..units import KMH_MS
 
@@ -43,24 +44,6 @@ def _num(x: float) -> str:
     return text
 
 
-def _json_ready(obj):
-    """Plain JSON data: numpy scalars and arrays as Python values, NaN and inf as null."""
-    if isinstance(obj, dict):
-        return {str(k): _json_ready(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_json_ready(v) for v in obj]
-    if isinstance(obj, np.ndarray):
-        return _json_ready(obj.tolist())
-    if isinstance(obj, (np.floating, float)):
-        v = float(obj)
-        return v if np.isfinite(v) else None
-    if isinstance(obj, np.integer):
-        return int(obj)
-    if isinstance(obj, np.bool_):
-        return bool(obj)
-    return obj
-
-
 def _require_finite(result, path) -> None:
     block = result.road_load_block()
     values = [block["f0_n"], block["f1_n_per_kmh"], block["f2_n_per_kmh2"]]
@@ -79,7 +62,7 @@ def road_load_yaml(result, *, inputs: Iterable = ()) -> str:
     lines = [
         "# Road load from a coast-down analysis (tractive coastdown).",
         "# Use it in a vehicle file as   road_load: {from_coastdown: THIS_FILE}",
-        "# or paste the keys below under road_load:.",
+        "# or paste the keys under road_load: below into a vehicle's road_load:.",
         f"# logs: {', '.join(str(x) for x in inputs) or '-'}",
         f"# method {result.method}, combine {result.combine}, {result.terms} terms, "
         f"speed window {result.speed_window_kmh[0]:g}-{result.speed_window_kmh[1]:g} km/h, "
@@ -95,16 +78,24 @@ def road_load_yaml(result, *, inputs: Iterable = ()) -> str:
         lines.append("# not corrected: coefficients at test conditions")
     for text in corr.get("not_applied", []):
         lines.append(f"# note: {text}")
-    lines.append("# covariance of (f0, f1, f2) in N^2, N^2/(km/h), N^2/(km/h)^2 ...")
-    lines += [f"f0_n: {_num(block['f0_n'])}",
-              f"f1_n_per_kmh: {_num(block['f1_n_per_kmh'])}",
-              f"f2_n_per_kmh2: {_num(block['f2_n_per_kmh2'])}"]
+    lines += ["# test mass and rotating-mass fraction of the coast-down: from_coastdown scales",
+              "# f0 and f1 to another vehicle mass (rolling resistance ~ mass) and warns when",
+              "# the vehicle's rotating-mass fraction differs",
+              f"test_mass_kg: {_num(result.mass_kg)}",
+              f"test_rotating_mass_fraction: {_num(result.rotating_mass_fraction)}",
+              "# the road load: paste the keys below under a vehicle's road_load: if you like",
+              "road_load:",
+              "  # covariance of (f0, f1, f2) in N^2, N^2/(km/h), N^2/(km/h)^2 ...",
+              f"  f0_n: {_num(block['f0_n'])}",
+              f"  f1_n_per_kmh: {_num(block['f1_n_per_kmh'])}",
+              f"  f2_n_per_kmh2: {_num(block['f2_n_per_kmh2'])}"]
     if "reference_air_density_kg_m3" in block:
-        lines += ["# air density at which f2 holds (a study rescales f2 to its ambient air)",
-                  f"reference_air_density_kg_m3: {_num(block['reference_air_density_kg_m3'])}"]
-    lines += ["covariance:"]
+        lines += ["  # air density at which f2 holds (a study rescales f2 to its ambient air)",
+                  "  reference_air_density_kg_m3: "
+                  f"{_num(block['reference_air_density_kg_m3'])}"]
+    lines += ["  covariance:"]
     for row in block["covariance"]:
-        lines.append("  - [" + ", ".join(_num(x) for x in row) + "]")
+        lines.append("    - [" + ", ".join(_num(x) for x in row) + "]")
     return "\n".join(lines) + "\n"
 
 
@@ -130,11 +121,8 @@ def write_road_load(result, path, *, inputs: Iterable = ()):
     target = check_target(path, inputs, suffixes=ROAD_LOAD_SUFFIXES)
     if target.suffix.lower() != ".json":
         return write_road_load_yaml(result, path, inputs=inputs)
-    import json
-
     _require_finite(result, path)
-    text = json.dumps(_json_ready(result.to_dict()), indent=2, allow_nan=False,
-                      ensure_ascii=False) + "\n"
+    text = json_text(result.to_dict()) + "\n"
     return write_text_atomic(path, text, inputs=inputs)
 
 

@@ -12,7 +12,9 @@ Steps, per log:
 3. **Coasting segments**: the speed is put on a uniform grid and its
    derivative taken with a Savitzky-Golay filter over ``detect_window_s``;
    a segment is a stretch where the vehicle decelerates by more than
-   ``decel_min_ms2`` (holes shorter than 1 s closed). Acceleration ends a
+   ``decel_min_ms2`` (holes shorter than 1 s closed; two stretches that only
+   noise separates, a hole no longer than the detection window across which
+   the speed does not rise by more than 2 σ, are one, with a note). Acceleration ends a
    segment; so does a change of the ``run`` or ``direction`` label. Half the
    detection window plus 1 s is dropped at each end of a segment, where the
    filter blurs the change from driving to coasting.
@@ -51,10 +53,15 @@ from scipy.ndimage import median_filter
 from scipy.signal import savgol_filter
 
 from ..errors import InputError
+from ..limits import MAX_TEST_SPEED_KMH
 from ..units import KMH_MS, STANDARD_GRAVITY_MS2
 from .logs import CoastdownLog
 from .motion import odd_window
 
+#: longest gap [s] a user may allow inside a run (a longer one is no coasting record)
+MAX_GAP_LIMIT_S = 60.0
+#: highest speed [km/h] of the speed window
+MAX_WINDOW_SPEED_KMH = MAX_TEST_SPEED_KMH
 #: Gaussian σ per median absolute deviation (Rousseeuw and Croux 1993)
 MAD_TO_SIGMA = 1.482602218505602
 
@@ -97,6 +104,21 @@ class DetectionSettings:
     brake_window_s: float = 1.5
     brake_margin_ms2: float = 0.15
     spike_floor_kmh: float = 1.0
+
+    def __post_init__(self):
+        lo, hi = (float(x) for x in self.speed_window_kmh)
+        if not (0.0 <= lo < hi <= MAX_WINDOW_SPEED_KMH):
+            raise InputError(f"needs 0 ≤ low < high ≤ {MAX_WINDOW_SPEED_KMH:g} km/h, got "
+                             f"{lo:g}-{hi:g}", field="speed_window_kmh")
+        object.__setattr__(self, "speed_window_kmh", (lo, hi))
+        span = float(self.min_span_kmh)
+        if not (0.0 < span < hi - lo + 1e-9):
+            raise InputError(f"must be positive and fit in the speed window, got {span:g}",
+                             field="min_span_kmh")
+        gap = self.max_gap_s
+        if gap is not None and not (0.0 < gap <= MAX_GAP_LIMIT_S):
+            raise InputError(f"must be above 0 and at most {MAX_GAP_LIMIT_S:g} s, got "
+                             f"{gap:g}", field="max_gap_s")
 
 
 @dataclass(frozen=True)
@@ -190,7 +212,7 @@ class _Segment:
     grid_v: np.ndarray          # smoothed speed on the grid
     grid_a: np.ndarray          # brake-window deceleration on the grid
     after_accel_s: float | None
-    notes: list = field(default_factory=list)
+    notes: list = field(default_factory=list)   # about the segment itself (joins)
 
 
 def _spike_mask(v, dt0, floor_ms):
@@ -219,6 +241,36 @@ def _close_holes(mask, max_hole):
     for a, b in holes:
         if a > 0 and b < len(mask) and b - a <= max_hole:
             out[a:b] = True
+    return out
+
+
+def _join_noise_holes(stretches, vs, tg, sigma_ms, det_n, changes):
+    """Join coasting stretches that only noise separates; yields (start, stop, notes).
+
+    With noisy speeds (a 1 Hz phone log) the smoothed deceleration of a coast
+    at low speed (about 0.1 m/s²) can dip above the threshold for a moment and
+    split one coast into two pieces. Two stretches are one coast when the hole
+    between them is no longer than the detection window, no ``run`` or
+    ``direction`` label changes in it, and the smoothed speed does not rise
+    across it by more than twice the speed noise σ (a throttle that ends a
+    coast raises the speed for longer and by more). The joined run carries a
+    note saying so; the brake check and the fit then judge the whole.
+    """
+    out = []
+    for a, b in stretches:
+        if out:
+            a0, b0, notes = out[-1]
+            hole = a - b0
+            rise = float(vs[a] - vs[b0 - 1])
+            label_change = bool(np.any((changes >= b0 - 1) & (changes <= a)))
+            if hole <= det_n and not label_change and rise <= 2.0 * sigma_ms:
+                notes = notes + [f"one coast joined across {tg[a] - tg[b0 - 1]:.0f} s at "
+                                 f"{tg[b0 - 1]:.0f} s where speed noise hid the deceleration "
+                                 f"(speed change {rise / KMH_MS:+.1f} km/h, noise "
+                                 f"{sigma_ms / KMH_MS:.1f} km/h)"]
+                out[-1] = (a0, b, notes)
+                continue
+        out.append((a, b, []))
     return out
 
 
@@ -267,12 +319,16 @@ def find_runs(logs, settings: DetectionSettings):
             a_brake = savgol_filter(vg, br_n, 1, deriv=1, delta=dt0, mode="interp")
             mask = (a_det < -settings.decel_min_ms2) & (vs > 1.0)
             mask = _close_holes(mask, int(round(1.0 / dt0)))
+            changes = []
             for labels in (log.run, log.direction):
                 if labels is not None:
                     lg = _labels_on_grid(labels, t, tg)
                     change = np.flatnonzero(lg[1:] != lg[:-1]) + 1
                     mask[change] = False
-            for a, b in _true_runs(mask):
+                    changes.append(change)
+            changes = np.concatenate(changes) if changes else np.array([], int)
+            for a, b, joined in _join_noise_holes(_true_runs(mask), vs, tg, sigma, det_n,
+                                                  changes):
                 if (tg[b - 1] - tg[a]) < 3.0 or (vs[a] - vs[b - 1]) < 5.0 * KMH_MS:
                     continue
                 # the detection derivative blurs the segment ends by half its window:
@@ -291,7 +347,7 @@ def find_runs(logs, settings: DetectionSettings):
                     if acc.size and tg[b + acc[0]] - tg[b - 1] < 2.0 * settings.detect_window_s:
                         after = float(tg[b + acc[0]])
                 segments.append(_Segment(li, float(tg[g0]), float(tg[g1 - 1]), tg[g0:g1],
-                                         vs[g0:g1], a_brake[g0:g1], after))
+                                         vs[g0:g1], a_brake[g0:g1], after, joined))
                 n_seg += 1
         vmax = float(np.max(v)) / KMH_MS if len(v) else 0.0
         scans.append(LogScan(log.source, log.n, int(log.n - len(valid)), int(spikes.sum()),
@@ -342,7 +398,7 @@ def _coasting_reference(segments, settings):
 
 def _judge(seg, run_id, log, clean, ref, thr, scan, s: DetectionSettings) -> Run:
     keep, spike_idx, spike_dev = clean
-    notes = []
+    notes = list(seg.notes)
     t0, t1 = seg.t_start, seg.t_end
     dt0 = scan.sample_period_s
     ref_a = ref[0] + ref[1] * seg.grid_v + ref[2] * seg.grid_v ** 2
