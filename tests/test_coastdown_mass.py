@@ -42,8 +42,8 @@ def test_block_records_the_test_mass_and_fraction(written, block):
 def test_rolling_terms_scale_with_mass_and_aero_stays(written):
     folder, result = written
     m_new = 1.1 * M_TEST
-    veh = _vehicle(folder, "heavier", m_new)
-    rl, notes, warnings = road_load_at_mass(veh.road_load, veh.mass_kg,
+    veh = _vehicle(folder, "heavier", M_TEST)       # read at the test mass: unscaled
+    rl, notes, warnings = road_load_at_mass(veh.road_load, m_new,
                                             veh.rotating_mass_fraction)
     ratio = m_new / M_TEST
     # rolling resistance proportional to the normal load (Wong, Theory of Ground Vehicles,
@@ -56,6 +56,11 @@ def test_rolling_terms_scale_with_mass_and_aero_stays(written):
     assert np.allclose(rl.covariance, d @ result.covariance @ d, rtol=1e-12, atol=0)
     assert len(notes) == 1 and "f2 unchanged" in notes[0] and "common practice" in notes[0]
     assert warnings == ()
+    # a vehicle file at the new mass gets the same road load when it is read, once
+    heavy = _vehicle(folder, "heavier2", m_new)
+    assert heavy.road_load.f0_n == pytest.approx(rl.f0_n, rel=1e-14)
+    again, notes2, _ = road_load_at_mass(heavy.road_load, m_new, heavy.rotating_mass_fraction)
+    assert again.f0_n == heavy.road_load.f0_n and notes2 == ()
 
 
 def test_same_mass_is_left_alone(written):

@@ -54,6 +54,10 @@ class Vehicle:
         Parsed ``performance`` block (see :mod:`tractive.performance`).
     source : str
         File the vehicle came from ("" when built in code).
+    notes, warnings : tuple of str
+        What reading the file did that a user should know (a measured road
+        load carried to the vehicle's mass) and what looks wrong (a rotating-mass
+        fraction other than the coast-down's).
     """
 
     name: str
@@ -64,6 +68,8 @@ class Vehicle:
     performance: Any = None
     source: str = ""
     extras: dict = field(default_factory=dict)
+    notes: tuple = ()
+    warnings: tuple = ()
 
     @property
     def inertial_mass_kg(self) -> float:
@@ -87,6 +93,10 @@ class Vehicle:
             out["powertrain"] = self.powertrain.to_dict()
         if self.performance is not None and hasattr(self.performance, "to_dict"):
             out["performance"] = self.performance.to_dict()
+        if self.notes:
+            out["notes"] = list(self.notes)
+        if self.warnings:
+            out["warnings"] = list(self.warnings)
         return out
 
 
@@ -112,6 +122,10 @@ def vehicle_from_section(sec: Section, *, name_default: str | None = None) -> Ve
     rmf = sec.number("rotating_mass_fraction", required=False,
                      default=DEFAULT_ROTATING_MASS_FRACTION, min=0.0, max=1.0)
     road_load = parse_road_load(sec.section("road_load"))
+    notes, warnings = (), ()
+    if "test_mass_kg" in (getattr(road_load, "given", None) or {}):
+        from .coastdown.mass import road_load_at_mass
+        road_load, notes, warnings = road_load_at_mass(road_load, mass_kg, rmf)
     powertrain = None
     if sec.has("powertrain"):
         from .powertrain import parse_powertrain
@@ -124,7 +138,8 @@ def vehicle_from_section(sec: Section, *, name_default: str | None = None) -> Ve
     sec.finish()
     return Vehicle(name=name, mass_kg=mass_kg, rotating_mass_fraction=rmf, road_load=road_load,
                    powertrain=powertrain, performance=performance, source=sec.file or "",
-                   extras={"mass_std_kg": mass_std_kg} if mass_std_kg else {})
+                   extras={"mass_std_kg": mass_std_kg} if mass_std_kg else {},
+                   notes=tuple(notes), warnings=tuple(warnings))
 
 
 def parse_road_load(sec: Section):

@@ -79,6 +79,8 @@ def energy_command(vehicle_file, cycles, dt_s, mix_shares, units, as_json):
                    f"{m[f'negative_energy_wh_per_{per}']:.1f} Wh/{per} braking")
     if vehicle.powertrain is not None:
         _powertrain_table(vehicle, data, units)
+    for text in list(vehicle.notes) + list(vehicle.warnings):
+        click.echo(f"note: {text}")
 
 
 def _shares(text: str) -> list:

@@ -65,14 +65,16 @@ def road_load_at_mass(road_load, mass_kg: float, rotating_mass_fraction: float):
     source = given.get("from_coastdown", "the coast-down file")
     if m_test is None:
         return road_load, tuple(notes), tuple(warnings)
-    ratio = float(mass_kg) / float(m_test)
+    m_ref = given.get("mass_scaled_to_kg", m_test)      # already carried to a mass
+    ratio = float(mass_kg) / float(m_ref)
     if abs(ratio - 1.0) > SAME_MASS_REL:
         scale = np.array([ratio, ratio, 1.0])
         cov = road_load.covariance
         if cov is not None:
             cov = np.asarray(cov, float) * np.outer(scale, scale)
         road_load = replace(road_load, f0_n=road_load.f0_n * ratio,
-                            f1_n_per_kmh=road_load.f1_n_per_kmh * ratio, covariance=cov)
+                            f1_n_per_kmh=road_load.f1_n_per_kmh * ratio, covariance=cov,
+                            given={**given, "mass_scaled_to_kg": float(mass_kg)})
         notes.append(f"road load from {source} measured at {float(m_test):g} kg, vehicle "
                      f"{float(mass_kg):g} kg: rolling terms f0 and f1 scaled by "
                      f"{ratio:.4g} (rolling resistance proportional to mass, common "

@@ -249,6 +249,10 @@ def _build_variants(spec: StudySpec, rng, n: int, warnings: list) -> tuple:
             [(m.name, m.changes) for m in spec.modifications]:
         z_changes[owner] = [standard_normal_draws(rng, n) for _ in changes]
     base_mc, uncertain = _build_baseline(spec, z_base, z_changes, n, warnings)
+    for label, vehicle in [("baseline", spec.baseline)] + \
+            [(f"modification '{m.name}'", m.vehicle) for m in spec.modifications
+             if m.vehicle is not None]:
+        warnings += [f"{label}: {t}" for t in tuple(vehicle.notes) + tuple(vehicle.warnings)]
     for owner, changes in [("baseline", spec.baseline_changes)] + \
             [(f"modification '{m.name}'", m.changes) for m in spec.modifications]:
         for ch in changes:
