@@ -106,7 +106,7 @@ def _summary_table(ws, result):
     for c in range(3, ws.max_column + 1):
         top = ws.cell(row=3, column=c).value
         if top is not None:
-            group = keys[top]
+            group = keys.get(top)           # None: a group that is no metric (the verdict)
         blocks.append((c, group, ws.cell(row=4, column=c).value))
     table = {}
     for r in range(5, ws.max_row + 1):
