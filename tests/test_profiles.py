@@ -402,7 +402,7 @@ def drive_m(t, a=1.0, v_max=10.0, length_m=600.0):
 
 
 def test_local_east_north_steps_match_the_haversine_distance():
-    from tractive.profiles import _local_east_north_m
+    from tractive.geo import local_east_north_m as _local_east_north_m
 
     # steps of up to 1 km in every direction: sqrt(de^2 + dn^2) equals the haversine
     # great-circle distance (Sinnott 1984) to a relative (step / R)^2 ~ 1e-8
