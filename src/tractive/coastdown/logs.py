@@ -35,6 +35,8 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
+from ..geo import haversine_distance_m, initial_bearing_deg, read_gpx_track
+from ..readfiles import note_read
 from ..units import KMH_MS, MPH_MS
 
 #: speed columns and their factor to m/s (exact, NIST SP 811)
@@ -130,6 +132,7 @@ def read_coastdown_log(path: str | os.PathLike, *, speed_column: str | None = No
 
 def _read_csv(path: Path, speed_column: str | None) -> CoastdownLog:
     src = str(path)
+    note_read(path)
     try:
         with open(path, newline="", encoding="utf-8-sig") as fh:
             lines = fh.read().splitlines()
@@ -259,51 +262,36 @@ def _timestamps(cells, line_no, src, name):
 
 
 def _read_gpx(path: Path) -> CoastdownLog:
-    import gpxpy
-    import gpxpy.geo
+    """A coast-down log from a GPX track (:func:`tractive.geo.read_gpx_track`).
 
-    src = str(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError("file not found", file=src) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read file ({exc.__class__.__name__})", file=src) from None
-    try:
-        gpx = gpxpy.parse(text)
-    except Exception as exc:  # gpxpy raises several exception types for bad XML
-        raise InputError(f"not a valid GPX file ({' '.join(str(exc).split())[:80]})",
-                         file=src) from None
-    points = [p for trk in gpx.tracks for seg in trk.segments for p in seg.points]
-    if len(points) < 10:
-        raise InputError(f"only {len(points)} track points; a coast-down log needs many more",
+    Speed at each point is the speed the point states (GPX 1.0 ``<speed>`` or a
+    ``speed`` extension), else the haversine distance between its neighbours
+    over their time difference (central difference; one-sided at the ends);
+    heading is the initial great-circle bearing between the same neighbours.
+    """
+    track = read_gpx_track(path, routes=False)
+    src = track.source
+    if len(track) < 10:
+        raise InputError(f"only {len(track)} track points; a coast-down log needs many more",
                          file=src)
-    if any(p.time is None for p in points):
-        raise InputError("track points without time; a coast-down log needs timed points",
-                         file=src, field="time")
-    t_abs = np.array([p.time.timestamp() for p in points])
-    time_s = t_abs - t_abs[0]
+    time_s = track.time_s
     bad = np.flatnonzero(np.diff(time_s) <= 0)
     if bad.size:
-        raise InputError(f"time must increase: point {bad[0] + 2} is not later than point "
-                         f"{bad[0] + 1}", file=src, field="time")
-    lat = np.radians([p.latitude for p in points])
-    lon = np.radians([p.longitude for p in points])
+        raise track.point_error(int(bad[0]) + 1, f"time must increase: point {bad[0] + 2} is "
+                                f"not later than point {bad[0] + 1}")
+    lat, lon, n = track.lat_deg, track.lon_deg, len(track)
     # central differences on the sphere (haversine distance, initial bearing)
-    i0 = np.r_[0, np.arange(len(points) - 2), len(points) - 2]
-    i1 = np.r_[1, np.arange(2, len(points)), len(points) - 1]
-    dlat = lat[i1] - lat[i0]
-    dlon = lon[i1] - lon[i0]
-    hav = np.sin(dlat / 2) ** 2 + np.cos(lat[i0]) * np.cos(lat[i1]) * np.sin(dlon / 2) ** 2
-    dist = 2.0 * gpxpy.geo.EARTH_RADIUS * np.arcsin(np.sqrt(np.clip(hav, 0.0, 1.0)))
+    i0 = np.r_[0, np.arange(n - 2), n - 2]
+    i1 = np.r_[1, np.arange(2, n), n - 1]
+    dist = haversine_distance_m(lat[i0], lon[i0], lat[i1], lon[i1])
     speed = dist / (time_s[i1] - time_s[i0])
-    given = np.array([np.nan if p.speed is None else p.speed for p in points], dtype=float)
+    given = track.speed_ms
     speed = np.where(np.isfinite(given), given, speed)
-    heading = np.degrees(np.arctan2(np.sin(dlon) * np.cos(lat[i1]),
-                                    np.cos(lat[i0]) * np.sin(lat[i1])
-                                    - np.sin(lat[i0]) * np.cos(lat[i1]) * np.cos(dlon))) % 360.0
-    elev = np.array([np.nan if p.elevation is None else p.elevation for p in points], float)
-    return CoastdownLog(source=src, time_s=time_s, speed_ms=speed,
-                        line=np.zeros(len(points), dtype=int), speed_column="gpx",
-                        heading_deg=heading,
+    neg = np.flatnonzero(speed < 0)
+    if neg.size:
+        raise track.point_error(int(neg[0]), "its <speed> must not be negative [m/s]")
+    heading = initial_bearing_deg(lat[i0], lon[i0], lat[i1], lon[i1])
+    elev = track.elevation_m
+    return CoastdownLog(source=src, time_s=time_s, speed_ms=speed, line=track.line,
+                        speed_column="gpx", heading_deg=heading,
                         elevation_m=elev if np.isfinite(elev).any() else None)
