@@ -120,8 +120,10 @@ def test_semicolon_delimited_file(tmp_path):
 
 
 def test_grade_from_elevation_is_exact_for_a_steady_climb_with_a_stop(tmp_path):
-    # 10 m/s, standing still from 80 to 120 s; elevation rises 4 m per 100 m of road:
-    # rise/run = 0.04 everywhere, also while stopped (the vehicle stands on the slope)
+    # 10 m/s, standing still from 80 to 120 s; elevation rises 4 m per 100 m of road
+    # (along the slope): sin(theta) = 0.04, so the grade rise/run is
+    # tan(theta) = 0.04 / sqrt(1 - 0.04^2) everywhere (trigonometry), also while stopped
+    # (the vehicle stands on the slope)
     t = np.arange(0, 201.0)
     v = np.where((t >= 80) & (t <= 120), 0.0, 10.0)
     s = np.concatenate([[0], np.cumsum(0.5 * (v[1:] + v[:-1]))])
@@ -129,13 +131,16 @@ def test_grade_from_elevation_is_exact_for_a_steady_climb_with_a_stop(tmp_path):
     text = "time_s,speed_ms,elevation_m\n" + "".join(
         f"{a:g},{b:g},{float(c)!r}\n" for a, b, c in zip(t, v, z))
     p = read_speed_csv(write(tmp_path, "climb.csv", text))
-    np.testing.assert_allclose(p.grade_fraction, 0.04, rtol=0, atol=1e-9)
+    np.testing.assert_allclose(p.grade_fraction, 0.04 / math.sqrt(1 - 0.04 ** 2), rtol=0,
+                               atol=1e-9)
 
 
 def test_grade_from_elevation_follows_a_parabola_away_from_the_ends(tmp_path):
     # a least-squares straight line over a window centred on a point of a parabola
     # z = a s^2 has the slope 2 a s of its tangent there (property of least squares on a
-    # symmetric window), so away from the ends the grade is exactly 2 a s
+    # symmetric window), so away from the ends the slope is exactly 2 a s; the distance
+    # runs along the road, so that slope is sin(theta) and the grade is its tangent
+    # 2 a s / sqrt(1 - (2 a s)^2) (trigonometry)
     a = 1e-5
     t = np.arange(0, 301.0)
     v = np.full_like(t, 5.0)
@@ -144,7 +149,9 @@ def test_grade_from_elevation_follows_a_parabola_away_from_the_ends(tmp_path):
         f"{x:g},{y:g},{float(a * d * d)!r}\n" for x, y, d in zip(t, v, s))
     p = read_speed_csv(write(tmp_path, "parabola.csv", text), grade_window_m=100.0)
     inner = (s >= 60) & (s <= s[-1] - 60)
-    np.testing.assert_allclose(p.grade_fraction[inner], 2 * a * s[inner], rtol=0, atol=1e-9)
+    sine = 2 * a * s[inner]
+    np.testing.assert_allclose(p.grade_fraction[inner], sine / np.sqrt(1 - sine ** 2), rtol=0,
+                               atol=1e-9)
 
 
 def test_grade_from_elevation_is_clipped(tmp_path):
@@ -169,7 +176,7 @@ def _csv_error(tmp_path, text, **kw):
 
 
 @pytest.mark.parametrize("text, field, line, words", [
-    ("t,speed_kmh\n0,1\n1,2\n", "time_s", 1, "no time_s"),
+    ("t,speed_kmh\n0,1\n1,2\n", None, 1, "pass --time-column t"),
     ("time_s,speed\n0,1\n1,2\n", "speed", 1, "speed_kmh, speed_mph or speed_ms"),
     ("time_s,velocity\n0,1\n1,2\n", "velocity", 1, "speed_kmh, speed_mph or speed_ms"),
     ("time_s,v\n0,1\n1,2\n", "v", 1, "speed_kmh, speed_mph or speed_ms"),
@@ -183,7 +190,7 @@ def _csv_error(tmp_path, text, **kw):
     ("time_s,speed_kmh\n0,1\n1,-2\n", "speed_kmh", 3, "negative"),
     ("time_s,speed_kmh\n0,1\n1,2\n1,3\n", "time_s", 4, "increase"),
     ("time_s,speed_kmh\n0,1\n2,2\n1,3\n", "time_s", 4, "increase"),
-    ("time_s,speed_kmh\n0,1\n1,2\n100,3\n", "time_s", 4, "max_gap_s"),
+    ("time_s,speed_kmh\n0,1\n1,2\n100,3\n", "time_s", 4, "--max-gap-s"),
     ("time_s,speed_kmh\n0,1\n", None, None, "at least 2 data rows"),
     ("", None, 1, "no header"),
     ("time_s,speed_kmh\n0,\"1\n1,2\n", None, 3, "malformed CSV"),
@@ -354,7 +361,7 @@ def test_gpx_time_not_increasing_and_gap(tmp_path):
     # (R * radians(0.01), haversine along a meridian): not a pause, an error
     jumped = lats + np.array([0, 0, 0, 0.01, 0.01])
     err = _gpx_error(tmp_path, gpx_text(jumped, [7.0] * 5, times_s=[0, 1, 2, 200, 201]))
-    assert "track point 4" in str(err) and "max_gap_s" in str(err) and err.line is not None
+    assert "track point 4" in str(err) and "--max-gap-s" in str(err) and err.line is not None
     assert f"moved {R_M * math.radians(0.0101):.0f} m" in str(err)  # 0.0101 degree step
     assert "split the track" in str(err)  # the workaround is named
 
@@ -537,7 +544,7 @@ def test_gpx_cafe_stop_between_segments_is_standing_still(tmp_path):
     err = _gpx_error(tmp_path, text)
     line = [i + 1 for i, ln in enumerate(text.splitlines()) if "<trkpt" in ln][41]
     assert "track point 42" in str(err) and err.line == line
-    assert "max_gap_s" in str(err) and "split the track" in str(err)
+    assert "--max-gap-s" in str(err) and "split the track" in str(err)
     # the workaround: a larger max_gap_s interpolates straight across the gap
     assert read_gpx(tmp_path / "bad.gpx", max_gap_s=700).distance_m > 2500
 
@@ -584,7 +591,7 @@ def test_steady_errors_name_the_profile_text():
 
 def test_csv_gap_message_names_the_workaround(tmp_path):
     err = _csv_error(tmp_path, "time_s,speed_kmh\n0,0\n1,0\n700,0\n")
-    assert err.line == 4 and "max_gap_s" in str(err) and "speed 0" in str(err)
+    assert err.line == 4 and "--max-gap-s" in str(err) and "speed 0" in str(err)
 
 
 # ---------------------------------------------------------------------------

@@ -83,7 +83,7 @@ from .grade import GRADE_WINDOW_M, grade_from_elevation
 from .model import Profile, accel_message, first_implausible_step, positive, uniform_grid
 
 __all__ = ["SPEED_WINDOW_S", "STOP_SPEED_MS", "PAUSE_RADIUS_M", "read_gpx",
-           "smoothed_velocity"]
+           "smoothed_velocity", "smoothed"]
 
 #: default window for GPS speed smoothing [s]
 SPEED_WINDOW_S = 11.0
@@ -99,6 +99,20 @@ def _window_samples(window_s: float, dt_s: float, n: int) -> int:
     w = 2 * int(math.floor((window_s / dt_s - 1.0) / 2.0 + 0.5)) + 1
     w = max(w, 3)
     return min(w, n if n % 2 else n - 1)
+
+
+def smoothed(values: np.ndarray, dt_s: float, window_s: float) -> np.ndarray:
+    """Uniformly sampled values smoothed over ``window_s`` [s]: the Savitzky-Golay
+    local quadratic [1]_ of :func:`smoothed_velocity`, its value instead of its slope
+    (the same window; the first and last half-window from the quadratic of the first
+    or last whole window)."""
+    from scipy.signal import savgol_filter
+
+    n = len(values)
+    if n < 3:
+        return np.asarray(values, float).copy()
+    w = _window_samples(window_s, dt_s, n)
+    return savgol_filter(values, w, 2, mode="interp")
 
 
 def smoothed_velocity(values: np.ndarray, dt_s: float, window_s: float) -> np.ndarray:
@@ -223,12 +237,13 @@ def read_gpx(path, dt_s: float = 1.0, *, speed_window_s: float = SPEED_WINDOW_S,
     moved = long_gap[step_m[long_gap] > pause_radius_m]
     if moved.size:
         i = moved[0] + 1
-        raise point_error(i, f"time gap of {steps[i - 1]:g} s before this point is longer than "
-                             f"max_gap_s = {max_gap_s:g} s, and the position moved "
-                             f"{step_m[i - 1]:.0f} m across it (more than pause_radius_m = "
-                             f"{pause_radius_m:g} m, so not a pause): the speed in between "
-                             "is unknown; split the track here, or pass a larger max_gap_s "
-                             "to read_gpx to interpolate straight across the gap")
+        raise point_error(i, f"time gap of {steps[i - 1]:.4g} s before this point is longer "
+                             f"than the longest gap of {max_gap_s:g} s, and the position "
+                             f"moved {step_m[i - 1]:.0f} m across it (more than the pause "
+                             f"radius of {pause_radius_m:g} m, so not a pause): the speed in "
+                             "between is unknown; split the track here, or pass a larger "
+                             "--max-gap-s (or --pause-radius-m) to interpolate straight "
+                             "across the gap")
 
     stated = None
     if use_point_speed and not np.isnan(track.speed_ms).any():

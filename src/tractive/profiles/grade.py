@@ -16,6 +16,13 @@ averaged, and a stopped vehicle keeps the grade of the spot where it stands
 are rare, common practice) to stop elevation noise turning into impossible
 grades. A trip with no distance at all has zero grade.
 
+The slope of elevation over distance is the grade, rise over run (tan theta
+of the slope angle), only when the distance is horizontal; over a distance
+measured along the road it is sin theta, and is converted to
+tan theta = sin theta / sqrt(1 - sin² theta) (a 15 % grade read as its sine,
+0.1483, would be 1.1 % low). GPS tracks give horizontal distance; speed files
+give distance along the road (the vehicle's speed).
+
 References
 ----------
 .. [1] A. Savitzky and M. J. E. Golay, "Smoothing and Differentiation of Data
@@ -38,11 +45,21 @@ GRADE_WINDOW_M = 100.0
 
 
 def grade_from_elevation(distance_m: np.ndarray, elevation_m: np.ndarray, window_m: float,
-                         max_grade: float) -> np.ndarray:
-    """Grade [-] per sample from elevation [m] over cumulative distance [m].
+                         max_grade: float, along: str = "horizontal") -> np.ndarray:
+    """Grade [-] (rise over run, tan theta) per sample from elevation [m] over
+    cumulative distance [m].
 
     Least-squares slope of elevation over a centred ``window_m`` of distance
     (Savitzky-Golay, order 1, first derivative); see the module docstring.
+
+    Parameters
+    ----------
+    along : str
+        ``"horizontal"`` when the distance is measured on the map (GPS
+        positions, speed over ground): the slope dz/dx is the grade itself.
+        ``"road"`` when it is measured along the road surface (a vehicle's
+        speed integrated): the slope dz/ds is sin theta, turned into
+        tan theta = sin / sqrt(1 - sin²) before the limit ``max_grade`` applies.
     """
     from scipy.signal import savgol_filter
 
@@ -65,6 +82,12 @@ def grade_from_elevation(distance_m: np.ndarray, elevation_m: np.ndarray, window
         slope = savgol_filter(z_grid, w, 1, deriv=1, delta=step, mode="interp")
     else:
         slope = np.full(n_grid, (z_grid[-1] - z_grid[0]) / total)
-    return np.clip(np.interp(s, grid, slope), -max_grade, max_grade)
+    slope = np.interp(s, grid, slope)
+    if along == "road":
+        sine = np.clip(slope, -0.999, 0.999)     # |dz/ds| <= 1 for any real road
+        slope = sine / np.sqrt(1.0 - sine * sine)
+    elif along != "horizontal":
+        raise ValueError(f"along must be 'road' or 'horizontal', got {along!r}")
+    return np.clip(slope, -max_grade, max_grade)
 
 
