@@ -172,24 +172,40 @@ def _rows_of_header_width(path: Path, header_line: int, delimiter: str, width: i
     """True when every non-empty line after the header has the header's number of fields
     and the file has no quote character (else the row-by-row reading decides).
 
-    Counts delimiters per line on the raw bytes (the C parser, reading only the
-    wanted columns, would not see a row with too many fields). Counts are kept
-    modulo 256 (one byte per line), which only a row off by a multiple of 256
-    fields could pass.
+    Counts delimiters per line on the raw bytes, block by block (the C parser,
+    reading only the wanted columns, would not see a row with too many fields).
+    Counts are kept modulo 256 (one byte per line), which only a row off by a
+    multiple of 256 fields could pass.
     """
-    raw = np.fromfile(path, dtype=np.uint8)
-    if raw.size == 0 or np.any(raw == ord('"')):
-        return False
-    newline = np.flatnonzero(raw == 10)
-    starts = np.concatenate([[0], newline + 1])[header_line:]
-    if starts.size and starts[-1] >= raw.size:
-        starts = starts[:-1]
-    if not starts.size:
-        return True
-    ends = np.append(starts[1:], raw.size)
-    counts = np.add.reduceat((raw == ord(delimiter)).view(np.uint8), starts)
-    length = ends - starts - (raw[ends - 1] == 10) - (raw[np.maximum(ends - 2, 0)] == 13)
-    return bool(np.all((counts == (width - 1) % 256) | (length <= 0)))
+    want = (width - 1) % 256
+    sep = ord(delimiter)
+
+    def block_ok(raw: np.ndarray) -> bool:
+        """The check on whole lines, each ending in a newline."""
+        if np.any(raw == ord('"')):
+            return False
+        newline = np.flatnonzero(raw == 10)
+        starts = np.concatenate([[0], newline[:-1] + 1])
+        counts = np.add.reduceat((raw == sep).view(np.uint8), starts)
+        length = newline - starts - (raw[newline - 1] == 13)
+        return bool(np.all((counts == want) | (length <= 0)))
+
+    with open(path, "rb") as fh:
+        for _ in range(header_line):
+            fh.readline()
+        carry = b""
+        while True:
+            block = fh.read(1 << 20)
+            if not block:
+                break
+            buf = carry + block
+            cut = buf.rfind(b"\n") + 1
+            carry = buf[cut:]
+            if cut and not block_ok(np.frombuffer(buf, np.uint8, count=cut)):
+                return False
+        if carry.strip() and not block_ok(np.frombuffer(carry + b"\n", np.uint8)):
+            return False
+    return True
 
 
 def _fast_columns(path: Path, header_line: int, delimiter: str, first_row, wanted: dict,
@@ -390,9 +406,11 @@ def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_
         raise InputError(f"the rows span {span:.4g} s, less than one time step "
                          f"dt_s = {dt_s:g} s", file=file, field=time_col)
 
-    rel = t - t[0]
+    del steps, back, gaps
+    t0 = float(t[0])
+    rel = t - t0 if t0 != 0.0 else t       # no copy for a file that starts at 0 s
     v_raw_ms = SPEED_UNITS[unit](v_raw)
-    fast = np.flatnonzero(v_raw_ms * 3.6 > MAX_USER_SPEED_KMH * (1 + 1e-12))
+    fast = np.flatnonzero(v_raw_ms > MAX_USER_SPEED_KMH / 3.6 * (1 + 1e-12))
     if fast.size:
         raise InputError(f"speed {v_raw[fast[0]]:.4g} is {v_raw_ms[fast[0]] * 3.6:.0f} km/h, "
                          f"above the {MAX_USER_SPEED_KMH:g} km/h no road vehicle exceeds; "
@@ -406,7 +424,7 @@ def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_
     if jump is not None:
         k, accel = jump
         row = min(int(np.searchsorted(rel, grid[k + 1] - 1e-9 * dt_s)), len(rel) - 1)
-        raise InputError(accel_message(speed_ms, k, accel, dt_s, float(t[0] + grid[k + 1])),
+        raise InputError(accel_message(speed_ms, k, accel, dt_s, float(t0 + grid[k + 1])),
                          file=file, field=speed_col, line=line(row))
     if grade_col == "grade_pct":
         g_pct = column("grade_pct")
