@@ -874,6 +874,59 @@ def test_acceleration_glitch_is_refused_but_hard_braking_and_noise_are_not(tmp_p
     assert len(read_speed_csv(write(tmp_path, "noisy.csv", text), dt_s=0.1)) == t.size
 
 
+def test_zero_to_300_kmh_in_one_second_is_refused(tmp_path):
+    # 300 km/h in 1 s is 83 m/s² (8.5 g), above the 5 g of the hardest race-car braking
+    # (from memory); the message keeps its numbers short
+    from tractive.limits import MAX_USER_ACCEL_MS2
+
+    assert 5 * 9.80665 <= MAX_USER_ACCEL_MS2 <= 60.0   # about 5 g (standard gravity, CGPM)
+    err = _csv_error(tmp_path, "time_s,speed_kmh\n0,0\n1,0\n2,300\n3,300\n")
+    assert err.line == 4 and err.field == "speed_kmh" and "+83 m/s²" in str(err)
+    assert len(str(err)) < 400
+
+
+def test_speed_kph_is_km_per_hour_and_misspelt_columns_are_named(tmp_path):
+    a = read_speed_csv(write(tmp_path, "a.csv", "time_s,speed_kph\n0,36\n1,72\n"))
+    b = read_speed_csv(write(tmp_path, "b.csv", "time_s,speed_kmh\n0,36\n1,72\n"))
+    np.testing.assert_array_equal(a.speed_ms, b.speed_ms)
+    err = _csv_error(tmp_path, "time_s,speed_kmph\n0,1\n1,2\n")
+    assert "did you mean speed_kmh" in str(err) and err.field == "speed_kmph"
+    err = _csv_error(tmp_path, "time,lat,lon,speed,bearing\n0,1,1,1,0\n1,1,1,2,0\n")
+    assert "columns seen: time, lat, lon, speed, bearing" in str(err)
+    assert "pass --speed-column speed:kmh" in str(err) and "_s " not in str(err)
+
+
+def test_logs_as_they_come_time_and_speed_columns(tmp_path):
+    # clock times over midnight and ISO date-times give the seconds between rows
+    # (86400 s a day); a named speed column in mph uses the exact factor (NIST SP 811)
+    text = "clock,v\n23:59:58,10\n23:59:59.5,20\n00:00:01,30\n"
+    p = read_speed_csv(write(tmp_path, "c.csv", text), dt_s=0.5, time_column="clock",
+                       speed_column="v", speed_unit="mph")
+    assert p.duration_s == 3.0
+    np.testing.assert_allclose(p.speed_ms[[0, 3, 6]], np.array([10, 20, 30]) * MPH_MS,
+                               rtol=1e-15)
+    text = ("timestamp,speed\n2024-05-01T08:00:00Z,36\n2024-05-01T10:00:01+02:00,72\n"
+            "2024-05-01T08:00:02Z,72\n")
+    p = read_speed_csv(write(tmp_path, "d.csv", text), speed_column="speed:kph")
+    np.testing.assert_allclose(p.speed_ms, [10, 20, 20])
+    err = _csv_error(tmp_path, "clock,speed_kmh\n0,1\n1,2\n")
+    assert "pass --time-column clock" in str(err)
+
+
+def test_smoothing_a_speed_trace_keeps_a_straight_line_and_calms_noise(tmp_path):
+    # a Savitzky-Golay quadratic reproduces a straight line exactly (Savitzky and Golay
+    # 1964) and averages white noise down (about 1/sqrt(window) for the centre weights)
+    t = np.arange(0.0, 120.0)
+    ramp = 5.0 + 0.1 * t
+    text = "time_s,speed_ms\n" + "".join(f"{a:g},{float(b)!r}\n" for a, b in zip(t, ramp))
+    p = read_speed_csv(write(tmp_path, "ramp.csv", text), smooth_s=11.0)
+    np.testing.assert_allclose(p.speed_ms, ramp, rtol=0, atol=1e-9)
+    noisy = 20.0 + np.random.default_rng(5).normal(0.0, 1.0, t.size)
+    text = "time_s,speed_ms\n" + "".join(f"{a:g},{float(b)!r}\n" for a, b in zip(t, noisy))
+    p = read_speed_csv(write(tmp_path, "noisy.csv", text), smooth_s=11.0)
+    assert np.std(p.speed_ms[10:-10] - 20.0) < 0.6 * np.std(noisy - 20.0)
+
+
 def test_gpx_position_jump_is_refused_but_position_noise_is_not(tmp_path):
     # 20 m/s along a meridian for 120 s with 3 m of position noise (common practice for
     # phone GPS): the 5 s least-squares smoother keeps it well below both limits
@@ -935,3 +988,24 @@ def test_energy_dt_leaves_bundled_cycles_alone():
     assert two["positive_energy_kwh"] == one["positive_energy_kwh"]
     help_text = " ".join(_run("energy", "--help").stdout.split())
     assert "Bundled cycles keep their native 1 s step" in help_text
+
+
+def test_a_steady_climb_from_elevation_costs_m_g_sin_theta_per_metre(tmp_path):
+    # a ramp of angle theta (sin theta = 0.15) climbed at a steady 10 m/s: the speed file
+    # gives the distance along the road, so elevation z = s sin(theta); the wheel work per
+    # metre of road is the grade force m g sin(theta) (work against gravity, mechanics),
+    # with no road load and no acceleration
+    from tractive.demand import wheel_demand
+    from tractive.roadload import RoadLoad
+
+    sine, mass, g0 = 0.15, 1500.0, 9.80665      # standard gravity (CGPM 1901)
+    t = np.arange(0.0, 301.0)
+    s = 10.0 * t
+    text = "time_s,speed_ms,elevation_m\n" + "".join(
+        f"{a:g},10,{float(sine * d)!r}\n" for a, d in zip(t, s))
+    p = read_speed_csv(write(tmp_path, "ramp.csv", text))
+    np.testing.assert_allclose(p.grade_fraction, math.tan(math.asin(sine)), rtol=1e-9)
+    wd = wheel_demand(RoadLoad.from_coastdown(0.0, 0.0, 0.0), mass, mass, p.time_s,
+                      p.speed_ms, p.grade_fraction)
+    assert float(wd.positive_energy_j) / wd.distance_m == pytest.approx(mass * g0 * sine,
+                                                                       rel=1e-9)

@@ -52,6 +52,21 @@ def _speedish(name: str) -> bool:
     return name in _SPEEDISH or name.startswith(("speed", "velocity", "spd", "gps_speed"))
 
 
+#: unit spellings seen after ``speed_`` in logs, and the unit they mean
+_UNIT_SUFFIXES = {"kmph": "kmh", "km_h": "kmh", "kmhr": "kmh", "kmperh": "kmh", "kph": "kmh",
+                  "mi_h": "mph", "miph": "mph", "mph": "mph", "m_s": "ms", "mps": "ms",
+                  "meters_per_second": "ms", "km_per_h": "kmh", "kilometers_per_hour": "kmh",
+                  "miles_per_hour": "mph"}
+
+
+def _likely_unit(name: str):
+    """The unit a speed column's name spells in an unusual way (``speed_kmph``), or None."""
+    for head in ("speed_", "velocity_", "spd_", "gps_speed_", "v_"):
+        if name.startswith(head):
+            return _UNIT_SUFFIXES.get(name[len(head):].replace("/", "_").replace("-", "_"))
+    return None
+
+
 def choose_speed_column(names: list, speed_column=None, unit=None, *, file=None,
                         line=None) -> tuple[str, str]:
     """(column, unit) of the speed: the one named by ``speed_column`` (``NAME`` with
@@ -89,6 +104,11 @@ def choose_speed_column(names: list, speed_column=None, unit=None, *, file=None,
     seen = f"columns seen: {_seen(names)}"
     if vague:
         col = vague[0]
+        likely = _likely_unit(col)
+        if likely is not None:
+            raise InputError(f"unknown speed column '{col}'; {seen}; did you mean "
+                             f"speed_{likely}? rename the column, or pass --speed-column "
+                             f"{col}:{likely}", file=file, field=col, line=line)
         close = difflib.get_close_matches(col, list(SPEED_COLUMNS), n=1, cutoff=0.75)
         if close and col not in _SPEEDISH:
             hint = (f"did you mean {close[0]}? rename the column, or pass --speed-column "
