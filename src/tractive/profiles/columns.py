@@ -116,7 +116,7 @@ def choose_speed_column(names: list, speed_column=None, unit=None, *, file=None,
         else:
             hint = (f"if '{col}' is in km/h pass --speed-column {col}:kmh (or :mph, :ms), "
                     f"or name the column speed_kmh, speed_mph or speed_ms")
-        raise InputError(f"speed column has no unit; {seen}; {hint}", file=file, field=col,
+        raise InputError(f"no speed column with a unit; {seen}; {hint}", file=file, field=col,
                          line=line)
     raise InputError(f"no speed column; {seen}; name the column speed_kmh, speed_mph or "
                      "speed_ms, or pass --speed-column NAME:UNIT (UNIT kmh, mph or ms)",
@@ -147,10 +147,10 @@ def choose_time_column(names: list, time_column=None, *, file=None, line=None) -
 
 
 def times_from_text(cells, *, file=None, field=None, lines=None) -> np.ndarray:
-    """Seconds [s] from text cells: numbers of seconds, clock times
-    ``HH:MM:SS[.fff]`` (a step back of more than 12 h is a midnight passed, so a
-    log that runs over midnight keeps counting), or ISO 8601 date-times (seconds
-    from the first; zones converted to UTC).
+    """Seconds [s] from text cells: numbers of seconds (as written), clock times
+    ``HH:MM:SS[.fff]`` (seconds from the first; a step back of more than 12 h is a
+    midnight passed, so a log that runs over midnight keeps counting), or ISO 8601
+    date-times (seconds from the first; zones converted to UTC).
 
     Raises InputError naming the first cell that none of these reads, with its line.
     """
@@ -177,7 +177,8 @@ def times_from_text(cells, *, file=None, field=None, lines=None) -> np.ndarray:
                              field=field, line=where(bad[0]))
         sec = h * 3600.0 + m * 60.0 + s
         rolled = np.concatenate([[0], np.cumsum(np.diff(sec) < -43200.0)])
-        return sec + 86400.0 * rolled
+        sec = sec + 86400.0 * rolled
+        return sec - sec[0]
     try:
         stamps = pd.to_datetime(series, format="ISO8601", utc=True)
     except (ValueError, TypeError):
