@@ -949,11 +949,19 @@ def test_gpx_position_jump_is_refused_but_position_noise_is_not(tmp_path):
 
 
 def _run(*args, cwd=None):
+    """The ``tractive`` command run in-process (conftest.run_cli)."""
+    from conftest import run_cli
+
+    return run_cli(*args, cwd=cwd)
+
+
+def _run_process(*args):
+    """The ``tractive`` command as its own process (one end-to-end smoke test)."""
     import subprocess
     import sys
 
     return subprocess.run([sys.executable, "-m", "tractive", *map(str, args)],
-                          capture_output=True, text=True, cwd=cwd)
+                          capture_output=True, text=True)
 
 
 HATCH = Path(__file__).resolve().parents[1] / "examples" / "vehicles" / "hatchback.yaml"
@@ -961,7 +969,7 @@ HATCH = Path(__file__).resolve().parents[1] / "examples" / "vehicles" / "hatchba
 
 def test_energy_command_refuses_an_implausible_file_in_one_line(tmp_path):
     fast = write(tmp_path, "fast.csv", "time_s,speed_kmh\n0,0\n50,10000\n100,0\n")
-    r = _run("energy", HATCH, "-c", fast)
+    r = _run_process("energy", HATCH, "-c", fast)
     assert r.returncode == 2 and r.stdout == ""
     lines = r.stderr.strip().splitlines()
     assert len(lines) == 1 and "Traceback" not in r.stderr
