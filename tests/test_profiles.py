@@ -885,6 +885,15 @@ def test_zero_to_300_kmh_in_one_second_is_refused(tmp_path):
     assert len(str(err)) < 400
 
 
+def test_huge_numbers_in_messages_stay_short(tmp_path):
+    # a value near the largest double (1.8e308, IEEE 754) is worded in a few digits
+    err = _csv_error(tmp_path, "time_s,speed_kmh\n0,1e300\n1,2\n")
+    assert "1e+300" in str(err) and len(str(err)) < 300
+    with pytest.raises(InputError) as info:
+        resolve_profile("steady:1e300kmh")
+    assert len(str(info.value)) < 200
+
+
 def test_speed_kph_is_km_per_hour_and_misspelt_columns_are_named(tmp_path):
     a = read_speed_csv(write(tmp_path, "a.csv", "time_s,speed_kph\n0,36\n1,72\n"))
     b = read_speed_csv(write(tmp_path, "b.csv", "time_s,speed_kmh\n0,36\n1,72\n"))

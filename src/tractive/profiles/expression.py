@@ -42,7 +42,7 @@ from ..errors import InputError
 from ..limits import MAX_REPEAT, MAX_USER_SPEED_KMH
 from .cycles import BUNDLED_STEP_S, cycle_names, load_cycle, unknown_cycle
 from .gpstrack import read_gpx
-from .model import SPEED_UNITS, Profile, positive
+from .model import SPEED_UNITS, Profile, positive, whole
 from .ops import concatenate, constant_speed, repeat
 from .speedcsv import read_speed_csv
 
@@ -115,7 +115,7 @@ def _resolve_atom(text: str, quoted: bool, base_dir, dt_s: float) -> Profile:
         unit = m["unit"].lower().replace("/", "")
         speed = float(SPEED_UNITS[unit](float(m["speed"])))
         if not speed * 3.6 <= MAX_USER_SPEED_KMH * (1 + 1e-12):
-            raise InputError(f"'{atom}': {speed * 3.6:.0f} km/h is above the "
+            raise InputError(f"'{atom}': {whole(speed * 3.6)} km/h is above the "
                              f"{MAX_USER_SPEED_KMH:g} km/h no road vehicle exceeds")
         duration = 3600.0
         if m["dur"] is not None:

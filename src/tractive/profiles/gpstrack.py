@@ -80,7 +80,8 @@ from ..errors import InputError
 from ..geo import local_east_north_m, read_gpx_track
 from ..limits import MAX_GRADE_FRACTION, MAX_USER_SPEED_KMH
 from .grade import GRADE_WINDOW_M, grade_from_elevation
-from .model import Profile, accel_message, first_implausible_step, positive, uniform_grid
+from .model import (Profile, accel_message, first_implausible_step, positive, uniform_grid,
+                    whole)
 
 __all__ = ["SPEED_WINDOW_S", "STOP_SPEED_MS", "PAUSE_RADIUS_M", "read_gpx",
            "smoothed_velocity", "smoothed"]
@@ -230,7 +231,7 @@ def read_gpx(path, dt_s: float = 1.0, *, speed_window_s: float = SPEED_WINDOW_S,
         i = leap[0] + 1
         raise point_error(i, f"the position moves {step_m[i - 1]:.0f} m within "
                              f"{steps[i - 1]:g} s of the previous point "
-                             f"({step_m[i - 1] / steps[i - 1] * 3.6:.0f} km/h), above the "
+                             f"({whole(step_m[i - 1] / steps[i - 1] * 3.6)} km/h), above the "
                              f"{MAX_USER_SPEED_KMH:g} km/h no road vehicle exceeds; a position "
                              "jump? check the coordinates of this point")
     long_gap = np.flatnonzero(steps > max_gap_s)
@@ -282,7 +283,7 @@ def read_gpx(path, dt_s: float = 1.0, *, speed_window_s: float = SPEED_WINDOW_S,
     if fast.size:
         j = fast[0]
         raise point_error(nearest_point(grid[j]),
-                          f"{what} reaches {speed[j] * 3.6:.0f} km/h "
+                          f"{what} reaches {whole(speed[j] * 3.6)} km/h "
                           f"near {grid[j]:g} s, above the {MAX_USER_SPEED_KMH:g} km/h no road "
                           "vehicle exceeds; a position jump? check the coordinates near "
                           "this point")

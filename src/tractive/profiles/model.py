@@ -191,13 +191,22 @@ def first_implausible_step(speed_ms: np.ndarray, dt_s: float):
     return int(bad[0]), float(accel[bad[0]])
 
 
+def whole(x: float, sign: bool = False) -> str:
+    """``x`` rounded to a whole number for a message; in 4 significant digits when it is
+    huge (never hundreds of digits)."""
+    if abs(x) < 1e7:
+        return f"{x:+.0f}" if sign else f"{x:.0f}"
+    return f"{x:+.4g}" if sign else f"{x:.4g}"
+
+
 def accel_message(speed_ms, k: int, accel: float, dt_s: float, t_s: float,
                   rows: str = "rows") -> str:
     """The words for an implausible step k → k+1 found by :func:`first_implausible_step`."""
     dv_kmh = (speed_ms[k + 1] - speed_ms[k]) * 3.6
     return (f"speed changes by {dv_kmh:+.1f} km/h within {dt_s:g} s near {t_s:g} s "
-            f"({accel:+.0f} m/s², about {abs(accel) / STANDARD_GRAVITY_MS2:.0f} g), more "
-            f"than the {MAX_USER_ACCEL_MS2:g} m/s² any road vehicle can reach; a logging "
-            f"glitch or a unit mistake? check the {rows} near here")
+            f"({whole(accel, True)} m/s², about "
+            f"{whole(abs(accel) / STANDARD_GRAVITY_MS2)} g), more than the "
+            f"{MAX_USER_ACCEL_MS2:g} m/s² any road vehicle can reach; a logging glitch or a "
+            f"unit mistake? check the {rows} near here")
 
 

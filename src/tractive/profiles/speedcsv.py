@@ -64,7 +64,7 @@ from .columns import choose_speed_column, choose_time_column, times_from_text
 from .gpstrack import smoothed
 from .grade import GRADE_WINDOW_M, grade_from_elevation
 from .model import (SPEED_UNITS, Profile, accel_message, first_implausible_step, positive,
-                    uniform_grid)
+                    uniform_grid, whole)
 
 __all__ = ["read_speed_csv"]
 
@@ -412,7 +412,7 @@ def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_
     v_raw_ms = SPEED_UNITS[unit](v_raw)
     fast = np.flatnonzero(v_raw_ms > MAX_USER_SPEED_KMH / 3.6 * (1 + 1e-12))
     if fast.size:
-        raise InputError(f"speed {v_raw[fast[0]]:.4g} is {v_raw_ms[fast[0]] * 3.6:.0f} km/h, "
+        raise InputError(f"speed {v_raw[fast[0]]:.4g} is {whole(v_raw_ms[fast[0]] * 3.6)} km/h, "
                          f"above the {MAX_USER_SPEED_KMH:g} km/h no road vehicle exceeds; "
                          "check the value and the column's unit", file=file,
                          field=speed_col, line=line(fast[0]))
