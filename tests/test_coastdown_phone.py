@@ -17,6 +17,7 @@ import pytest
 from scipy.integrate import solve_ivp
 
 from tractive.coastdown import CoastdownLog, analyze_coastdown
+from tractive.errors import InputError
 
 KMH = 1 / 3.6
 TRUTH = np.array([140.0, 0.3, 0.033])   # f0 N, f1 N/(km/h), f2 N/(km/h)^2
@@ -150,3 +151,52 @@ def test_a_longer_dropout_still_rejects_the_run():
     gap = float(run1.reason.split("no data for ")[1].split(" s")[0])
     assert not run1.used and run1.reason.startswith("dropout") and gap >= 7.0, run1.reason
     assert "longest gap allowed 4.5 s" in run1.reason
+
+
+def test_phone_log_as_it_comes_gives_the_log_of_the_documented_columns(tmp_path):
+    # the same samples with clock times, a 'speed' column in km/h named on the call and a
+    # 'bearing' column read as heading: identical to time_s/speed_kmh/heading_deg
+    # (1 km/h = 1/3.6 m/s exactly, NIST SP 811); the clock runs over midnight
+    from tractive.coastdown import read_coastdown_log
+
+    t = np.arange(30) * 0.5
+    v = 100.0 - 2.0 * t
+    h = np.full(30, 72.0)
+    plain = tmp_path / "plain.csv"
+    plain.write_text("time_s,speed_kmh,heading_deg\n" + "".join(
+        f"{a:g},{b:g},{c:g}\n" for a, b, c in zip(t, v, h)))
+    clock = [f"{int((86390 + a) // 3600) % 24:02d}:{int((86390 + a) % 3600 // 60):02d}:"
+             f"{(86390 + a) % 60:04.1f}" for a in t]
+    phone = tmp_path / "phone.csv"
+    phone.write_text("clock,lat,lon,speed,bearing\n" + "".join(
+        f"{c},46.0,7.0,{b:g},{d:g}\n" for c, b, d in zip(clock, v, h)))
+    a = read_coastdown_log(plain)
+    b = read_coastdown_log(phone, time_column="clock", speed_column="speed", speed_unit="kmh")
+    np.testing.assert_allclose(b.time_s, a.time_s, rtol=0, atol=1e-9)
+    np.testing.assert_array_equal(b.speed_ms, a.speed_ms)
+    np.testing.assert_array_equal(b.heading_deg, a.heading_deg)
+    np.testing.assert_array_equal(b.line, a.line)
+    with pytest.raises(InputError) as info:
+        read_coastdown_log(phone)
+    msg = str(info.value)
+    assert "columns seen: clock, lat, lon, speed, bearing" in msg and "--time-column" in msg
+    with pytest.raises(InputError) as info:
+        read_coastdown_log(phone, time_column="clock")
+    assert "pass --speed-column speed:kmh" in str(info.value)
+
+
+def test_plain_and_row_by_row_reading_give_the_same_log(tmp_path):
+    # a comment line among the rows sends the file to the row-by-row reader; the numbers
+    # and the lines are the same as the C parser's (Python float parsing, both ways)
+    from tractive.coastdown import read_coastdown_log
+
+    rows = [f"{i * 0.5!r},{100 - i * 0.731:.3f},{72 + 0.1 * i:.1f},,out\n" for i in range(20)]
+    head = "time_s,speed_kmh,heading_deg,air_temperature_c,run\n"
+    fast = tmp_path / "fast.csv"
+    fast.write_text(head + "".join(rows))
+    slow = tmp_path / "slow.csv"
+    slow.write_text(head + "".join(rows) + "# end\n")
+    a, b = read_coastdown_log(fast), read_coastdown_log(slow)
+    for field in ("time_s", "speed_ms", "heading_deg", "air_temperature_c", "line"):
+        np.testing.assert_array_equal(getattr(a, field), getattr(b, field))
+    assert list(a.run) == list(b.run) == ["out"] * 20

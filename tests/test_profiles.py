@@ -120,8 +120,10 @@ def test_semicolon_delimited_file(tmp_path):
 
 
 def test_grade_from_elevation_is_exact_for_a_steady_climb_with_a_stop(tmp_path):
-    # 10 m/s, standing still from 80 to 120 s; elevation rises 4 m per 100 m of road:
-    # rise/run = 0.04 everywhere, also while stopped (the vehicle stands on the slope)
+    # 10 m/s, standing still from 80 to 120 s; elevation rises 4 m per 100 m of road
+    # (along the slope): sin(theta) = 0.04, so the grade rise/run is
+    # tan(theta) = 0.04 / sqrt(1 - 0.04^2) everywhere (trigonometry), also while stopped
+    # (the vehicle stands on the slope)
     t = np.arange(0, 201.0)
     v = np.where((t >= 80) & (t <= 120), 0.0, 10.0)
     s = np.concatenate([[0], np.cumsum(0.5 * (v[1:] + v[:-1]))])
@@ -129,13 +131,16 @@ def test_grade_from_elevation_is_exact_for_a_steady_climb_with_a_stop(tmp_path):
     text = "time_s,speed_ms,elevation_m\n" + "".join(
         f"{a:g},{b:g},{float(c)!r}\n" for a, b, c in zip(t, v, z))
     p = read_speed_csv(write(tmp_path, "climb.csv", text))
-    np.testing.assert_allclose(p.grade_fraction, 0.04, rtol=0, atol=1e-9)
+    np.testing.assert_allclose(p.grade_fraction, 0.04 / math.sqrt(1 - 0.04 ** 2), rtol=0,
+                               atol=1e-9)
 
 
 def test_grade_from_elevation_follows_a_parabola_away_from_the_ends(tmp_path):
     # a least-squares straight line over a window centred on a point of a parabola
     # z = a s^2 has the slope 2 a s of its tangent there (property of least squares on a
-    # symmetric window), so away from the ends the grade is exactly 2 a s
+    # symmetric window), so away from the ends the slope is exactly 2 a s; the distance
+    # runs along the road, so that slope is sin(theta) and the grade is its tangent
+    # 2 a s / sqrt(1 - (2 a s)^2) (trigonometry)
     a = 1e-5
     t = np.arange(0, 301.0)
     v = np.full_like(t, 5.0)
@@ -144,7 +149,9 @@ def test_grade_from_elevation_follows_a_parabola_away_from_the_ends(tmp_path):
         f"{x:g},{y:g},{float(a * d * d)!r}\n" for x, y, d in zip(t, v, s))
     p = read_speed_csv(write(tmp_path, "parabola.csv", text), grade_window_m=100.0)
     inner = (s >= 60) & (s <= s[-1] - 60)
-    np.testing.assert_allclose(p.grade_fraction[inner], 2 * a * s[inner], rtol=0, atol=1e-9)
+    sine = 2 * a * s[inner]
+    np.testing.assert_allclose(p.grade_fraction[inner], sine / np.sqrt(1 - sine ** 2), rtol=0,
+                               atol=1e-9)
 
 
 def test_grade_from_elevation_is_clipped(tmp_path):
@@ -169,7 +176,7 @@ def _csv_error(tmp_path, text, **kw):
 
 
 @pytest.mark.parametrize("text, field, line, words", [
-    ("t,speed_kmh\n0,1\n1,2\n", "time_s", 1, "no time_s"),
+    ("t,speed_kmh\n0,1\n1,2\n", None, 1, "pass --time-column t"),
     ("time_s,speed\n0,1\n1,2\n", "speed", 1, "speed_kmh, speed_mph or speed_ms"),
     ("time_s,velocity\n0,1\n1,2\n", "velocity", 1, "speed_kmh, speed_mph or speed_ms"),
     ("time_s,v\n0,1\n1,2\n", "v", 1, "speed_kmh, speed_mph or speed_ms"),
@@ -183,7 +190,7 @@ def _csv_error(tmp_path, text, **kw):
     ("time_s,speed_kmh\n0,1\n1,-2\n", "speed_kmh", 3, "negative"),
     ("time_s,speed_kmh\n0,1\n1,2\n1,3\n", "time_s", 4, "increase"),
     ("time_s,speed_kmh\n0,1\n2,2\n1,3\n", "time_s", 4, "increase"),
-    ("time_s,speed_kmh\n0,1\n1,2\n100,3\n", "time_s", 4, "max_gap_s"),
+    ("time_s,speed_kmh\n0,1\n1,2\n100,3\n", "time_s", 4, "--max-gap-s"),
     ("time_s,speed_kmh\n0,1\n", None, None, "at least 2 data rows"),
     ("", None, 1, "no header"),
     ("time_s,speed_kmh\n0,\"1\n1,2\n", None, 3, "malformed CSV"),
@@ -354,7 +361,7 @@ def test_gpx_time_not_increasing_and_gap(tmp_path):
     # (R * radians(0.01), haversine along a meridian): not a pause, an error
     jumped = lats + np.array([0, 0, 0, 0.01, 0.01])
     err = _gpx_error(tmp_path, gpx_text(jumped, [7.0] * 5, times_s=[0, 1, 2, 200, 201]))
-    assert "track point 4" in str(err) and "max_gap_s" in str(err) and err.line is not None
+    assert "track point 4" in str(err) and "--max-gap-s" in str(err) and err.line is not None
     assert f"moved {R_M * math.radians(0.0101):.0f} m" in str(err)  # 0.0101 degree step
     assert "split the track" in str(err)  # the workaround is named
 
@@ -402,7 +409,7 @@ def drive_m(t, a=1.0, v_max=10.0, length_m=600.0):
 
 
 def test_local_east_north_steps_match_the_haversine_distance():
-    from tractive.profiles import _local_east_north_m
+    from tractive.geo import local_east_north_m as _local_east_north_m
 
     # steps of up to 1 km in every direction: sqrt(de^2 + dn^2) equals the haversine
     # great-circle distance (Sinnott 1984) to a relative (step / R)^2 ~ 1e-8
@@ -537,7 +544,7 @@ def test_gpx_cafe_stop_between_segments_is_standing_still(tmp_path):
     err = _gpx_error(tmp_path, text)
     line = [i + 1 for i, ln in enumerate(text.splitlines()) if "<trkpt" in ln][41]
     assert "track point 42" in str(err) and err.line == line
-    assert "max_gap_s" in str(err) and "split the track" in str(err)
+    assert "--max-gap-s" in str(err) and "split the track" in str(err)
     # the workaround: a larger max_gap_s interpolates straight across the gap
     assert read_gpx(tmp_path / "bad.gpx", max_gap_s=700).distance_m > 2500
 
@@ -584,7 +591,7 @@ def test_steady_errors_name_the_profile_text():
 
 def test_csv_gap_message_names_the_workaround(tmp_path):
     err = _csv_error(tmp_path, "time_s,speed_kmh\n0,0\n1,0\n700,0\n")
-    assert err.line == 4 and "max_gap_s" in str(err) and "speed 0" in str(err)
+    assert err.line == 4 and "--max-gap-s" in str(err) and "speed 0" in str(err)
 
 
 # ---------------------------------------------------------------------------
@@ -867,6 +874,68 @@ def test_acceleration_glitch_is_refused_but_hard_braking_and_noise_are_not(tmp_p
     assert len(read_speed_csv(write(tmp_path, "noisy.csv", text), dt_s=0.1)) == t.size
 
 
+def test_zero_to_300_kmh_in_one_second_is_refused(tmp_path):
+    # 300 km/h in 1 s is 83 m/s² (8.5 g), above the 5 g of the hardest race-car braking
+    # (from memory); the message keeps its numbers short
+    from tractive.limits import MAX_USER_ACCEL_MS2
+
+    assert 5 * 9.80665 <= MAX_USER_ACCEL_MS2 <= 60.0   # about 5 g (standard gravity, CGPM)
+    err = _csv_error(tmp_path, "time_s,speed_kmh\n0,0\n1,0\n2,300\n3,300\n")
+    assert err.line == 4 and err.field == "speed_kmh" and "+83 m/s²" in str(err)
+    assert len(str(err)) < 400
+
+
+def test_huge_numbers_in_messages_stay_short(tmp_path):
+    # a value near the largest double (1.8e308, IEEE 754) is worded in a few digits
+    err = _csv_error(tmp_path, "time_s,speed_kmh\n0,1e300\n1,2\n")
+    assert "1e+300" in str(err) and len(str(err)) < 300
+    with pytest.raises(InputError) as info:
+        resolve_profile("steady:1e300kmh")
+    assert len(str(info.value)) < 200
+
+
+def test_speed_kph_is_km_per_hour_and_misspelt_columns_are_named(tmp_path):
+    a = read_speed_csv(write(tmp_path, "a.csv", "time_s,speed_kph\n0,36\n1,72\n"))
+    b = read_speed_csv(write(tmp_path, "b.csv", "time_s,speed_kmh\n0,36\n1,72\n"))
+    np.testing.assert_array_equal(a.speed_ms, b.speed_ms)
+    err = _csv_error(tmp_path, "time_s,speed_kmph\n0,1\n1,2\n")
+    assert "did you mean speed_kmh" in str(err) and err.field == "speed_kmph"
+    err = _csv_error(tmp_path, "time,lat,lon,speed,bearing\n0,1,1,1,0\n1,1,1,2,0\n")
+    assert "columns seen: time, lat, lon, speed, bearing" in str(err)
+    assert "pass --speed-column speed:kmh" in str(err) and "_s " not in str(err)
+
+
+def test_logs_as_they_come_time_and_speed_columns(tmp_path):
+    # clock times over midnight and ISO date-times give the seconds between rows
+    # (86400 s a day); a named speed column in mph uses the exact factor (NIST SP 811)
+    text = "clock,v\n23:59:58,10\n23:59:59.5,20\n00:00:01,30\n"
+    p = read_speed_csv(write(tmp_path, "c.csv", text), dt_s=0.5, time_column="clock",
+                       speed_column="v", speed_unit="mph")
+    assert p.duration_s == 3.0
+    np.testing.assert_allclose(p.speed_ms[[0, 3, 6]], np.array([10, 20, 30]) * MPH_MS,
+                               rtol=1e-15)
+    text = ("timestamp,speed\n2024-05-01T08:00:00Z,36\n2024-05-01T10:00:01+02:00,72\n"
+            "2024-05-01T08:00:02Z,72\n")
+    p = read_speed_csv(write(tmp_path, "d.csv", text), speed_column="speed:kph")
+    np.testing.assert_allclose(p.speed_ms, [10, 20, 20])
+    err = _csv_error(tmp_path, "clock,speed_kmh\n0,1\n1,2\n")
+    assert "pass --time-column clock" in str(err)
+
+
+def test_smoothing_a_speed_trace_keeps_a_straight_line_and_calms_noise(tmp_path):
+    # a Savitzky-Golay quadratic reproduces a straight line exactly (Savitzky and Golay
+    # 1964) and averages white noise down (about 1/sqrt(window) for the centre weights)
+    t = np.arange(0.0, 120.0)
+    ramp = 5.0 + 0.1 * t
+    text = "time_s,speed_ms\n" + "".join(f"{a:g},{float(b)!r}\n" for a, b in zip(t, ramp))
+    p = read_speed_csv(write(tmp_path, "ramp.csv", text), smooth_s=11.0)
+    np.testing.assert_allclose(p.speed_ms, ramp, rtol=0, atol=1e-9)
+    noisy = 20.0 + np.random.default_rng(5).normal(0.0, 1.0, t.size)
+    text = "time_s,speed_ms\n" + "".join(f"{a:g},{float(b)!r}\n" for a, b in zip(t, noisy))
+    p = read_speed_csv(write(tmp_path, "noisy.csv", text), smooth_s=11.0)
+    assert np.std(p.speed_ms[10:-10] - 20.0) < 0.6 * np.std(noisy - 20.0)
+
+
 def test_gpx_position_jump_is_refused_but_position_noise_is_not(tmp_path):
     # 20 m/s along a meridian for 120 s with 3 m of position noise (common practice for
     # phone GPS): the 5 s least-squares smoother keeps it well below both limits
@@ -889,11 +958,19 @@ def test_gpx_position_jump_is_refused_but_position_noise_is_not(tmp_path):
 
 
 def _run(*args, cwd=None):
+    """The ``tractive`` command run in-process (conftest.run_cli)."""
+    from conftest import run_cli
+
+    return run_cli(*args, cwd=cwd)
+
+
+def _run_process(*args):
+    """The ``tractive`` command as its own process (one end-to-end smoke test)."""
     import subprocess
     import sys
 
     return subprocess.run([sys.executable, "-m", "tractive", *map(str, args)],
-                          capture_output=True, text=True, cwd=cwd)
+                          capture_output=True, text=True)
 
 
 HATCH = Path(__file__).resolve().parents[1] / "examples" / "vehicles" / "hatchback.yaml"
@@ -901,7 +978,7 @@ HATCH = Path(__file__).resolve().parents[1] / "examples" / "vehicles" / "hatchba
 
 def test_energy_command_refuses_an_implausible_file_in_one_line(tmp_path):
     fast = write(tmp_path, "fast.csv", "time_s,speed_kmh\n0,0\n50,10000\n100,0\n")
-    r = _run("energy", HATCH, "-c", fast)
+    r = _run_process("energy", HATCH, "-c", fast)
     assert r.returncode == 2 and r.stdout == ""
     lines = r.stderr.strip().splitlines()
     assert len(lines) == 1 and "Traceback" not in r.stderr
@@ -928,3 +1005,24 @@ def test_energy_dt_leaves_bundled_cycles_alone():
     assert two["positive_energy_kwh"] == one["positive_energy_kwh"]
     help_text = " ".join(_run("energy", "--help").stdout.split())
     assert "Bundled cycles keep their native 1 s step" in help_text
+
+
+def test_a_steady_climb_from_elevation_costs_m_g_sin_theta_per_metre(tmp_path):
+    # a ramp of angle theta (sin theta = 0.15) climbed at a steady 10 m/s: the speed file
+    # gives the distance along the road, so elevation z = s sin(theta); the wheel work per
+    # metre of road is the grade force m g sin(theta) (work against gravity, mechanics),
+    # with no road load and no acceleration
+    from tractive.demand import wheel_demand
+    from tractive.roadload import RoadLoad
+
+    sine, mass, g0 = 0.15, 1500.0, 9.80665      # standard gravity (CGPM 1901)
+    t = np.arange(0.0, 301.0)
+    s = 10.0 * t
+    text = "time_s,speed_ms,elevation_m\n" + "".join(
+        f"{a:g},10,{float(sine * d)!r}\n" for a, d in zip(t, s))
+    p = read_speed_csv(write(tmp_path, "ramp.csv", text))
+    np.testing.assert_allclose(p.grade_fraction, math.tan(math.asin(sine)), rtol=1e-9)
+    wd = wheel_demand(RoadLoad.from_coastdown(0.0, 0.0, 0.0), mass, mass, p.time_s,
+                      p.speed_ms, p.grade_fraction)
+    assert float(wd.positive_energy_j) / wd.distance_m == pytest.approx(mass * g0 * sine,
+                                                                       rel=1e-9)

@@ -17,9 +17,11 @@ MAX_USER_SPEED_KMH = 500.0
 #: largest speed [km/h] of a coast-down interval or a range sweep
 MAX_TEST_SPEED_KMH = 400.0
 #: largest |acceleration| accepted in a user's trace on its final time grid [m/s²]:
-#: about 10 g, twice what tyres give the fastest-braking race cars (about 5 g, from
-#: memory); only a logging glitch or a unit mistake gets there
-MAX_USER_ACCEL_MS2 = 100.0
+#: about 5 g (49 m/s²), the hardest braking of race cars (about 5 g with downforce,
+#: from memory), rounded up to 50 so that a trace braking at exactly 5 g passes;
+#: road vehicles stay near 1 g, so only a logging glitch (0 to 300 km/h in 1 s is
+#: 83 m/s²) or a unit mistake gets there
+MAX_USER_ACCEL_MS2 = 50.0
 #: largest engine or motor shaft speed [rpm]
 MAX_SHAFT_SPEED_RPM = 100_000.0
 #: most Monte Carlo draws a study may ask for
