@@ -15,9 +15,11 @@ Input forms
 
 Geometry from points (method)
 -----------------------------
-Latitude and longitude are projected onto a local east-north plane (the
-step between successive points on the plane tangent at its middle latitude,
-sphere of radius :data:`EARTH_RADIUS_M`). The points are parametrised by
+Latitude and longitude are projected onto a local east-north plane by the
+equirectangular projection about the track's mean latitude φ₀ (east =
+R·cos φ₀·Δλ, north = R·Δφ, sphere of radius :data:`EARTH_RADIUS_M`): a closed
+loop in degrees stays closed, and over a circuit a few km across the scale
+error, Δφ·tan φ₀, stays below about 0.1 % at mid latitudes. The points are parametrised by
 their cumulative chord length u, and x(u), y(u) (and z(u)) are fitted by
 least-squares cubic B-splines with uniformly spaced knots, the knot spacing
 being the **smoothing length** (default :data:`DEFAULT_SMOOTHING_M`,
@@ -562,7 +564,8 @@ def _csv_columns(text: str, file: str):
 
 
 def _east_north_m(lat_deg, lon_deg, file, lines):
-    """East and north [m] of each point from the first (local tangent plane per step)."""
+    """East and north [m] of each point from the first: equirectangular projection about
+    the mean latitude (a closed loop in degrees stays closed on the plane)."""
     lat = np.asarray(lat_deg, float)
     lon = np.asarray(lon_deg, float)
     bad = np.flatnonzero((np.abs(lat) > 90) | (np.abs(lon) > 180))
@@ -572,9 +575,9 @@ def _east_north_m(lat_deg, lon_deg, file, lines):
                          file=file, line=lines[i] if lines else None)
     phi = np.radians(lat)
     lam = np.radians(lon)
-    dlam = (np.diff(lam) + math.pi) % (2.0 * math.pi) - math.pi
-    mid = 0.5 * (phi[1:] + phi[:-1])
-    east = np.concatenate([[0.0], np.cumsum(EARTH_RADIUS_M * np.cos(mid) * dlam)])
+    dlam = (lam - lam[0] + math.pi) % (2.0 * math.pi) - math.pi     # across the antimeridian
+    phi_ref = float(np.mean(phi))
+    east = EARTH_RADIUS_M * math.cos(phi_ref) * (dlam - dlam[0])
     north = EARTH_RADIUS_M * (phi - phi[0])
     return east, north
 
