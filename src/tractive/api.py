@@ -726,3 +726,122 @@ def read_coastdown_log(path, *, speed_column: str | None = None):
     from .coastdown import read_coastdown_log as _read
 
     return _read(path, speed_column=speed_column)
+
+
+# ---------------------------------------------------------------------------
+# lap (lap-time simulation on a circuit; see tractive.lap)
+# ---------------------------------------------------------------------------
+
+#: most laps one ``lap`` run may lay end to end for the energy figures
+MAX_LAPS = 1000
+#: time step of the simulated trace handed to the energy model [s] (at most)
+LAP_TRACE_DT_S = 0.1
+
+
+@dataclass(frozen=True)
+class LapReport:
+    """Lap time and speeds of one vehicle on a track, with the wheel energy and, when the
+    vehicle has a powertrain, fuel or battery use over ``laps`` laps.
+
+    Attributes
+    ----------
+    vehicle : Vehicle
+    track : tractive.lap.Track
+    simulation : tractive.lap.LapSimulation
+    laps : int
+    energy : EnergyResult or None
+        Energy over the laps (None when the car cannot complete the track).
+    trace : bool
+        Include the per-point trace in ``to_dict()``.
+    units : {"metric", "us"}
+    """
+
+    vehicle: "Vehicle"
+    track: object
+    simulation: object
+    laps: int = 1
+    energy: object = None
+    trace: bool = False
+    units: str = "metric"
+
+    def to_dict(self) -> dict:
+        """``lap_time_s``, speeds, energy, ``limits_share`` (and ``trace``), in the
+        report's units (US: mph, miles, feet in the trace, US gallons)."""
+        from .lap.report import lap_document
+
+        return lap_document(self)
+
+
+def lap(vehicle: "Vehicle | str | os.PathLike", track, *, laps: int = 1,
+        closed: bool | None = None, mu_cornering: float | None = None,
+        mu_braking: float | None = None, start_speed_kmh: float | None = None,
+        smoothing_length_m: float | None = None, step_m: float | None = None,
+        trace: bool = False, units: str = "metric") -> LapReport:
+    """Simulate the quickest lap of a vehicle on a circuit (quasi-steady-state point
+    mass; see :mod:`tractive.lap.simulate`) and the energy it takes.
+
+    Parameters
+    ----------
+    vehicle : Vehicle or path
+        With a ``performance`` block (drive data, ``tyre_road_friction``).
+    track : Track or path
+        A :class:`tractive.lap.Track` or a track file (CSV or GPX, see
+        :mod:`tractive.lap.track`).
+    laps : int
+        Laps laid end to end for the energy figures (closed laps only), 1 to
+        :data:`MAX_LAPS`.
+    closed : bool, optional
+        Closed lap or open stretch (default: from the file, by whether the ends meet).
+    mu_cornering, mu_braking : float, optional
+        Tyre-road friction for cornering and braking [-] (default: the vehicle's).
+    start_speed_kmh : float, optional
+        Start speed of an open stretch [km/h] (default: from rest).
+    smoothing_length_m, step_m : float, optional
+        Spline knot spacing and simulation step [m] for a track file.
+    trace : bool
+        Keep the per-point trace in ``to_dict()``.
+    units : {"metric", "us"}
+    """
+    import numpy as np
+
+    from .lap import Track, read_track, simulate_lap
+
+    _check_units(units)
+    if not 1 <= int(laps) <= MAX_LAPS or int(laps) != laps:
+        raise InputError(f"must be a whole number from 1 to {MAX_LAPS}, got {laps}",
+                         field="laps")
+    vehicle = _vehicle(vehicle)
+    if not isinstance(track, Track):
+        opts = {k: v for k, v in (("smoothing_length_m", smoothing_length_m),
+                                  ("step_m", step_m)) if v is not None}
+        track = read_track(track, closed=closed, **opts)
+    elif closed is not None and closed != track.closed:
+        raise InputError("the track object is already closed or open; read the file "
+                         "again with closed=", field="closed")
+    if laps > 1 and not track.closed:
+        raise InputError("an open track is driven once; more laps need a closed lap",
+                         field="laps")
+    if np.ndim(vehicle.mass_kg) != 0:
+        raise InputError("api.lap takes one vehicle; use tractive.lap.simulate_lap for a "
+                         "vehicle axis", field="vehicle")
+    start = None if start_speed_kmh is None else float(start_speed_kmh) / 3.6
+    sim = simulate_lap(vehicle, track, mu_cornering=mu_cornering, mu_braking=mu_braking,
+                       start_speed_ms=start)
+    result = None
+    if np.isfinite(sim.lap_time_s):
+        prof = sim.to_profile(laps=int(laps), dt_s=LAP_TRACE_DT_S)
+        result = energy(vehicle, [prof]).results[0]
+    return LapReport(vehicle, track, sim, int(laps), result, bool(trace), units)
+
+
+def write_lap_plot(reports: Sequence[LapReport], path):
+    """Draw speed against distance for one or several lap reports (the limiting regime
+    shaded) over the curvature (see :func:`tractive.lap.plot.plot_laps`)."""
+    from .lap.plot import plot_laps
+
+    inputs = [r.vehicle.source for r in reports if getattr(r.vehicle, "source", "")]
+    inputs += [r.track.source for r in reports if r.track.source]
+    return plot_laps(reports, path, inputs=inputs)
+
+
+__all__ += ["lap", "LapReport", "write_lap_plot", "MAX_LAPS"]
