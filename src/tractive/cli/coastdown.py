@@ -7,7 +7,7 @@ import contextlib
 import click
 import numpy as np
 
-from ..coastdown import analyze_coastdown, plot_coastdown, two_interval_estimate
+from .._lazy import lazy_function
 from ..coastdown.corrections import REFERENCES
 from ..coastdown.fitting import COMBINES, METHODS
 from ..coastdown.output import PLOT_SUFFIXES, ROAD_LOAD_SUFFIXES, write_road_load
@@ -18,6 +18,11 @@ from ..units import KMH_MS
 from . import cli
 from ._checks import Number, ranged
 from ._output import emit_json, fmt, table
+
+# the analysis loads scipy: imported when a command runs, not when help lists commands
+analyze_coastdown = lazy_function("tractive.coastdown.analysis", "analyze_coastdown")
+plot_coastdown = lazy_function("tractive.coastdown.output", "plot_coastdown")
+two_interval_estimate = lazy_function("tractive.coastdown.quick", "two_interval_estimate")
 
 SAFETY = """\b
 SAFETY: run coast-down tests only on closed roads or proving grounds where

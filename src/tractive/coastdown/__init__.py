@@ -18,13 +18,31 @@ chain), ``output`` (YAML block and figure).
 
 from __future__ import annotations
 
-from .analysis import CoastdownResult, RunReport, analyze_coastdown
-from .corrections import REFERENCE_STATES, correction_factors
-from .fitting import COMBINES, METHODS
-from .logs import CoastdownLog, read_coastdown_log
-from .motion import coast_speed_ms, coast_time_s
-from .output import plot_coastdown, road_load_yaml, write_road_load, write_road_load_yaml
-from .quick import TwoIntervalEstimate, two_interval_estimate
+import importlib
+
+#: public name → submodule defining it; a submodule is imported when one of its names
+#: is first used, so importing the package loads no scipy
+_EXPORTS = {
+    "CoastdownResult": "analysis", "RunReport": "analysis", "analyze_coastdown": "analysis",
+    "REFERENCE_STATES": "corrections", "correction_factors": "corrections",
+    "COMBINES": "fitting", "METHODS": "fitting",
+    "CoastdownLog": "logs", "read_coastdown_log": "logs",
+    "coast_speed_ms": "motion", "coast_time_s": "motion",
+    "plot_coastdown": "output", "road_load_yaml": "output", "write_road_load": "output",
+    "write_road_load_yaml": "output",
+    "TwoIntervalEstimate": "quick", "two_interval_estimate": "quick",
+}
+
+
+def __getattr__(name):
+    """Import the submodule that defines ``name`` on first use (PEP 562)."""
+    if name in _EXPORTS:
+        return getattr(importlib.import_module(f"{__name__}.{_EXPORTS[name]}"), name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(set(globals()) | set(_EXPORTS))
 
 __all__ = ["CoastdownResult", "RunReport", "analyze_coastdown", "REFERENCE_STATES",
            "correction_factors", "COMBINES", "METHODS", "CoastdownLog", "read_coastdown_log",
