@@ -94,9 +94,9 @@ def interval_kinematics(time_s, speed_ms, grade_fraction=0.0) -> Intervals:
     """
     t = np.asarray(time_s, float)
     v = np.asarray(speed_ms, float)
-    dt = np.diff(t)
+    dt = t[1:] - t[:-1]
     v_mean = 0.5 * (v[1:] + v[:-1])
-    accel = np.diff(v) / dt
+    accel = (v[1:] - v[:-1]) / dt
     g = np.asarray(grade_fraction, float)
     if g.ndim == 0:                              # one grade: the same sine everywhere
         sin_grade = np.full(dt.shape, float(g / np.sqrt(1.0 + g * g)))
@@ -278,10 +278,13 @@ def force_coefficients(road_load: RoadLoad, mass_kg, inertial_mass_kg) -> np.nda
     """
     f2 = np.asarray(road_load.f2_aero_n_per_ms2, float) + \
         np.asarray(road_load.f2_rolling_n_per_ms2, float)
-    parts = np.broadcast_arrays(
-        np.asarray(road_load.f0_n, float), np.asarray(road_load.f1_n_per_ms, float), f2,
-        np.asarray(inertial_mass_kg, float), np.asarray(mass_kg, float) * STANDARD_GRAVITY_MS2)
-    return np.stack(parts, axis=-1)
+    parts = (np.asarray(road_load.f0_n, float), np.asarray(road_load.f1_n_per_ms, float), f2,
+             np.asarray(inertial_mass_kg, float),
+             np.asarray(mass_kg, float) * STANDARD_GRAVITY_MS2)
+    out = np.empty(np.broadcast_shapes(*(p.shape for p in parts)) + (5,))
+    for k, part in enumerate(parts):
+        out[..., k] = part
+    return out
 
 
 def wheel_force_n(coeffs, intervals: Intervals) -> np.ndarray:
