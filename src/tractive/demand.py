@@ -37,6 +37,7 @@ References
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from functools import cached_property
 
@@ -93,12 +94,16 @@ def interval_kinematics(time_s, speed_ms, grade_fraction=0.0) -> Intervals:
     """
     t = np.asarray(time_s, float)
     v = np.asarray(speed_ms, float)
-    dt = np.diff(t)
+    dt = t[1:] - t[:-1]
     v_mean = 0.5 * (v[1:] + v[:-1])
-    accel = np.diff(v) / dt
-    g = np.broadcast_to(np.asarray(grade_fraction, float), t.shape)
-    g_mean = 0.5 * (g[1:] + g[:-1])
-    sin_grade = g_mean / np.sqrt(1.0 + g_mean * g_mean)
+    accel = (v[1:] - v[:-1]) / dt
+    g = np.asarray(grade_fraction, float)
+    if g.ndim == 0:                              # one grade: the same sine everywhere
+        sin_grade = np.full(dt.shape, float(g / np.sqrt(1.0 + g * g)))
+    else:
+        g = np.broadcast_to(g, t.shape)
+        g_mean = 0.5 * (g[1:] + g[:-1])
+        sin_grade = g_mean / np.sqrt(1.0 + g_mean * g_mean)
     return Intervals(dt, v_mean, accel, v_mean * dt, sin_grade)
 
 
@@ -146,7 +151,7 @@ class WheelDemand:
     intervals : Intervals
         Interval kinematics.
     force_n : array
-        Total wheel force [N] per interval.
+        Total wheel force [N] per interval (computed when first read).
     positive_energy_j, negative_energy_j : array
         Traction energy and braking energy [J], both ≥ 0.
     components_j : dict
@@ -160,11 +165,16 @@ class WheelDemand:
     road_load: RoadLoad
     mass_kg: object
     inertial_mass_kg: object
-    force_n: np.ndarray
     positive_energy_j: np.ndarray
     negative_energy_j: np.ndarray
     components_j: dict
     distance_m: float
+
+    @cached_property
+    def force_n(self) -> np.ndarray:
+        """Total wheel force [N] per interval, computed on first use (:func:`wheel_force_n`)."""
+        coeffs = force_coefficients(self.road_load, self.mass_kg, self.inertial_mass_kg)
+        return wheel_force_n(coeffs, self.intervals)
 
     @cached_property
     def force_parts_n(self) -> dict:
@@ -218,6 +228,10 @@ def wheel_demand(road_load: RoadLoad, mass_kg, inertial_mass_kg, time_s, speed_m
                  grade_fraction=0.0, *, profile: str = "") -> WheelDemand:
     """Wheel force and positive/negative energy along a trace (GTR 15 Annex 7).
 
+    The energies come from per-vehicle sums over the intervals (see
+    :func:`interval_sums`); the force per interval is only computed when
+    :attr:`WheelDemand.force_n` is read.
+
     Parameters
     ----------
     road_load : RoadLoad
@@ -234,28 +248,12 @@ def wheel_demand(road_load: RoadLoad, mass_kg, inertial_mass_kg, time_s, speed_m
         Name carried into the result.
     """
     iv = interval_kinematics(time_s, speed_ms, grade_fraction)
-    # Every force term is a coefficient (per vehicle) times a function of the
-    # trace (per interval): F = C @ B.T with basis B = [1, v, v², a, sin θ] and
-    # C = [f0, f1, f2, m_inertial, m·g]. Sums over the traction intervals then
-    # need one product, S = w @ B with w = d where F > 0, instead of one pass
-    # over (N, T) per part.
-    v = iv.speed_ms
-    basis = np.stack([np.ones_like(v), v, v * v, iv.accel_ms2, iv.sin_grade], axis=-1)
+    coeffs = force_coefficients(road_load, mass_kg, inertial_mass_kg)   # (..., 5)
+    traction, braking = interval_sums(coeffs, iv)                       # (..., 5) each
     f2_rolling = np.asarray(road_load.f2_rolling_n_per_ms2, float)
     f2_aero = np.asarray(road_load.f2_aero_n_per_ms2, float)
-    coeffs = np.broadcast_arrays(
-        np.asarray(road_load.f0_n, float), np.asarray(road_load.f1_n_per_ms, float),
-        f2_aero + f2_rolling, np.asarray(inertial_mass_kg, float),
-        np.asarray(mass_kg, float) * STANDARD_GRAVITY_MS2)
-    coeffs = np.stack(coeffs, axis=-1)                  # (..., 5)
-    # einsum's own loops (not BLAS) keep every vehicle's result independent of how
-    # many vehicles share the call, to the last bit
-    force = np.einsum("...k,tk->...t", coeffs, basis)   # (..., T-1)
-    d = iv.distance_m
-    w = np.where(force > 0.0, d, 0.0)
-    sums = np.einsum("...t,tk->...k", w, basis)         # (..., 5): Σ w·[1, v, v², a, sin θ]
     c = [coeffs[..., k] for k in range(5)]
-    s = [sums[..., k] for k in range(5)]
+    s = [traction[..., k] for k in range(5)]
     components = {
         "rolling": c[0] * s[0] + c[1] * s[1] + f2_rolling * s[2],
         "aero": f2_aero * s[2],
@@ -264,12 +262,237 @@ def wheel_demand(road_load: RoadLoad, mass_kg, inertial_mass_kg, time_s, speed_m
     }
     positive = components["rolling"] + components["aero"] + components["inertia"] + \
         components["grade"]
-    braking = np.einsum("...t,tk->...k", np.where(force < 0.0, d, 0.0), basis)  # F < 0
     negative = 0.0 - np.sum(coeffs * braking, axis=-1)   # 0.0 - x: no negative zero
     return WheelDemand(profile=profile, intervals=iv, road_load=road_load, mass_kg=mass_kg,
-                       inertial_mass_kg=inertial_mass_kg, force_n=force,
-                       positive_energy_j=positive, negative_energy_j=negative,
-                       components_j=components, distance_m=float(np.sum(d)))
+                       inertial_mass_kg=inertial_mass_kg, positive_energy_j=positive,
+                       negative_energy_j=negative, components_j=components,
+                       distance_m=float(np.sum(iv.distance_m)))
+
+
+def force_coefficients(road_load: RoadLoad, mass_kg, inertial_mass_kg) -> np.ndarray:
+    """Coefficients C = [f0, f1, f2, m_inertial, m·g] of the wheel force, shape (..., 5).
+
+    The force on interval i is F_i = C · [1, v_i, v_i², a_i, sin θ_i] with f0 [N],
+    f1 [N/(m/s)], f2 [N/(m/s)²] (aero plus downforce rolling), m_inertial [kg] and
+    m·g [N] (GTR 15 Annex 7 force with the grade term).
+    """
+    f2 = np.asarray(road_load.f2_aero_n_per_ms2, float) + \
+        np.asarray(road_load.f2_rolling_n_per_ms2, float)
+    parts = (np.asarray(road_load.f0_n, float), np.asarray(road_load.f1_n_per_ms, float), f2,
+             np.asarray(inertial_mass_kg, float),
+             np.asarray(mass_kg, float) * STANDARD_GRAVITY_MS2)
+    out = np.empty(np.broadcast_shapes(*(p.shape for p in parts)) + (5,))
+    for k, part in enumerate(parts):
+        out[..., k] = part
+    return out
+
+
+def wheel_force_n(coeffs, intervals: Intervals) -> np.ndarray:
+    """Total wheel force [N] per interval, shape (..., T-1), from :func:`force_coefficients`.
+
+    Evaluated as ((f0 + f2·v²) + m·g·sin θ) + (f1·v + m_inertial·a), one fixed
+    order for every vehicle, so a vehicle's force does not depend on the batch
+    it is computed in; the sign tests of :func:`interval_sums` use the same order.
+    """
+    c = np.asarray(coeffs, float)
+    col = [c[..., k, None] for k in range(5)]
+    v = intervals.speed_ms
+    force = col[2] * (v * v)
+    force += col[0]
+    force += col[4] * intervals.sin_grade
+    rest = col[1] * v
+    rest += col[3] * intervals.accel_ms2
+    force += rest
+    return force
+
+
+#: vehicles whose coefficient ranges bound the force signs together (see :func:`interval_sums`)
+VEHICLE_CHUNK = 1024
+
+#: elements of the (vehicles, intervals) working arrays of the per-vehicle sign test:
+#: three such float64 arrays (1.5 MiB) stay in a core's cache between the passes
+CHUNK_ELEMENTS = 1 << 16
+
+#: grid pieces per weight in the exact interval sums (see :func:`_grid_pieces`)
+_PIECES = 2
+
+#: a force bound this far (relative to the sum of the terms' magnitudes) from zero
+#: fixes the sign of the computed force: far above its rounding error (about 1e-15)
+_SIGN_MARGIN = 1e-12
+
+
+def interval_sums(coeffs, intervals: Intervals) -> tuple:
+    """Sums Σ d_i·b_i over the traction and the braking intervals of each vehicle.
+
+    With the basis b_i = [1, v_i, v_i², a_i, sin θ_i] and d_i the interval
+    distance, returns ``(traction, braking)``, each of shape (..., 5): the sums
+    over the intervals with F_i > 0 and with F_i < 0 (F as :func:`wheel_force_n`
+    computes it). Energies follow as C · sums (GTR 15 Annex 7).
+
+    Method. For a group of vehicles the coefficient ranges bound the force of
+    every interval; where the bounds are clear of zero (by far more than the
+    rounding of F) every vehicle of the group has the same sign there — an
+    interval that accelerates or cruises on a level or rising road always pulls
+    when f0 > 0 and f1, f2 ≥ 0, a hard braking always brakes — and its
+    weights d·b enter one sum shared by the group. Only the remaining intervals
+    are tested vehicle by vehicle. The weights are first rounded to one common
+    grid per basis term (pre-rounding, [2]_, [3]_), so every partial sum is exact
+    and the result depends only on which intervals are summed, not on the order
+    or grouping of the additions: a vehicle's sums are the same alone and in a
+    batch of any size, to the last bit, and a matrix product may do them.
+
+    References
+    ----------
+    .. [1] UN GTR No. 15, Annex 7 (cycle energy demand).
+    .. [2] J. Demmel and H. D. Nguyen, "Fast reproducible floating-point
+       summation", Proc. 21st IEEE Symposium on Computer Arithmetic (2013).
+    .. [3] S. M. Rump, T. Ogita and S. Oishi, "Accurate floating-point summation
+       part I: faithful rounding", SIAM J. Sci. Comput. 31 (2008).
+    """
+    c = np.asarray(coeffs, float)
+    lead = c.shape[:-1]
+    c = c.reshape(-1, 5)
+    iv = intervals
+    # basis terms and weights as rows (5, T-1): sums over the 5 terms are then
+    # whole-row operations
+    basis = np.empty((5, len(iv.speed_ms)))
+    basis[0] = 1.0
+    basis[1] = iv.speed_ms
+    np.multiply(iv.speed_ms, iv.speed_ms, out=basis[2])
+    basis[3] = iv.accel_ms2
+    basis[4] = iv.sin_grade
+    weights = iv.distance_m * basis
+    traction = np.empty_like(c)
+    braking = np.empty_like(c)
+    # a NaN or infinity anywhere (also in a basis term with d = 0: 0·inf is NaN)
+    # reaches these sums, as does an overflow: then plain masked sums
+    if not (np.isfinite(np.sum(weights)) and np.isfinite(np.sum(c))):
+        force = wheel_force_n(c, iv)
+        traction[:] = np.where(force > 0.0, 1.0, 0.0) @ weights.T
+        braking[:] = np.where(force < 0.0, 1.0, 0.0) @ weights.T
+        return traction.reshape(lead + (5,)), braking.reshape(lead + (5,))
+    pieces = _grid_pieces(weights)                              # (P·5, T-1)
+    size = np.abs(basis)
+    for start in range(0, len(c), VEHICLE_CHUNK):
+        cc = c[start:start + VEHICLE_CHUNK]
+        shared, unsure = _shared_sums(cc, basis, size, pieces)  # (2, P·5)
+        rows = slice(start, start + len(cc))
+        if len(unsure):
+            tested = _tested_sums(cc, basis[:, unsure], pieces[:, unsure])  # (2, n, P·5)
+            tested += shared[:, None, :]                        # exact: one grid
+            traction[rows] = _combine(tested[0])
+            braking[rows] = _combine(tested[1])
+        else:
+            both = _combine(shared)
+            traction[rows] = both[0]
+            braking[rows] = both[1]
+    return traction.reshape(lead + (5,)), braking.reshape(lead + (5,))
+
+
+def _shared_sums(c, basis, size, pieces) -> tuple:
+    """Sums of the intervals whose force sign is the same for all vehicles of c.
+
+    c : (n, 5) coefficients; basis : (5, M) terms [1, v, v², a, sin θ] and size
+    their magnitudes; pieces : (P·5, M) grid pieces of the weights. With the
+    coefficients in [mid − half, mid + half], F lies within mid·b ± half·|b|;
+    the sign is sure where that range stays clear of zero by
+    :data:`_SIGN_MARGIN` of (|mid| + half)·|b|, which also covers the rounding of
+    these bounds and of F itself. Returns the grid sums over the surely pulling and the surely
+    braking intervals as a (2, P·5) array, and the indices of the intervals
+    left to test.
+    """
+    lo = c.min(axis=0)
+    hi = c.max(axis=0)
+    mid = 0.5 * (lo + hi)
+    half = 0.5 * (hi - lo)
+    center = mid @ basis
+    margin = (_SIGN_MARGIN * np.abs(mid) + (1.0 + _SIGN_MARGIN) * half) @ size
+    sure = np.empty((2, len(center)))
+    np.greater(center, margin, out=sure[0], casting="unsafe")    # 1.0: pulls
+    np.less(center, -margin, out=sure[1], casting="unsafe")      # 1.0: brakes
+    unsure = np.flatnonzero(np.abs(center) <= margin)
+    # exact grid sums (any order), so a matrix product may form them
+    return sure @ pieces.T, unsure
+
+
+def _tested_sums(c, basis, pieces) -> np.ndarray:
+    """Grid sums over the intervals with F > 0 and with F < 0, vehicle by vehicle.
+
+    c : (n, 5) coefficients; basis : (5, U) and pieces : (P·5, U) of the tested
+    intervals. F is computed in the order of :func:`wheel_force_n`. Works in
+    chunks of about :data:`CHUNK_ELEMENTS` elements. Returns (2, n, P·5): the
+    traction sums, then the braking sums.
+    """
+    n, count = len(c), basis.shape[1]
+    v, v2, accel, sin_grade = basis[1], basis[2], basis[3], basis[4]
+    graded = bool(np.any(sin_grade != 0.0))      # else m·g·sin θ adds only zeros
+    out = np.empty((2, n, len(pieces)))
+    step = max(1, CHUNK_ELEMENTS // count)
+    buf = np.empty((4, min(step, n), count))
+    for start in range(0, n, step):
+        cc = c[start:start + step]
+        m = len(cc)
+        if m < buf.shape[1]:
+            buf = buf[:, :m].copy()
+        f, rest, masks = buf[0], buf[1], buf[2:]
+        # ((f0 + f2·v²) + m·g·sin θ) + (f1·v + m_inertial·a), as wheel_force_n
+        np.multiply(cc[:, 2:3], v2, out=f)
+        f += cc[:, 0:1]
+        if graded:
+            np.multiply(cc[:, 4:5], sin_grade, out=rest)
+            f += rest
+        np.multiply(cc[:, 1:2], v, out=rest)
+        np.multiply(cc[:, 3:4], accel, out=masks[0])
+        rest += masks[0]
+        f += rest
+        np.greater(f, 0.0, out=masks[0], casting="unsafe")   # 1.0 where F > 0
+        np.less(f, 0.0, out=masks[1], casting="unsafe")      # 1.0 where F < 0
+        sums = masks.reshape(2 * m, count) @ pieces.T          # exact: grid values
+        out[:, start:start + m] = sums.reshape(2, m, -1)
+    return out
+
+
+def _grid_pieces(w) -> np.ndarray:
+    """Split each row of w (K, M) into :data:`_PIECES` parts on common grids.
+
+    Row j is written as w = q_1·u_1 + q_2·u_2 + r with integers |q_p| ≤ 2^b,
+    grid steps u_1 = 2^(e−b) (2^e above the row's largest |w|), u_2 = u_1·2^−b,
+    and b = 52 − bit_length(M): a sum of any of the M pieces of one grid is exact
+    in float64 whatever the order (pre-rounding, Demmel and Nguyen 2013). The
+    dropped r is below u_2/2 = 2^−2b of the largest weight (2^−82 on a
+    1,800-step cycle, 2^−64 on a million steps).
+    Returns (P·K, M): row p·K + j holds piece p of row j.
+    """
+    k, cols = w.shape
+    bits = 52 - cols.bit_length()
+    unit = np.zeros((_PIECES, k, 1))
+    inverse = np.zeros((_PIECES, k, 1))
+    for j, top in enumerate(np.max(np.abs(w), axis=1, initial=0.0).tolist()):
+        exponent = math.frexp(top)[1]
+        for p in range(_PIECES):
+            e = exponent - bits * (p + 1)
+            if top > 0.0 and e >= -1022:         # a grid in the normal range; else dropped
+                unit[p, j] = math.ldexp(1.0, e)
+                inverse[p, j] = math.ldexp(1.0, -e)
+    out = np.empty((_PIECES, k, cols))
+    rest = w
+    for p in range(_PIECES):
+        piece = out[p]
+        np.multiply(rest, inverse[p], out=piece)     # exact: a power of two
+        np.rint(piece, out=piece)
+        piece *= unit[p]
+        if p + 1 < _PIECES:
+            rest = rest - piece                      # exact: |rest| ≤ unit/2
+    return out.reshape(_PIECES * k, cols)
+
+
+def _combine(sums) -> np.ndarray:
+    """Add the grid pieces of each term, (n, P·K) → (n, K), in one fixed order."""
+    parts = sums.reshape(len(sums), _PIECES, -1)
+    out = parts[:, 0].copy()
+    for p in range(1, _PIECES):
+        out += parts[:, p]
+    return out
 
 
 def vehicle_wheel_demand(vehicle, profile) -> WheelDemand:

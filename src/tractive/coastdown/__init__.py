@@ -3,8 +3,6 @@
 Public functions:
 
 * :func:`read_coastdown_log` — read a raw CSV or GPX log (no resampling).
-* :class:`CoastdownSettings` (with :class:`TestVehicle`, :class:`DetectionSettings`,
-  :class:`FitSettings`, :class:`CorrectionSettings`) — every option, checked.
 * :func:`analyze_coastdown` — find runs, fit f0/f1/f2 with covariance,
   correct to reference conditions, derive CdA, Cd and Crr.
 * :func:`two_interval_estimate` — the two-interval quick estimate.
@@ -14,21 +12,39 @@ Public functions:
 
 Modules: ``logs`` (reading), ``runs`` (detection), ``motion`` (closed forms and
 filters), ``fitting`` (methods and covariance), ``corrections`` (reference
-conditions), ``settings`` (options), ``quick`` (two-interval estimate), ``analysis`` (the whole
+conditions), ``quick`` (two-interval estimate), ``analysis`` (the whole
 chain), ``output`` (YAML block and figure).
 """
 
 from __future__ import annotations
 
-from .analysis import CoastdownResult, RunReport, analyze_coastdown
-from .corrections import REFERENCE_STATES, correction_factors
-from .fitting import COMBINES, METHODS
-from .logs import CoastdownLog, read_coastdown_log
-from .motion import coast_speed_ms, coast_time_s
-from .runs import DetectionSettings
-from .settings import CoastdownSettings, CorrectionSettings, FitSettings, TestVehicle
-from .output import plot_coastdown, road_load_yaml, write_road_load, write_road_load_yaml
-from .quick import TwoIntervalEstimate, two_interval_estimate
+import importlib
+
+#: public name → submodule defining it; a submodule is imported when one of its names
+#: is first used, so importing the package loads no scipy
+_EXPORTS = {
+    "CoastdownResult": "analysis", "RunReport": "analysis", "analyze_coastdown": "analysis",
+    "REFERENCE_STATES": "corrections", "correction_factors": "corrections",
+    "COMBINES": "fitting", "METHODS": "fitting",
+    "CoastdownLog": "logs", "read_coastdown_log": "logs",
+    "coast_speed_ms": "motion", "coast_time_s": "motion",
+    "plot_coastdown": "output", "road_load_yaml": "output", "write_road_load": "output",
+    "write_road_load_yaml": "output",
+    "TwoIntervalEstimate": "quick", "two_interval_estimate": "quick",
+    "DetectionSettings": "runs", "CoastdownSettings": "settings",
+    "CorrectionSettings": "settings", "FitSettings": "settings", "TestVehicle": "settings",
+}
+
+
+def __getattr__(name):
+    """Import the submodule that defines ``name`` on first use (PEP 562)."""
+    if name in _EXPORTS:
+        return getattr(importlib.import_module(f"{__name__}.{_EXPORTS[name]}"), name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(set(globals()) | set(_EXPORTS))
 
 __all__ = ["CoastdownResult", "RunReport", "analyze_coastdown", "REFERENCE_STATES",
            "correction_factors", "COMBINES", "METHODS", "CoastdownLog", "read_coastdown_log",

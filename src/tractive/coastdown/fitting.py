@@ -81,9 +81,11 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 
 import numpy as np
-import scipy.sparse as sp
-from scipy import stats
-from scipy.optimize import least_squares
+from .._lazy import LazyModule, lazy_function
+
+sp = LazyModule("scipy.sparse")
+stats = LazyModule("scipy.stats")
+least_squares = lazy_function("scipy.optimize", "least_squares")
 
 from ..errors import InputError
 from ..units import STANDARD_GRAVITY_MS2
@@ -801,8 +803,9 @@ def _mean_regressors(run: FitRun, d=3):
     return g if d == 3 else g[[0, 2]]
 
 
-#: two-sided 95 % quantile of the standard normal distribution
-_Z95 = float(stats.norm.ppf(0.975))
+#: two-sided 95 % quantile of the standard normal distribution, as
+#: scipy.stats.norm.ppf(0.975) gives it (written out so importing loads no scipy)
+_Z95 = 1.959963984540054
 
 
 def _widen(cov_within, cov_between, nu_between):

@@ -40,8 +40,10 @@ References
 from __future__ import annotations
 
 import numpy as np
-import scipy.sparse as sp
-from scipy.signal import savgol_coeffs
+from .._lazy import LazyModule, lazy_function
+
+sp = LazyModule("scipy.sparse")
+savgol_coeffs = lazy_function("scipy.signal", "savgol_coeffs")
 
 #: below this |z| the series expansions of H and G are used
 _SERIES_LIMIT = 1e-4

@@ -49,11 +49,15 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 
 import numpy as np
-from scipy.ndimage import median_filter
-from scipy.signal import savgol_filter
+
+from .._lazy import lazy_function
 
 from ..errors import InputError
 from ..limits import MAX_TEST_SPEED_KMH
+
+# scipy is loaded when runs are found, not when the settings are imported for --help
+median_filter = lazy_function("scipy.ndimage", "median_filter")
+savgol_filter = lazy_function("scipy.signal", "savgol_filter")
 from ..units import KMH_MS, STANDARD_GRAVITY_MS2
 from .logs import CoastdownLog
 from .motion import odd_window
