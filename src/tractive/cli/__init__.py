@@ -26,6 +26,7 @@ COMMAND_MODULES = {
     "compare": "compare",
     "coastdown": "coastdown",
     "coastdown-quick": "coastdown",
+    "fleet": "fleet",
 }
 
 
