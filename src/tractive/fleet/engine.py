@@ -114,10 +114,11 @@ class Grid:
 
 def _trip_starts(df: pd.DataFrame) -> np.ndarray:
     """Boolean: the row starts a trip (a new vehicle_id/trip_id pair)."""
-    vid = df["vehicle_id"].to_numpy(object)
-    tid = df["trip_id"].to_numpy(object)
-    new = np.ones(len(df), bool)
-    new[1:] = (vid[1:] != vid[:-1]) | (tid[1:] != tid[:-1])
+    vid, tid = df["vehicle_id"], df["trip_id"]
+    # compared as Series: vectorized for Arrow-backed text as well as for objects
+    new = (vid != vid.shift()).to_numpy(bool) | (tid != tid.shift()).to_numpy(bool)
+    if len(new):
+        new[0] = True
     return new
 
 
@@ -196,23 +197,24 @@ def resample_trips(df: pd.DataFrame, model: FleetModel):
     new = _trip_starts(df)
     starts = np.flatnonzero(new)
     k = len(starts)
-    trip = np.cumsum(new) - 1
+    row_sizes = np.diff(np.append(starts, len(df)))
+    trip = np.repeat(np.arange(k), row_sizes)
     if "time_ns" in df.columns and df["time_ns"].notna().all():
         ns = df["time_ns"].to_numpy(np.int64)
-        rel = (ns - ns[starts][trip]) / 1e9
+        rel = (ns - np.repeat(ns[starts], row_sizes)) / 1e9
     else:
         t = df["time_s"].to_numpy(float)
-        rel = t - t[starts][trip]
+        rel = t - np.repeat(t[starts], row_sizes)
     v = df["speed_ms"].to_numpy(float)
     grade_pct = df["grade_pct"].to_numpy(float) if "grade_pct" in df.columns else None
     elev = df["elevation_m"].to_numpy(float) if "elevation_m" in df.columns else None
     reasons = _row_checks(rel, np.diff(rel), v, grade_pct, trip, starts, k, model)
     keep = np.ones(k, bool)
     keep[list(reasons)] = False
-    rows = keep[trip]
+    rows = slice(None) if keep.all() else np.repeat(keep, row_sizes)
     ends = np.append(starts[1:], len(df)) - 1
-    # kept rows only, renumbered
-    rel_k, v_k, trip_k = rel[rows], v[rows], np.cumsum(keep)[trip[rows]] - 1
+    # kept rows only
+    rel_k, v_k = rel[rows], v[rows]
     kept = np.flatnonzero(keep)
     sizes_rows = (ends - starts + 1)[kept]
     row_start = np.concatenate([[0], np.cumsum(sizes_rows)[:-1]]).astype(int)
@@ -223,13 +225,19 @@ def resample_trips(df: pd.DataFrame, model: FleetModel):
     g_start = np.concatenate([[0], np.cumsum(n_grid)[:-1]]).astype(int)
     gtrip = np.repeat(np.arange(len(kept)), n_grid)
     x = (np.arange(int(n_grid.sum())) - g_start[gtrip]) * dt
-    speed = _interp(x, gtrip, rel_k, v_k, row_start, row_end)
+    # samples already on the grid (a logger at the step): the values are the samples,
+    # exactly what numpy.interp returns at its own points
+    on_grid = len(x) == len(rel_k) and np.array_equal(x, rel_k)
+
+    def interp(values):
+        return values if on_grid else _interp(x, gtrip, rel_k, values, row_start, row_end)
+
+    speed = interp(v_k)
     if grade_pct is not None:
-        grade = _interp(x, gtrip, rel_k, grade_pct[rows] / 100.0, row_start, row_end)
+        grade = interp(grade_pct[rows] / 100.0)
     elif elev is not None:
-        grade = _grades_from_elevation(x, gtrip, speed, _interp(x, gtrip, rel_k, elev[rows],
-                                                                 row_start, row_end),
-                                       g_start, n_grid, model)
+        grade = _grades_from_elevation(x, gtrip, speed, interp(elev[rows]), g_start, n_grid,
+                                       model)
     else:
         grade = np.zeros_like(x)
     grid = Grid(gtrip, x, speed, grade, g_start, n_grid)
@@ -246,10 +254,10 @@ def resample_trips(df: pd.DataFrame, model: FleetModel):
                            f"{dt:g} s near {x[i + 1]:g} s, more than {MAX_USER_ACCEL_MS2:g} m/s²"
                            " (a logging glitch or a unit mistake?)", int(starts[tj]))
         grid, kept = _drop_trips(grid, kept, drop)
-    keys = pd.DataFrame({"vehicle_id": df["vehicle_id"].to_numpy(object)[starts],
-                         "trip_id": df["trip_id"].to_numpy(object)[starts],
-                         "file": df["file"].to_numpy(object)[starts],
-                         "line": df["line"].to_numpy()[starts]})
+    keys = pd.DataFrame({"vehicle_id": df["vehicle_id"].iloc[starts].to_numpy(object),
+                         "trip_id": df["trip_id"].iloc[starts].to_numpy(object),
+                         "file": df["file"].iloc[starts].to_numpy(object),
+                         "line": df["line"].iloc[starts].to_numpy()})
     return keys, grid, reasons, kept
 
 
@@ -307,9 +315,14 @@ def wheel_sums(grid: Grid, coefficients: np.ndarray, vehicle_of_trip: np.ndarray
     sin = iv.sin_grade[inside]
     d = iv.distance_m[inside]
     trip = grid.trip[1:][inside]
-    veh = vehicle_of_trip[trip]
-    c = coefficients[:, veh, :]                       # (V, M, 5) gathered per interval
-    force = c[..., 0] + c[..., 1] * v + c[..., 2] * (v * v) + c[..., 3] * a + c[..., 4] * sin
+    # each trip's coefficients repeated over its intervals (the vehicle axis by index)
+    c_trip = coefficients[:, vehicle_of_trip, :]      # (V, K, 5)
+
+    def per_interval(j):
+        return np.repeat(c_trip[..., j], grid.size - 1, axis=-1)
+
+    force = per_interval(0) + per_interval(1) * v + per_interval(2) * (v * v) + \
+        per_interval(3) * a + per_interval(4) * sin
     offsets = np.concatenate([[0], np.cumsum(grid.size - 1)[:-1]]).astype(int)
     k = len(grid.size)
     if not k:
