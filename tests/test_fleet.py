@@ -302,3 +302,12 @@ def test_us_units(fleet_dir):
     # 1 mi = 1.609344 km exactly (NIST SP 811)
     assert doc["fleet"]["distance_mi"] == pytest.approx(met["fleet"]["distance_km"] / 1.609344)
     assert "fuel_gal" in doc["totals"][0]
+
+
+def test_process_pool_equals_in_process(fleet_dir):
+    # a sum does not depend on which process adds which chunk (identity of addition)
+    one = api.fleet(fleet_dir / "study.yaml")
+    pool = api.fleet(fleet_dir / "study.yaml", workers=2, chunk_rows=200)
+    np.testing.assert_allclose(pool.per_vehicle["positive_energy_kwh"].to_numpy(float),
+                               one.per_vehicle["positive_energy_kwh"].to_numpy(float),
+                               rtol=1e-12)
