@@ -122,6 +122,27 @@ def _code_words(text: str) -> set:
     return set(re.findall(r"[A-Za-z_][A-Za-z0-9_]*", "\n".join(code)))
 
 
+def _load_fleet_example(path: Path) -> None:
+    """Read a fleet study whose trips table is made on demand: a copy that points at
+    its vehicles table and at one generated trip per van in a temporary folder."""
+    import subprocess
+    import sys
+    import tempfile
+
+    from tractive.fleet.study import load_fleet_study
+
+    text = path.read_text(encoding="utf-8")
+    with tempfile.TemporaryDirectory() as tmp:
+        trips = Path(tmp) / "trips.csv"
+        subprocess.run([sys.executable, str(path.parent / "make_trips.py"), "--trips", "1",
+                        "--out", str(trips)], check=True, capture_output=True)
+        copy = Path(tmp) / path.name
+        copy.write_text(text.replace("vehicles: vehicles.csv",
+                                     f"vehicles: {path.parent / 'vehicles.csv'}")
+                        .replace("trips: trips.csv", f"trips: {trips}"), encoding="utf-8")
+        load_fleet_study(copy)
+
+
 def _recorded_keys():
     """(file, field, key) of every key the readers ask for, over all inputs."""
     found = []
@@ -131,7 +152,9 @@ def _recorded_keys():
         data = read_yaml(path)
         user_names = _string_values(data)
         with recording_keys() as record:
-            if "baseline" in data:
+            if "fleet" in data:
+                _load_fleet_example(path)
+            elif "baseline" in data:
                 load_study(path)
             else:
                 load_vehicle(path)

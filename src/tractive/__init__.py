@@ -20,6 +20,7 @@ _EXPORTS = {
     "cycles": "api", "energy": "api", "energy_mix": "api", "performance": "api",
     "range_curve": "api", "compare": "api", "coastdown": "api", "coastdown_quick": "api",
     "load_vehicle": "api", "load_profiles": "api", "write_study_outputs": "api",
+    "lap": "api", "fleet": "api",
     "InputError": "errors", "Vehicle": "vehicle", "Profile": "profiles",
     "resolve_profile": "profiles", "RoadLoad": "roadload", "wheel_demand": "demand",
     "StudyResult": "study.results", "METRICS": "metrics", "Metric": "metrics",

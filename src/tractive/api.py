@@ -845,3 +845,69 @@ def write_lap_plot(reports: Sequence[LapReport], path):
 
 
 __all__ += ["lap", "LapReport", "write_lap_plot", "MAX_LAPS"]
+
+
+# ---------------------------------------------------------------------------
+# fleet
+# ---------------------------------------------------------------------------
+
+#: file types the per-vehicle fleet output may have
+FLEET_OUTPUT_SUFFIXES = (".csv", ".parquet", ".xlsx")
+
+
+def fleet(study: str | os.PathLike, *, workers: int | None = None,
+          scheduler: str | None = None, chunk_rows: int | None = None,
+          units: str = "metric", show_progress: bool = False):
+    """Run a fleet study: every vehicle over its recorded trips, as it is and with each
+    modification (see :mod:`tractive.fleet`).
+
+    Parameters
+    ----------
+    study : path
+        Study YAML file with a ``fleet: {vehicles: FILE, trips: FILE}`` block.
+    workers : int, optional
+        Local worker processes (default: this process).
+    scheduler : str, optional
+        Run under Dask: ``threads``, ``processes``, ``synchronous`` or a
+        scheduler address.
+    chunk_rows : int, optional
+        Trip rows per batch (default from the memory budget).
+    units : {"metric", "us"}
+        Units of ``to_dict()`` and of the per-vehicle table.
+    show_progress : bool
+        Progress on stderr when stderr is a terminal.
+
+    Returns
+    -------
+    tractive.fleet.FleetResult
+    """
+    from .fleet import run_fleet
+
+    _check_units(units)
+    if workers is not None and not 1 <= workers <= 256:
+        raise InputError(f"--workers must be from 1 to 256, got {workers}", field="workers")
+    if chunk_rows is not None and chunk_rows < 2:
+        raise InputError(f"chunk_rows must be at least 2, got {chunk_rows}", field="chunk_rows")
+    result = run_fleet(study, workers=workers, scheduler=scheduler, chunk_rows=chunk_rows,
+                       show_progress=show_progress)
+    return result.with_units(units)
+
+
+def check_fleet_output(path, study: str | os.PathLike) -> None:
+    """Refuse a fleet output name before the run (.csv, .parquet or .xlsx; never an input)."""
+    from .fleet.output import check_output
+    from .fleet.study import load_fleet_study, study_inputs
+
+    check_output(path, study_inputs(load_fleet_study(study)))
+
+
+def write_fleet_output(result, path):
+    """Write a fleet result's per-vehicle table (.csv, .parquet) or workbook (.xlsx),
+    atomically and never over an input. Returns the path written."""
+    from .fleet.output import write_output
+    from .fleet.study import study_inputs
+
+    return write_output(result, path, study_inputs(result.spec))
+
+
+__all__ += ["fleet", "check_fleet_output", "write_fleet_output", "FLEET_OUTPUT_SUFFIXES"]

@@ -27,6 +27,7 @@ COMMAND_MODULES = {
     "coastdown": "coastdown",
     "coastdown-quick": "coastdown",
     "lap": "lap",
+    "fleet": "fleet",
 }
 
 

@@ -417,7 +417,9 @@ def _echo_vehicle(rd: _Reader, section: str, veh: Vehicle, src: str, raw=None):
             _echo_block(rd, section, block, raw[block], src)
 
 
-def _read_modifications(sec: Section, rd: _Reader) -> list:
+def _read_modifications(sec: Section, rd: _Reader, extra_keys=()) -> list:
+    """Parse ``modifications``; ``extra_keys`` are further keys a caller reads itself
+    (a fleet study's ``applies_to``)."""
     mods = []
     seen = {"baseline"}
     for m in sec.sections("modifications"):
@@ -446,7 +448,7 @@ def _read_modifications(sec: Section, rd: _Reader) -> list:
         if vehicle is None and not changes:
             raise m.error("a modification needs changes or a vehicle file", "changes")
         m.raw("notes")
-        m.finish()
+        m.finish(allowed_extra=extra_keys)
         mods.append(ModificationSpec(name=name, cost=cost, changes=changes, vehicle=vehicle,
                                      cost_std=cost_std, file=m.file, field=m.prefix, line=m.line, raw=raw))
     if not mods:
@@ -682,7 +684,10 @@ def _read_driving(sec: Section, rd: _Reader):
     return profiles, mixes, dt_s
 
 
-def _read_economics(sec: Section, rd: _Reader) -> EconomicsSpec | None:
+def _read_economics(sec: Section, rd: _Reader, *,
+                    distance_required: bool = True) -> EconomicsSpec | None:
+    """Parse ``economics``; without ``distance_required`` the annual distance may be
+    left out (None: a fleet study takes each vehicle's from its table)."""
     e = sec.section("economics", required=False)
     if e is None:
         return None
@@ -698,8 +703,10 @@ def _read_economics(sec: Section, rd: _Reader) -> EconomicsSpec | None:
         from ..units import MILE_M
         dist = rd.num(e, "annual_distance_mi", "economics", "mi", min=0.0,
                       min_inclusive=False) * MILE_M / 1000.0
-    else:
+    elif distance_required or e.has("annual_distance_km"):
         dist = rd.num(e, "annual_distance_km", "economics", "km", min=0.0, min_inclusive=False)
+    else:
+        dist = None
     loc("annual_distance_km")
     if e.has("fuel_price_per_l") and e.has("fuel_price_per_gal"):
         raise e.error("give fuel_price_per_l or fuel_price_per_gal, not both",
