@@ -35,6 +35,8 @@ from .errors import InputError
 from .limits import MAX_DRAWS, MAX_MASS_KG, MAX_USER_SPEED_KMH
 from .plain import json_text, plain
 
+from .reading import ReadOptions, reading
+
 if TYPE_CHECKING:                       # heavy modules are imported where they are used,
     from .vehicle import Vehicle        # so that `tractive --help` starts fast
 
@@ -44,7 +46,7 @@ __all__ = ["cycles", "energy", "energy_mix", "performance", "range_curve", "comp
            "RangeCurveReport", "InputError", "json_text", "plain", "DEFAULT_ENERGY_CYCLES",
            "STUDY_OUTPUT_SUFFIXES", "MAX_DRAWS", "MAX_MASS_KG", "MAX_USER_SPEED_KMH",
            "headline_sentences", "metric_info", "numfmt", "key_in_units", "UNIT_SYSTEMS",
-           "check_figure", "write_study_plot", "write_range_plot"]
+           "check_figure", "write_study_plot", "write_range_plot", "ReadOptions", "reading"]
 
 #: cycles run by ``tractive energy`` when none is named
 DEFAULT_ENERGY_CYCLES = ("wltc3b", "udds", "hwfet")
@@ -104,7 +106,8 @@ class CyclesReport:
 
 
 def cycles(profiles: Sequence[str] = (), *, dt_s: float = 1.0,
-           base_dir: str | os.PathLike | None = None) -> CyclesReport:
+           base_dir: str | os.PathLike | None = None,
+           read: ReadOptions | None = None) -> CyclesReport:
     """Statistics of every bundled cycle, or of the profiles named.
 
     Parameters
@@ -115,6 +118,8 @@ def cycles(profiles: Sequence[str] = (), *, dt_s: float = 1.0,
         Time step [s] user files are resampled to (above 0, at most 60).
     base_dir : path, optional
         Folder that relative file names are read from.
+    read : ReadOptions, optional
+        How speed files and GPS tracks are read (columns, gaps, smoothing).
     """
     from .profiles import list_cycles, load_cycle, profile_statistics, resolve_profile
 
@@ -129,7 +134,7 @@ def cycles(profiles: Sequence[str] = (), *, dt_s: float = 1.0,
         return CyclesReport("cycles", tuple(rows))
     rows = []
     for text in profiles:
-        prof = resolve_profile(text, base_dir=base_dir, dt_s=dt_s)
+        prof = resolve_profile(text, base_dir=base_dir, dt_s=dt_s, read=read)
         stats = profile_statistics(prof).to_dict()
         stats["name"] = text
         stats["source"] = prof.source
@@ -191,11 +196,12 @@ class EnergyReport:
 
 
 def load_profiles(specs: Sequence[str], *, base_dir: str | os.PathLike | None = None,
-                  dt_s: float = 1.0) -> list:
-    """Resolve profile expressions (cycle names, phases, files, ``steady:``, ``+``, ``*``)."""
+                  dt_s: float = 1.0, read: ReadOptions | None = None) -> list:
+    """Resolve profile expressions (cycle names, phases, files, ``steady:``, ``+``, ``*``),
+    reading speed files with ``read`` (columns, gaps, smoothing) when given."""
     from .profiles import resolve_profile
 
-    return [resolve_profile(s, base_dir=base_dir, dt_s=dt_s) for s in specs]
+    return [resolve_profile(s, base_dir=base_dir, dt_s=dt_s, read=read) for s in specs]
 
 
 def energy(vehicle: "Vehicle | str | os.PathLike", profiles: Sequence = (), *,
@@ -464,7 +470,7 @@ def _ambient(vehicle, ambient_c) -> tuple:
 # ---------------------------------------------------------------------------
 
 def compare(study: str | os.PathLike, *, draws: int | None = None, seed: int | None = None,
-            series: bool = False):
+            series: bool = False, read: ReadOptions | None = None):
     """Run a study file: the baseline and its modifications on every profile and mix.
 
     Parameters
@@ -477,6 +483,9 @@ def compare(study: str | os.PathLike, *, draws: int | None = None, seed: int | N
         Random seed (overrides the study).
     series : bool
         Keep the nominal time series (for the workbook's profile sheets).
+    read : ReadOptions, optional
+        How the study's speed files and GPS tracks are read (columns, gaps,
+        smoothing), at any depth of its profile expressions.
 
     Returns
     -------
@@ -491,9 +500,9 @@ def compare(study: str | os.PathLike, *, draws: int | None = None, seed: int | N
         raise InputError(f"--draws must be from 0 to {MAX_DRAWS}, got {draws}")
     if seed is not None and seed < 0:
         raise InputError(f"--seed must not be negative, got {seed}")
-    with tracking() as read:
+    with tracking() as files, reading(read):
         result = run_study(study, draws=draws, seed=seed, series=series)
-    return replace(result, input_files=tuple(sorted({r.path for r in read})))
+    return replace(result, input_files=tuple(sorted({r.path for r in files})))
 
 
 def check_outputs(paths: Sequence[str], inputs: Sequence = ()) -> None:

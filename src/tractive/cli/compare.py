@@ -7,6 +7,7 @@ import click
 from .. import api
 from . import cli
 from ._output import emit_json, fmt, table
+from ._reading import read_options_from, reading_options
 
 #: columns of the text table (shown when present), metric and US units
 _HEADLINE = ("positive_energy_wh_per_km", "positive_energy_wh_per_mi", "battery_wh_per_km",
@@ -22,6 +23,7 @@ _HEADLINE = ("positive_energy_wh_per_km", "positive_energy_wh_per_mi", "battery_
 @click.option("--plot", "plot_file", default=None, metavar="FILE",
               help="Draw each variant's headline changes with their intervals, one panel "
                    "per profile or mix, into FILE (.png, .svg or .pdf).")
+@reading_options
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
 @click.option("--draws", type=int, default=None, metavar="N",
               help=f"Monte Carlo draws (overrides the study; 0 = nominal only; at most "
@@ -36,7 +38,7 @@ _HEADLINE = ("positive_energy_wh_per_km", "positive_energy_wh_per_mi", "battery_
               help="One wide row per variant and profile with every headline column "
                    "side by side (for wide terminals and copying).")
 def compare_command(study_file, outputs, plot_file, as_json, draws, seed, metrics, show_all,
-                    wide):
+                    wide, **reading):
     """Compare a baseline vehicle with its modifications on every profile and duty mix.
 
     Reports energy, fuel or battery use, range, performance and money for each
@@ -49,7 +51,8 @@ def compare_command(study_file, outputs, plot_file, as_json, draws, seed, metric
     if plot_file:
         api.check_figure(plot_file, [study_file])
     result = api.compare(study_file, draws=draws, seed=seed,
-                         series=any(o.lower().endswith(".xlsx") for o in outputs))
+                         series=any(o.lower().endswith(".xlsx") for o in outputs),
+                         read=read_options_from(reading))
     api.write_study_outputs(result, outputs)
     if plot_file:
         api.write_study_plot(result, plot_file)

@@ -7,6 +7,7 @@ import click
 from .. import api
 from . import cli
 from ._output import emit_json, table
+from ._reading import read_options_from, reading_options
 
 _STATS = [("duration_s", "duration s", ".0f"), ("distance_km", "distance km", ".3f"),
           ("mean_speed_kmh", "mean km/h", ".1f"), ("max_speed_kmh", "max km/h", ".1f"),
@@ -18,8 +19,9 @@ _STATS = [("duration_s", "duration s", ".0f"), ("distance_km", "distance km", ".
 @click.argument("profiles", nargs=-1, metavar="[NAME_OR_FILE ...]")
 @click.option("--dt-s", type=float, default=1.0, show_default=True,
               help="Time step [s] that user files are resampled to.")
+@reading_options
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
-def cycles_command(profiles, dt_s, as_json):
+def cycles_command(profiles, dt_s, as_json, **reading):
     """List the bundled drive cycles with duration, distance and speeds, or show
     the same statistics for the profiles named (cycles, phases such as
     wltc3b:low, CSV or GPX files, steady:90kmh, A+B, A*3).
@@ -30,7 +32,7 @@ def cycles_command(profiles, dt_s, as_json):
     if not dt_s > 0 or dt_s > 60:
         raise click.BadParameter("must be a time step above 0 and at most 60 s",
                                  param_hint="--dt-s")
-    report = api.cycles(profiles, dt_s=dt_s)
+    report = api.cycles(profiles, dt_s=dt_s, read=read_options_from(reading))
     if as_json:
         emit_json(report.to_dict())
         return

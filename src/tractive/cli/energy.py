@@ -8,6 +8,7 @@ from .. import api
 from . import cli
 from ._checks import Number, ranged
 from ._output import emit_json, table
+from ._reading import read_options_from, reading_options
 from ._units import columns_in_units, units_option
 
 #: accepted time step [s] (the range a study's driving.dt_s accepts)
@@ -29,9 +30,10 @@ DT = Number(0.01, 60.0, unit="s")
               help="Distance shares of the cycles (in --cycle order, adding up to 1) for a "
                    "weighted-mix row: wheel Wh/km, and with a powertrain consumption, CO2 "
                    "and range (share-weighted per-km values).")
+@reading_options
 @units_option
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document.")
-def energy_command(vehicle_file, cycles, dt_s, mix_shares, units, as_json):
+def energy_command(vehicle_file, cycles, dt_s, mix_shares, units, as_json, **reading):
     """Wheel energy of a vehicle over drive cycles (UN GTR No. 15 Annex 7 method).
 
     Positive energy is what the wheels deliver; negative energy is what braking
@@ -41,7 +43,9 @@ def energy_command(vehicle_file, cycles, dt_s, mix_shares, units, as_json):
     """
     shares = None if mix_shares is None else _shares(mix_shares)
     report = api.energy(vehicle_file, api.load_profiles(cycles or api.DEFAULT_ENERGY_CYCLES,
-                                                        dt_s=dt_s), units=units)
+                                                        dt_s=dt_s,
+                                                        read=read_options_from(reading)),
+                        units=units)
     if shares is not None:
         try:
             report = api.EnergyReport(report.vehicle, report.results,

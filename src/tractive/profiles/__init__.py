@@ -36,6 +36,7 @@ from .gpstrack import PAUSE_RADIUS_M, SPEED_WINDOW_S, STOP_SPEED_MS, read_gpx
 from .grade import GRADE_WINDOW_M
 from .model import Phase, Profile
 from .ops import concatenate, constant_speed, repeat, resample
+from ..reading import ReadOptions, reading
 from .speedcsv import read_speed_csv
 from .stats import IDLE_SPEED_MS, ProfileStats, profile_statistics
 
@@ -46,5 +47,5 @@ __all__ = [
     "Phase", "Profile", "CycleInfo", "ProfileStats",
     "list_cycles", "cycle_info", "load_cycle", "read_speed_csv", "read_gpx",
     "constant_speed", "resample", "repeat", "concatenate", "profile_statistics",
-    "resolve_profile", "haversine_distance_m",
+    "resolve_profile", "haversine_distance_m", "ReadOptions", "reading",
 ]

@@ -44,6 +44,7 @@ from .cycles import BUNDLED_STEP_S, cycle_names, load_cycle, unknown_cycle
 from .gpstrack import read_gpx
 from .model import SPEED_UNITS, Profile, positive, whole
 from .ops import concatenate, constant_speed, repeat
+from ..reading import ReadOptions, current_options, reading
 from .speedcsv import read_speed_csv
 
 __all__ = ["resolve_profile"]
@@ -101,10 +102,11 @@ def _resolve_atom(text: str, quoted: bool, base_dir, dt_s: float) -> Profile:
     low = atom.lower()
     if quoted or low.endswith((".csv", ".gpx")):
         path = _resolve_path(atom, base_dir)
+        opts = current_options()
         if low.endswith(".gpx"):
-            return read_gpx(path, dt_s=dt_s, name=atom)
+            return read_gpx(path, dt_s=dt_s, name=atom, **opts.gpx_kwargs())
         if low.endswith(".csv"):
-            return read_speed_csv(path, dt_s=dt_s, name=atom)
+            return read_speed_csv(path, dt_s=dt_s, name=atom, **opts.csv_kwargs())
         raise InputError(f"'{atom}': a speed file must end in .csv or .gpx")
     if low.startswith("steady:") or low == "steady":
         m = _STEADY.match(atom)
@@ -143,7 +145,8 @@ def _is_bundled_atom(kind: str, text: str) -> bool:
     return low.partition(":")[0].strip() in cycle_names()
 
 
-def resolve_profile(text: str, base_dir=None, dt_s: float = 1.0) -> Profile:
+def resolve_profile(text: str, base_dir=None, dt_s: float = 1.0,
+                    read: ReadOptions | None = None) -> Profile:
     """The profile a user names in a string (grammar in the module docstring).
 
     Parameters
@@ -161,6 +164,9 @@ def resolve_profile(text: str, base_dir=None, dt_s: float = 1.0) -> Profile:
         regulated distance and energy. When a joined string (``A+B``) contains
         a bundled cycle, its other terms are read at that 1 s step too, so
         that the parts can be joined (whatever ``dt_s`` is).
+    read : ReadOptions, optional
+        How speed files and GPS tracks are read (default: the options in force,
+        see :func:`tractive.reading.reading`).
 
     Returns
     -------
@@ -176,6 +182,9 @@ def resolve_profile(text: str, base_dir=None, dt_s: float = 1.0) -> Profile:
         acceleration above :data:`~tractive.limits.MAX_USER_ACCEL_MS2` in a user file on its
         final time grid.
     """
+    if read is not None:
+        with reading(read):
+            return resolve_profile(text, base_dir, dt_s)
     if not isinstance(text, str) or not text.strip():
         raise InputError("empty profile: name a drive cycle, a .csv or .gpx file, or "
                          f"steady:<speed>; bundled cycles: {', '.join(cycle_names())}")
