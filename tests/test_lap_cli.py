@@ -109,8 +109,8 @@ def test_circle_from_points_closed_and_curvature(tmp_path):
 
 def test_latitude_longitude_and_gpx(tmp_path):
     # a circle of 200 m radius at 48° N written as degrees: curvature 1/200 m within 0.5 %
-    # (1° of latitude = R_earth·π/180 m on the sphere of tractive.lap.track.EARTH_RADIUS_M)
-    from tractive.lap.track import EARTH_RADIUS_M
+    # (1° of latitude = R_earth·π/180 m on the sphere of tractive.geo.EARTH_RADIUS_M)
+    from tractive.geo import EARTH_RADIUS_M
 
     r, lat0 = 200.0, 48.0
     th = np.linspace(0, 2 * math.pi, 250, endpoint=False)

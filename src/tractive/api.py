@@ -781,6 +781,17 @@ class LapReport:
         return lap_document(self)
 
 
+def read_track(path, *, closed: bool | None = None, smoothing_length_m: float | None = None,
+               step_m: float | None = None):
+    """Read a racing line (CSV or GPX) into a :class:`tractive.lap.Track` (see
+    :func:`tractive.lap.read_track`; None keeps a default)."""
+    from .lap import read_track as _read
+
+    opts = {k: v for k, v in (("smoothing_length_m", smoothing_length_m), ("step_m", step_m))
+            if v is not None}
+    return _read(path, closed=closed, **opts)
+
+
 def lap(vehicle: "Vehicle | str | os.PathLike", track, *, laps: int = 1,
         closed: bool | None = None, mu_cornering: float | None = None,
         mu_braking: float | None = None, start_speed_kmh: float | None = None,
@@ -853,7 +864,7 @@ def write_lap_plot(reports: Sequence[LapReport], path):
     return plot_laps(reports, path, inputs=inputs)
 
 
-__all__ += ["lap", "LapReport", "write_lap_plot", "MAX_LAPS"]
+__all__ += ["lap", "read_track", "LapReport", "write_lap_plot", "MAX_LAPS"]
 
 
 # ---------------------------------------------------------------------------

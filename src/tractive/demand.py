@@ -43,6 +43,7 @@ from functools import cached_property
 
 import numpy as np
 
+from .plain import plain_number
 from .roadload import RoadLoad, _col
 from .units import KWH_J, STANDARD_GRAVITY_MS2
 
@@ -205,23 +206,20 @@ class WheelDemand:
         km = self.distance_km
 
         def per_km(e_j):
-            return _plain(np.asarray(e_j) / 3600.0 / km) if km > 0 else None
+            return plain_number(np.asarray(e_j) / 3600.0 / km) if km > 0 else None
 
         return {
             "cycle": self.profile,
             "distance_km": km,
-            "positive_energy_kwh": _plain(self.positive_energy_kwh),
-            "negative_energy_kwh": _plain(self.negative_energy_kwh),
+            "positive_energy_kwh": plain_number(self.positive_energy_kwh),
+            "negative_energy_kwh": plain_number(self.negative_energy_kwh),
             "positive_energy_wh_per_km": per_km(self.positive_energy_j),
             "negative_energy_wh_per_km": per_km(self.negative_energy_j),
-            "components_kwh": {k: _plain(np.asarray(v) / KWH_J)
+            "components_kwh": {k: plain_number(np.asarray(v) / KWH_J)
                                for k, v in self.components_j.items()},
         }
 
 
-def _plain(x):
-    x = np.asarray(x, float)
-    return float(x) if x.ndim == 0 else x.tolist()
 
 
 def wheel_demand(road_load: RoadLoad, mass_kg, inertial_mass_kg, time_s, speed_ms,

@@ -36,7 +36,8 @@ import numpy as np
 from .errors import InputError
 from .readfiles import note_read
 
-__all__ = ["EARTH_RADIUS_M", "haversine_distance_m", "local_east_north_m",
+__all__ = ["EARTH_RADIUS_M", "haversine_distance_m", "local_east_north_m", "equirectangular_m", "gpx_points",
+           "gpx_positions",
            "initial_bearing_deg", "check_coordinates", "GpsTrack", "read_gpx_track"]
 
 #: mean Earth radius [m] (IUGG R1 of GRS 80, Moritz 2000, rounded to 0.1 m)
@@ -227,25 +228,17 @@ def read_text(path: Path, kind: str) -> str:
                          file=str(path)) from None
 
 
-def read_gpx_track(path, *, routes: bool = True) -> GpsTrack:
-    """Read the points of a GPX 1.0/1.1 file [2]_ with gpxpy.
+def gpx_points(text: str, file: str, *, routes: bool = True) -> tuple:
+    """The points of a GPX document: gpxpy point objects, their kind ("track point" or
+    "route point") and their 1-based lines (0 where unknown) as an int array.
 
-    All track points of all tracks and segments in file order; when there is
-    no track and ``routes`` is true, all route points. Every point needs a
-    time; positions must be within ±90° latitude and ±180° longitude.
-
-    Raises
-    ------
-    InputError
-        Unreadable or malformed file, no points, a point without time or
-        with an impossible position (its number and line).
+    All track points of all tracks and segments in file order; when there is no
+    track and ``routes`` is true, all route points. Raises :class:`InputError`
+    for a malformed document or one without points.
     """
     import gpxpy
     import gpxpy.gpx
 
-    path = Path(path)
-    file = str(path)
-    text = read_text(path, "GPX")
     try:
         gpx = gpxpy.parse(text)
     except Exception as exc:  # gpxpy raises several types for malformed content
@@ -261,6 +254,52 @@ def read_gpx_track(path, *, routes: bool = True) -> GpsTrack:
                          file=file)
     lines = _tag_lines(text, tag)
     line = np.array(lines if len(lines) == len(points) else [0] * len(points), dtype=int)
+    return points, kind, line
+
+
+def gpx_positions(text: str, file: str) -> tuple:
+    """Latitudes and longitudes [°], elevations [m] (None unless every point has one)
+    and lines of a GPX document's points; times are not needed (a racing line)."""
+    points, kind, line = gpx_points(text, file)
+    lat = np.array([p.latitude for p in points], dtype=float)
+    lon = np.array([p.longitude for p in points], dtype=float)
+    check_coordinates(lat, lon, file=file, lines=line, what=kind)
+    ele = [p.elevation for p in points]
+    z = None if any(e is None for e in ele) else np.array(ele, float)
+    return lat, lon, z, line
+
+
+def equirectangular_m(lat_deg, lon_deg, radius_m: float = EARTH_RADIUS_M) -> tuple:
+    """East and north [m] of each point from the first on the plane of an
+    equirectangular projection about the mean latitude φ₀: east = R·cos φ₀·Δλ,
+    north = R·Δφ (Snyder, Map Projections — A Working Manual, USGS PP 1395, 1987,
+    ch. 12). Unlike :func:`local_east_north_m`, a closed loop in degrees stays
+    closed on the plane, which a racing line's curvature needs; over a circuit
+    (a few km) its scale error is far below a millimetre per metre.
+    """
+    phi = np.radians(np.asarray(lat_deg, float))
+    lam = np.radians(np.asarray(lon_deg, float))
+    dlam = (lam - lam[0] + math.pi) % (2.0 * math.pi) - math.pi     # across the antimeridian
+    phi_ref = float(np.mean(phi))
+    return radius_m * math.cos(phi_ref) * dlam, radius_m * (phi - phi[0])
+
+
+def read_gpx_track(path, *, routes: bool = True) -> GpsTrack:
+    """Read the points of a GPX 1.0/1.1 file [2]_ with gpxpy.
+
+    All track points of all tracks and segments in file order; when there is
+    no track and ``routes`` is true, all route points. Every point needs a
+    time; positions must be within ±90° latitude and ±180° longitude.
+
+    Raises
+    ------
+    InputError
+        Unreadable or malformed file, no points, a point without time or
+        with an impossible position (its number and line).
+    """
+    path = Path(path)
+    file = str(path)
+    points, kind, line = gpx_points(read_text(path, "GPX"), file, routes=routes)
     times = []
     for i, p in enumerate(points):
         when = p.time

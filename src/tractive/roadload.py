@@ -44,6 +44,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .plain import plain_number
 from .units import KMH_MS, LBF_N, MPH_MS, STANDARD_GRAVITY_MS2
 
 #: frontal area ≈ factor × overall width × overall height (common practice for
@@ -130,15 +131,15 @@ class RoadLoad:
 
     def coastdown_coefficients(self) -> dict:
         """f0 [N], f1 [N/(km/h)], f2 [N/(km/h)²] (UN GTR No. 15 form)."""
-        return {"f0_n": _plain(self.f0_n),
-                "f1_n_per_kmh": _plain(np.asarray(self.f1_n_per_ms) / _F1_KMH_TO_MS),
-                "f2_n_per_kmh2": _plain(self.f2_n_per_ms2 / _F2_KMH_TO_MS)}
+        return {"f0_n": plain_number(self.f0_n),
+                "f1_n_per_kmh": plain_number(np.asarray(self.f1_n_per_ms) / _F1_KMH_TO_MS),
+                "f2_n_per_kmh2": plain_number(self.f2_n_per_ms2 / _F2_KMH_TO_MS)}
 
     def dyno_coefficients(self) -> dict:
         """A [lbf], B [lbf/mph], C [lbf/mph²] (40 CFR 1066 form)."""
-        return {"a_lbf": _plain(np.asarray(self.f0_n) / LBF_N),
-                "b_lbf_per_mph": _plain(np.asarray(self.f1_n_per_ms) / _B_MPH_TO_MS),
-                "c_lbf_per_mph2": _plain(self.f2_n_per_ms2 / _C_MPH_TO_MS)}
+        return {"a_lbf": plain_number(np.asarray(self.f0_n) / LBF_N),
+                "b_lbf_per_mph": plain_number(np.asarray(self.f1_n_per_ms) / _B_MPH_TO_MS),
+                "c_lbf_per_mph2": plain_number(self.f2_n_per_ms2 / _C_MPH_TO_MS)}
 
     # -- forces -------------------------------------------------------------
     def rolling_force_n(self, speed_ms):
@@ -170,9 +171,6 @@ def _col(x):
     return x[..., None] if x.ndim >= 1 else x
 
 
-def _plain(x):
-    x = np.asarray(x, float)
-    return float(x) if x.ndim == 0 else x.tolist()
 
 
 # ---------------------------------------------------------------------------

@@ -5,7 +5,6 @@ from __future__ import annotations
 import click
 
 from .. import api
-from ..numfmt import number
 from . import cli
 from ._output import emit_json
 from ._units import units_option
@@ -25,9 +24,9 @@ def _cells(row: dict, units: str, cols) -> list:
         k = us_key if units == "us" and us_key else key
         value = row.get(k)
         pct = row.get("change_pct", {}).get(k)
-        text = number(value)
+        text = api.numfmt.number(value)
         if pct is not None and row["variant"] != "baseline" and pct != 0:
-            text += f" {number(pct, signed=True)}%"
+            text += f" {api.numfmt.number(pct, signed=True)}%"
         out.append(text)
     return out
 
@@ -82,8 +81,8 @@ def fleet_command(study_file, as_json, output, workers, scheduler, units, quiet)
         f = doc["fleet"]
         dist = f.get("distance_mi", f.get("distance_km"))
         unit = "mi" if "distance_mi" in f else "km"
-        click.echo(f"{doc['study']}: {f['vehicles']} vehicles, {number(f['trips'])} trips, "
-                   f"{number(dist)} {unit}, {number(f['duration_h'])} h recorded"
+        click.echo(f"{doc['study']}: {f['vehicles']} vehicles, {api.numfmt.number(f['trips'])} trips, "
+                   f"{api.numfmt.number(dist)} {unit}, {api.numfmt.number(f['duration_h'])} h recorded"
                    + (f"; {f['trips_left_out']} trips left out" if f["trips_left_out"] else ""))
         click.echo("")
         for line in _table(doc["totals"], units, "variant"):
@@ -91,11 +90,11 @@ def fleet_command(study_file, as_json, output, workers, scheduler, units, quiet)
         for r in doc["totals"]:
             if "annual_saving" in r:
                 pay = r.get("payback_years")
-                text = (f"{r['variant']}: saves {number(r['annual_saving'])} {doc['currency']} "
+                text = (f"{r['variant']}: saves {api.numfmt.number(r['annual_saving'])} {doc['currency']} "
                         "per year")
                 if "modification_cost" in r:
-                    text += (f" for {number(r['modification_cost'])} {doc['currency']}; payback "
-                             + ("never" if pay is None else f"{number(pay)} years"))
+                    text += (f" for {api.numfmt.number(r['modification_cost'])} {doc['currency']}; payback "
+                             + ("never" if pay is None else f"{api.numfmt.number(pay)} years"))
                     if r.get("payback_exceeds_life"):
                         text += " (beyond the service life)"
                 click.echo(text[:100])

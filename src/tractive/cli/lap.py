@@ -67,11 +67,8 @@ def lap_command(vehicle_files, track_file, laps, closed, mu_cornering, mu_brakin
     """
     if plot_file:
         api.check_figure(plot_file, list(vehicle_files) + [track_file])
-    from ..lap import read_track
-
-    opts = {k: v for k, v in (("smoothing_length_m", smoothing_m), ("step_m", step_m))
-            if v is not None}
-    track = read_track(track_file, closed=closed, **opts)
+    track = api.read_track(track_file, closed=closed, smoothing_length_m=smoothing_m,
+                           step_m=step_m)
     reports = [api.lap(v, track, laps=laps, mu_cornering=mu_cornering, mu_braking=mu_braking,
                        start_speed_kmh=start_kmh, trace=trace, units=units)
                for v in vehicle_files]

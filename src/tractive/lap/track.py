@@ -17,7 +17,7 @@ Geometry from points (method)
 -----------------------------
 Latitude and longitude are projected onto a local east-north plane by the
 equirectangular projection about the track's mean latitude φ₀ (east =
-R·cos φ₀·Δλ, north = R·Δφ, sphere of radius :data:`EARTH_RADIUS_M`): a closed
+R·cos φ₀·Δλ, north = R·Δφ, sphere of radius :data:`tractive.geo.EARTH_RADIUS_M`): a closed
 loop in degrees stays closed, and over a circuit a few km across the scale
 error, Δφ·tan φ₀, stays below about 0.1 % at mid latitudes. The points are parametrised by
 their cumulative chord length u, and x(u), y(u) (and z(u)) are fitted by
@@ -72,18 +72,17 @@ from __future__ import annotations
 
 import math
 import os
-import re
+
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
 from ..errors import InputError
+from ..geo import check_coordinates, equirectangular_m, gpx_positions
 from ..limits import MAX_GRADE_FRACTION
 from ..readfiles import note_read
 
-#: mean Earth radius [m] (IUGG R1 of GRS 80, rounded to 0.1 m; the value of tractive.profiles)
-EARTH_RADIUS_M = 6_371_008.8
 #: default smoothing length: knot spacing of the fitted spline [m]
 DEFAULT_SMOOTHING_M = 10.0
 #: default distance step of the simulation grid [m]
@@ -564,50 +563,18 @@ def _csv_columns(text: str, file: str):
 
 
 def _east_north_m(lat_deg, lon_deg, file, lines):
-    """East and north [m] of each point from the first: equirectangular projection about
-    the mean latitude (a closed loop in degrees stays closed on the plane)."""
-    lat = np.asarray(lat_deg, float)
-    lon = np.asarray(lon_deg, float)
-    bad = np.flatnonzero((np.abs(lat) > 90) | (np.abs(lon) > 180))
-    if bad.size:
-        i = int(bad[0])
-        raise InputError(f"not a latitude/longitude in degrees: {lat[i]:g}, {lon[i]:g}",
-                         file=file, line=lines[i] if lines else None)
-    phi = np.radians(lat)
-    lam = np.radians(lon)
-    dlam = (lam - lam[0] + math.pi) % (2.0 * math.pi) - math.pi     # across the antimeridian
-    phi_ref = float(np.mean(phi))
-    east = EARTH_RADIUS_M * math.cos(phi_ref) * (dlam - dlam[0])
-    north = EARTH_RADIUS_M * (phi - phi[0])
-    return east, north
+    """East and north [m] of each point from the first (the equirectangular projection
+    of :func:`tractive.geo.equirectangular_m`: a closed loop stays closed)."""
+    check_coordinates(lat_deg, lon_deg, file=file, lines=lines, what="point",
+                      lat_field="latitude_deg", lon_field="longitude_deg")
+    return equirectangular_m(lat_deg, lon_deg)
 
 
 def _gpx_points(text: str, file: str):
     """Plane coordinates [m], elevations (or None) and lines of a GPX file's points."""
-    import gpxpy
-
-    try:
-        gpx = gpxpy.parse(text)
-    except Exception as exc:  # gpxpy raises several types for malformed content
-        detail = " ".join(str(exc).split()) or exc.__class__.__name__
-        raise InputError(f"not a valid GPX file: {detail}", file=file) from None
-    points = [p for trk in gpx.tracks for seg in trk.segments for p in seg.points]
-    tag = "trkpt"
-    if not points:
-        points = [p for rte in gpx.routes for p in rte.points]
-        tag = "rtept"
-    if not points:
-        raise InputError("no track points or route points", file=file)
-    starts = [m.start() for m in re.finditer(rf"<(?:[A-Za-z_][\w.-]*:)?{tag}[\s/>]", text)]
-    newlines = np.array([m.start() for m in re.finditer("\n", text)], dtype=np.int64)
-    lines = (np.searchsorted(newlines, np.array(starts, dtype=np.int64)) + 1).tolist()
-    if len(lines) != len(points):
-        lines = [None] * len(points)
-    lat = np.array([p.latitude for p in points], float)
-    lon = np.array([p.longitude for p in points], float)
-    ele = [p.elevation for p in points]
-    z = None if any(e is None for e in ele) else np.array(ele, float)
-    x, y = _east_north_m(lat, lon, file, lines)
+    lat, lon, z, lines = gpx_positions(text, file)
+    lines = [int(x) or None for x in lines]
+    x, y = equirectangular_m(lat, lon)
     return x, y, z, lines
 
 

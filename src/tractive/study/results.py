@@ -31,6 +31,7 @@ from typing import Any
 import numpy as np
 
 from ..metrics import REGISTRY, ordered_keys
+from ..plain import plain
 
 #: role of a variant
 BASELINE = "baseline"
@@ -183,7 +184,7 @@ class TimeSeries:
 
 def _finite_list(values) -> list:
     """Floats of an array as a JSON-ready list (NaN and infinity become None)."""
-    return [float(v) if np.isfinite(v) else None for v in np.asarray(values, float).tolist()]
+    return plain(np.asarray(values, float))
 
 
 @dataclass(frozen=True)
