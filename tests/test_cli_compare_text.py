@@ -34,7 +34,12 @@ def test_every_line_fits_and_each_variant_has_its_headline(example, width):
         # the headline sentence starts with the variant's name and carries an interval
         start = next(i for i, line in enumerate(lines) if line.startswith(v["name"] + " ")
                      or line.startswith(v["name"] + ":"))
-        assert "…" in lines[start]
+        sentence = [lines[start]]
+        for line in lines[start + 1:]:
+            if not line.startswith("  "):
+                break
+            sentence.append(line)
+        assert "…" in " ".join(sentence)
     assert "change" in text and "baseline" in text
 
 

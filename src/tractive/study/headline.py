@@ -7,8 +7,8 @@ Example::
     (-12 … -4.4) on ring road; per year on florist week, energy cost +EUR 21
     (+10 … +32); never pays back: it raises the energy cost.
 
-The main figure per profile is the range when the variant has a powertrain,
-else the wheel energy per distance; top speed and 0-100 (0-60 mph) follow when
+The main figure per profile is the range of an electric vehicle, the fuel
+consumption of a combustion one, else the wheel energy per distance; top speed and 0-100 (0-60 mph) follow when
 they change. Money per year is taken on the first duty mix (the study's
 description of a year's driving), else on the first profile. A change whose
 interval includes zero says so ("about 0"). Text only: numbers are rounded
@@ -21,10 +21,11 @@ from ..metrics import lookup
 from ..numfmt import interval, number
 from .results import BASELINE
 
-#: main figure per profile, first present wins (metric and US keys)
-MAIN_KEYS = ("range_km", "range_mi", "fuel_l_per_100km", "fuel_economy_mpg",
-             "battery_wh_per_km", "battery_wh_per_mi", "positive_energy_wh_per_km",
-             "positive_energy_wh_per_mi")
+#: main figure per profile, first present wins (metric and US keys): range for an
+#: electric vehicle (the converter's question), fuel for a combustion one (the fleet's),
+#: else wheel energy per distance
+MAIN_KEYS = ("battery_range", "fuel_l_per_100km", "fuel_economy_mpg",
+             "positive_energy_wh_per_km", "positive_energy_wh_per_mi")
 #: figures the same on every profile, shown once when they change
 PERFORMANCE_KEYS = ("top_speed_kmh", "top_speed_mph", "accel_0_100_kmh_s",
                     "accel_0_60_mph_s")
@@ -75,9 +76,21 @@ def _change(result, row, key: str) -> str | None:
     return f"{value} {unit} {rng}".strip()
 
 
+def _main_keys(rows) -> tuple:
+    """MAIN_KEYS with "battery_range" standing for the range of an electric vehicle."""
+    electric = any(k.startswith("battery_wh_per") for r in rows for k in r.metrics)
+    out = []
+    for k in MAIN_KEYS:
+        if k == "battery_range":
+            out += ["range_km", "range_mi"] if electric else []
+        else:
+            out.append(k)
+    return tuple(out)
+
+
 def _per_profile(result, rows) -> str:
     """The main figure's change on each profile and mix."""
-    key = next((k for k in MAIN_KEYS if any(k in r.change for r in rows)), None)
+    key = next((k for k in _main_keys(rows) if any(k in r.change for r in rows)), None)
     if key is None:
         return "no change that a profile shows"
     pieces = []
