@@ -71,7 +71,7 @@ from ..metrics import l_per_100km_to_mpg
 from ..plain import plain_number
 from ..spec import Section
 from ..units import KMH_MS, KWH_J, UK_GALLON_L, US_GALLON_L
-from ._common import STANDSTILL_MS, col, range_from, safe_divide
+from ._common import STANDSTILL_MS, col, range_from, safe_divide, sustained_seconds
 from .base import ParamField
 from .drive import (RPM_RADS, FullLoadCurve, Gearing, parse_full_load, parse_gear_ratios,
                     rads_to_rpm)
@@ -649,7 +649,7 @@ class CombustionPowertrain:
         acc_kwh = np.asarray(self.accessory_power_w, float) * (
             duration if running_s > 0 else 0.0) / KWH_J
         idle_kg = np.sum(np.where(op["idle"], op["fuel_kg_s"], 0.0) * dt, axis=-1)
-        over_s = np.sum(np.where(op["over_limit"], dt, 0.0), axis=-1)
+        over_s = sustained_seconds(op["over_limit"], dt)
         name = getattr(profile, "name", None) or demand.profile
         return CombustionResult(
             profile=name, fuel=self.fuel, distance_km=demand.distance_m / 1000.0,

@@ -45,7 +45,7 @@ import numpy as np
 from ..spec import Section
 from ..units import KMH_MS, KWH_J
 from ..plain import plain_number
-from ._common import STANDSTILL_MS, col, range_from, safe_divide
+from ._common import STANDSTILL_MS, col, range_from, safe_divide, sustained_seconds
 from .base import ParamField
 from .drive import MotorEnvelope, motor_fields, parse_motor, rads_to_rpm
 from .maps import SpeedTorqueMap, parse_speed_torque_map
@@ -349,7 +349,7 @@ class ElectricPowertrain:
             wall = battery_j / KWH_J / np.asarray(self.charger_efficiency, float)
         over_s = None
         if self.motor is not None and self.gear_ratio is not None:
-            over_s = np.sum(np.where(parts["over_limit"], dt, 0.0), axis=-1)
+            over_s = sustained_seconds(parts["over_limit"], dt)
         name = getattr(profile, "name", None) or demand.profile
         return ElectricResult(
             profile=name, distance_km=demand.distance_m / 1000.0, duration_s=duration,
