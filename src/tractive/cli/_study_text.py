@@ -45,13 +45,18 @@ def output_width() -> int:
 
 
 def default_metrics(result) -> list:
-    """The headline metrics present in the result (one per group)."""
+    """The headline metrics present in the result (one per group), leaving out one that
+    no variant changes at all (a governed top speed): it would fill a column with 0."""
     present = set(result.metric_keys())
     out = []
     for group in DEFAULT_GROUPS:
         key = next((k for k in group if k in present), None)
-        if key is not None:
-            out.append(key)
+        if key is None:
+            continue
+        changes = [r.change.get(k) for r in result.rows for k in (key,) if k in r.change]
+        if changes and all(c == 0 for c in changes):
+            continue
+        out.append(key)
     return out
 
 
