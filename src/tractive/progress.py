@@ -56,9 +56,13 @@ def progress(total: int | None, desc: str = "", quiet: bool = False, *, stream=N
     unit : str
         Name of one step in the rate shown.
     """
+    stream = sys.stderr if stream is None else stream
+    # the command line escapes control characters on its streams; a bar draws with
+    # them, so it writes to the stream underneath
+    stream = getattr(stream, "_stream", stream)
     if not shows_progress(stream, quiet):
         return NoProgress()
     from tqdm import tqdm
 
-    return tqdm(total=total, desc=desc, unit=unit, file=sys.stderr if stream is None else stream,
-                leave=False, dynamic_ncols=True)
+    return tqdm(total=total, desc=desc, unit=unit, file=stream, leave=False,
+                dynamic_ncols=True)

@@ -39,7 +39,7 @@ from ..spec import load_section
 from ..units import KWH_J, STANDARD_GRAVITY_MS2
 from . import tables
 from .engine import BATCH_COLUMNS, FleetModel, trip_batch
-from .progress import progress
+from ..progress import progress
 
 #: per-vehicle sums kept for each variant
 SUMS = ("trips", "distance_m", "duration_s", "positive_j", "negative_j", "battery_j", "wall_j",
@@ -228,7 +228,7 @@ def run_batches(spec: FleetSpec, model: FleetModel, *, chunk_rows: int | None = 
     ids = set(model.vehicle_ids)
     chunks = tables.iter_trip_chunks(spec.trips_file, rows=rows, known_ids=ids)
     total, rejected = None, []
-    bar = progress(show_progress, "trips")
+    bar = progress(None, "fleet trips", quiet=not show_progress, unit=" rows")
     if not workers or workers <= 1:
         for chunk in chunks:
             sums, rej = reduce_trips(trip_batch(chunk, model))
