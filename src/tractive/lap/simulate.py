@@ -94,6 +94,10 @@ FORCE_GRID_GRADES = 5
 MAX_PASSES = 40
 #: start and finish speed of a closed lap agree within this [m/s]
 PASS_TOLERANCE_MS = 1e-7
+#: largest time step [s] of a simulated lap laid on a uniform time grid for the energy
+#: models (:meth:`LapSimulation.to_profile`): 0.1 s is about 4 m at 150 km/h, two
+#: distance steps of the simulation
+TRACE_DT_S = 0.1
 #: limit codes
 DRIVE, BRAKING, CORNERING = 0, 1, 2
 LIMIT_NAMES = ("drive", "braking", "cornering")
@@ -164,7 +168,7 @@ class LapSimulation:
                              self.limit[i], self.corner_speed_ms[i],
                              float(np.asarray(self.lap_time_s)[i]), self.passes)
 
-    def to_profile(self, *, laps: int = 1, dt_s: float = 0.1, name: str | None = None):
+    def to_profile(self, *, laps: int = 1, dt_s: float = TRACE_DT_S, name: str | None = None):
         """The simulated speed trace on a uniform time grid (one vehicle).
 
         The lap time is divided into whole steps of at most ``dt_s`` [s]
@@ -484,4 +488,4 @@ def simulate_lap(vehicle, track: Track, *, mu_cornering=None, mu_braking=None,
 
 
 __all__ = ["LapSimulation", "simulate_lap", "corner_speed_ms", "LIMIT_NAMES",
-           "SPEED_CAP_MS", "DRIVE", "BRAKING", "CORNERING"]
+           "SPEED_CAP_MS", "TRACE_DT_S", "DRIVE", "BRAKING", "CORNERING"]
