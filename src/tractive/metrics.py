@@ -15,6 +15,13 @@ Kinds (:data:`KINDS`)
                        mix takes the weighted harmonic mean 1 / Σ (wᵢ / xᵢ)
     ``independent``    the same on every profile of a variant (top speed,
                        acceleration, the modification's cost); a mix copies it
+    ``per_profile``    a figure of one profile that is neither summed over the
+                       profile nor the same on every profile (the lap time on
+                       a circuit, the highest speed on the lap); a mix drops
+                       it: a distance share of a lap time has no meaning (a
+                       mix of a lap and a drive cycle has no lap time), and
+                       copying it as ``independent`` would report one
+                       circuit's lap time for a mix of others
     ``annual``         a yearly amount derived after mixing (annual fuel, CO2,
                        cost); never mixed itself
     ``economics``      a comparison with the baseline (saving, payback, NPV);
@@ -54,10 +61,11 @@ TOTAL = "total"
 PER_DISTANCE = "per_distance"
 DISTANCE_PER = "distance_per"
 INDEPENDENT = "independent"
+PER_PROFILE = "per_profile"
 ANNUAL = "annual"
 ECONOMICS = "economics"
 #: every kind of metric (see the module doc)
-KINDS = (TOTAL, PER_DISTANCE, DISTANCE_PER, INDEPENDENT, ANNUAL, ECONOMICS)
+KINDS = (TOTAL, PER_DISTANCE, DISTANCE_PER, INDEPENDENT, PER_PROFILE, ANNUAL, ECONOMICS)
 
 #: unit text standing for the study's currency
 MONEY = "money"
@@ -244,6 +252,11 @@ METRICS: tuple[Metric, ...] = (
        us_only=True),
     _m("accel_50_70_mph_s", "50-70 mph", "s", INDEPENDENT, "lower", attributed=True,
        us_only=True),
+    # a lap simulated per vehicle on a circuit (``lap:`` profiles): one lap, whatever
+    # the number of laps laid end to end; seconds in both systems
+    _m("lap_time_s", "lap time", "s", PER_PROFILE, "lower", attributed=True, headline=True),
+    _m("lap_max_speed_kmh", "highest speed on the lap", "km/h", PER_PROFILE, "higher",
+       us=USForm("lap_max_speed_mph", "mph", "highest speed on the lap", divisor=KM_PER_MI)),
     # descriptors of a command's output (not study metrics): converted, never mixed
     _m("speed_kmh", "speed", "km/h", INDEPENDENT,
        us=USForm("speed_mph", "mph", "speed", divisor=KM_PER_MI)),
@@ -425,7 +438,8 @@ def mix(members: Sequence[Mapping], shares: Sequence[float]) -> dict:
         ``per_distance`` keys as Σ wᵢ·xᵢ, ``distance_per`` keys as
         1 / Σ (wᵢ / xᵢ) (+inf members contribute nothing, a range without
         consumption stays +inf), ``independent`` keys from the first member;
-        totals, annual and economics keys are left out (see the module doc).
+        totals, per-profile figures (lap time), annual and economics keys are
+        left out (see the module doc).
     """
     out = {}
     first = members[0]

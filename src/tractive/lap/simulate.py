@@ -94,6 +94,10 @@ FORCE_GRID_GRADES = 5
 MAX_PASSES = 40
 #: start and finish speed of a closed lap agree within this [m/s]
 PASS_TOLERANCE_MS = 1e-7
+#: largest time step [s] of a simulated lap laid on a uniform time grid for the energy
+#: models (:meth:`LapSimulation.to_profile`): 0.1 s is about 4 m at 150 km/h, two
+#: distance steps of the simulation
+TRACE_DT_S = 0.1
 #: limit codes
 DRIVE, BRAKING, CORNERING = 0, 1, 2
 LIMIT_NAMES = ("drive", "braking", "cornering")
@@ -164,7 +168,7 @@ class LapSimulation:
                              self.limit[i], self.corner_speed_ms[i],
                              float(np.asarray(self.lap_time_s)[i]), self.passes)
 
-    def to_profile(self, *, laps: int = 1, dt_s: float = 0.1, name: str | None = None):
+    def to_profile(self, *, laps: int = 1, dt_s: float = TRACE_DT_S, name: str | None = None):
         """The simulated speed trace on a uniform time grid (one vehicle).
 
         The lap time is divided into whole steps of at most ``dt_s`` [s]
@@ -288,29 +292,39 @@ def _grade_levels(sin_grade: np.ndarray):
 # ---------------------------------------------------------------------------
 
 def corner_speed_ms(car: _Car, curvature, sin_grade):
-    """Cornering (apex) limit [m/s], shape (N, P), by bisection (module doc, limit 1)."""
+    """Cornering (apex) limit [m/s], shape (N, P), by bisection (module doc, limit 1).
+
+    Only the points whose limit lies below :data:`SPEED_CAP_MS` are bisected (on a
+    circuit most points are on straights or gentle bends, free up to the cap); each
+    value is the same as bisecting the whole (N, P) array.
+    """
     kappa = np.abs(np.asarray(curvature, float))[None, :]
     cos_t = np.sqrt(1.0 - np.asarray(sin_grade, float) ** 2)[None, :]
-    m = car.mass_kg[:, None]
-    f0, f1, f2 = car.f0[:, None], car.f1[:, None], car.f2[:, None]
-    d = car.downforce[:, None]
-    mux, muy = car.mu_drive[:, None], car.mu_corner[:, None]
-
-    def excess(v):
-        normal = m * STANDARD_GRAVITY_MS2 * cos_t + d * v * v
-        road = f0 + v * (f1 + f2 * v)
-        return (road / (mux * normal)) ** 2 + (m * v * v * kappa / (muy * normal)) ** 2 - 1.0
-
+    cols = [car.mass_kg, car.f0, car.f1, car.f2, car.downforce, car.mu_drive,
+            car.mu_corner]
+    full = [c[:, None] for c in cols] + [kappa, cos_t]
     shape = (car.n, kappa.shape[1])
-    lo = np.zeros(shape)
     hi = np.full(shape, SPEED_CAP_MS)
-    free = excess(hi) <= 0
-    for _ in range(_BISECTIONS):          # bisection steps on whole (N, P) arrays
+    free = _excess(hi, *full) <= 0
+    rows, pts = np.nonzero(~free)
+    part = [c[rows] for c in cols] + [kappa[0, pts], cos_t[0, pts]]
+    lo = np.zeros(rows.size)
+    hi = np.full(rows.size, SPEED_CAP_MS)
+    for _ in range(_BISECTIONS):          # bisection steps on whole arrays
         mid = 0.5 * (lo + hi)
-        ok = excess(mid) <= 0
+        ok = _excess(mid, *part) <= 0
         lo = np.where(ok, mid, lo)
         hi = np.where(ok, hi, mid)
-    return np.where(free, SPEED_CAP_MS, lo)
+    out = np.full(shape, SPEED_CAP_MS)
+    out[rows, pts] = lo
+    return out
+
+
+def _excess(v, m, f0, f1, f2, d, mux, muy, kappa, cos_t):
+    """Friction-ellipse use minus 1 [-] at speed v [m/s] in steady cornering (limit 1)."""
+    normal = m * STANDARD_GRAVITY_MS2 * cos_t + d * v * v
+    road = f0 + v * (f1 + f2 * v)
+    return (road / (mux * normal)) ** 2 + (m * v * v * kappa / (muy * normal)) ** 2 - 1.0
 
 
 class _Forces:
@@ -484,4 +498,4 @@ def simulate_lap(vehicle, track: Track, *, mu_cornering=None, mu_braking=None,
 
 
 __all__ = ["LapSimulation", "simulate_lap", "corner_speed_ms", "LIMIT_NAMES",
-           "SPEED_CAP_MS", "DRIVE", "BRAKING", "CORNERING"]
+           "SPEED_CAP_MS", "TRACE_DT_S", "DRIVE", "BRAKING", "CORNERING"]

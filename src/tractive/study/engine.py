@@ -19,6 +19,26 @@ The draws are evaluated in chunks along the vehicle axis, each chunk in one
 vectorized call, so that one call stays within a memory budget (see
 :func:`chunk_size_for`); the chunk size changes no number.
 
+Laps on a circuit
+    A ``lap:TRACK`` profile (``lap:TRACK*N``: N laps end to end) is not a
+    speed trace given in advance: the lap is simulated per variant and per
+    Monte Carlo draw (:func:`tractive.lap.simulate_lap`, quasi-steady-state
+    point mass, all vehicles of a chunk in one call along the vehicle axis),
+    so a wing's grip in the corners and its drag on the straights both move
+    the speed trace. Each vehicle then has its own trace, of its own
+    duration: it is laid on its own uniform time grid of at most
+    :data:`tractive.lap.TRACE_DT_S` (the study's ``dt_s`` does not apply) and
+    the wheel energy and powertrain models run on it one vehicle at a time
+    (the wheel-energy kernel and ``consume`` take a vehicle axis on the
+    force, not on the time grid; about 0.5 ms per vehicle, 1 s for 2,000
+    draws on a 2.7 km lap, against several seconds for the simulation
+    itself). N laps of a closed lap repeat the flying lap (its start speed
+    equals its finish speed), so totals (kWh, L, s beyond a limit, km) are
+    N times those of one lap and the per-km figures are the lap's. The row
+    gains ``lap_time_s`` (one lap) and ``lap_max_speed_kmh``. The simulation
+    keeps within the drive and the tyres by construction, so the warnings
+    about a profile a variant cannot follow are not raised for laps.
+
 For every variant with a powertrain the engine also sweeps the nominal
 vehicle over constant speeds (:func:`tractive.powertrain.range_curve`) and
 keeps the range curve in the result, in the study's units.
@@ -60,8 +80,8 @@ import numpy as np
 
 from ..demand import COMPONENTS, wheel_demand
 from ..errors import InputError
-from ..metrics import (ECONOMICS, INDEPENDENT, KM_PER_MI, attributed_keys, lookup, mix,
-                       to_units)
+from ..metrics import (ECONOMICS, INDEPENDENT, KM_PER_MI, TOTAL, attributed_keys, lookup,
+                       mix, to_units)
 from ..units import KMH_MS, KWH_J, MPH_MS, US_GALLON_L
 from . import modify
 from .attribution import one_at_a_time, shapley_values, subsets
@@ -69,7 +89,7 @@ from .economics import annual_amount, net_present_value, simple_payback_years
 from .results import (BASELINE, COMBINATION, MODIFICATION, AttributionRow,
                       InputItem, ProfileInfo, RangeCurveSeries, ResultRow, StudyResult,
                       TimeSeries, VariantInfo)
-from .spec import MAX_DRAWS, StudySpec, load_study
+from .spec import MAX_DRAWS, StudySpec, load_study, parse_lap_profile
 from .uncertainty import (UNCERTAIN_PARAMS, clip, clip_powertrain, expand, interval,
                           standard_normal_draws)
 
@@ -135,6 +155,30 @@ class Variant:
     changes: tuple
 
 
+@dataclass(frozen=True)
+class LapProfile:
+    """A ``lap:`` profile: a circuit simulated per vehicle (see the module doc).
+
+    Attributes
+    ----------
+    name : str
+        Profile name in the study.
+    track : Track
+        The racing line (:func:`tractive.lap.read_track`).
+    laps : int
+        Laps laid end to end (1 for ``lap:TRACK``).
+    """
+
+    name: str
+    track: object
+    laps: int
+
+    @property
+    def stations(self) -> int:
+        """Points of the simulated lap (the finish counted)."""
+        return int(self.track.n_points) + 1
+
+
 def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = None,
              series: bool = True, chunk_size: int | None = None) -> StudyResult:
     """Run a validated study (see :func:`run_study`)."""
@@ -146,15 +190,22 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
     prices = _price_draws(spec, rng, n, uncertain)
     costs = _cost_draws(spec, variants, rng, n, uncertain)
 
-    raw_results, demands = {}, {}
+    raw_results, traces = {}, {}
     for v in variants:
-        raw_results[v.name], demands[v.name] = _evaluate(
+        raw_results[v.name], traces[v.name] = _evaluate(
             v.params, profiles, spec.ambient_temperature_c, chunk_size=chunk_size,
             units=spec.units)
+    laps = {p for p, prof in profiles if isinstance(prof, LapProfile)}
+    _check_laps(spec, variants, raw_results, laps, n, warnings)
+    infos = _lap_infos(spec, infos, traces[BASELINE], laps)
     for v in variants:
-        _note_limits(v.name, raw_results[v.name], n, warnings)
+        # a simulated lap keeps within the drive and the tyres: nothing to warn about
+        followed = {p: m for p, m in raw_results[v.name].items() if p not in laps}
+        _note_limits(v.name, followed, n, warnings)
         if v.params.powertrain is None and v.params.performance is not None:
-            _note_wheel_power(v.name, v.params, demands[v.name], warnings)
+            _note_wheel_power(v.name, v.params,
+                              {p: d for p, (_, d) in traces[v.name].items() if p not in laps},
+                              warnings)
     _check_money(spec, raw_results, warnings)
     derived = {v.name: _derive(spec, raw_results[v.name], prices) for v in variants}
     for v in variants:
@@ -172,8 +223,8 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
                                                      out_units, warnings)
     curves = [_range_curve(v.name, v.params, spec) for v in variants
               if v.params.powertrain is not None]
-    series_out = [_series(v.name, p, prof, demands[v.name][p])
-                  for v in variants for p, prof in profiles] if series else []
+    series_out = [_series(v.name, p, *traces[v.name][p])
+                  for v in variants for p, _ in profiles] if series else []
     econ = {} if spec.economics is None else \
         _economics_echo(spec.economics, spec.units, spec.currency)
     return StudyResult(study=spec.name, source=spec.file, units=spec.units,
@@ -206,6 +257,13 @@ def _resolve_profiles(spec: StudySpec) -> tuple:
 
     profiles, infos = [], []
     for ps_ in spec.profiles:
+        lap = parse_lap_profile(ps_.text)
+        if lap is not None:
+            profiles.append((ps_.name, _read_lap(spec, ps_, *lap)))
+            # distance and duration: those of the baseline's lap (see _lap_infos)
+            infos.append(ProfileInfo(ps_.name, "profile", ps_.text, None, None,
+                                     units=spec.units))
+            continue
         try:
             prof = resolve_profile(ps_.text, base_dir=spec.base_dir, dt_s=spec.dt_s)
         except InputError as exc:
@@ -221,6 +279,60 @@ def _resolve_profiles(spec: StudySpec) -> tuple:
         infos.append(ProfileInfo(mx.name, "mix", "", None, None, dict(mx.shares_pct),
                                  units=spec.units))
     return profiles, infos
+
+
+def _read_lap(spec: StudySpec, ps_, path: str, laps: int) -> LapProfile:
+    """The track of a ``lap:`` profile, read relative to the study folder."""
+    from pathlib import Path
+
+    from ..lap import read_track
+
+    file = Path(os.path.expanduser(path))
+    if not file.is_absolute() and spec.base_dir is not None:
+        file = Path(spec.base_dir) / file
+    try:
+        track = read_track(file)
+        if laps > 1 and not track.closed:
+            raise InputError(f"'{path}' is an open stretch, driven once; more laps need a "
+                             f"closed lap (its ends within 50 m)")
+    except InputError as exc:
+        raise _profile_error(exc, spec, ps_) from None
+    return LapProfile(ps_.name, track, laps)
+
+
+def _check_laps(spec: StudySpec, variants, raw_results, laps: set, n: int,
+                warnings: list) -> None:
+    """A variant whose nominal car cannot complete a lap is refused; draws that cannot
+    are noted (their lap figures are left out of the intervals)."""
+    where = {p.name: p for p in spec.profiles}
+    for v in variants:
+        for p in laps:
+            t = np.asarray(raw_results[v.name][p]["lap_time_s"], float)
+            if not np.isfinite(t[0]):
+                ps_ = where[p]
+                raise InputError(f"{v.name} cannot complete the lap '{ps_.text}' (it stalls "
+                                 f"on a climb)", file=spec.file, field=ps_.field,
+                                 line=ps_.line)
+            if n > 0 and not np.all(np.isfinite(t[1:])):
+                share = float(np.mean(~np.isfinite(t[1:]))) * 100.0
+                warnings.append(f"{v.name}: {share:.2g} % of the Monte Carlo draws cannot "
+                                f"complete the lap '{p}' (they stall on a climb); its "
+                                f"intervals are not given")
+
+
+def _lap_infos(spec: StudySpec, infos: list, base_traces: dict, laps: set) -> list:
+    """ProfileInfo of each lap profile with the distance and duration of the baseline's
+    nominal lap(s)."""
+    from ..profiles import profile_statistics
+
+    out = []
+    for info in infos:
+        if info.name in laps and info.kind == "profile":
+            stats = profile_statistics(base_traces[info.name][0]).to_dict()
+            info = replace(info, distance_km=stats.get("distance_km"),
+                           duration_s=stats.get("duration_s"))
+        out.append(info)
+    return out
 
 
 def _uncertainty_echo(n: int, seed: int, spec: StudySpec, uncertain) -> dict:
@@ -471,7 +583,8 @@ def chunk_size_for(ps, profiles, memory_bytes: int = CHUNK_MEMORY_BYTES) -> int:
     memory_bytes : int
         Memory budget [bytes].
     """
-    steps = max((len(prof.time_s) for _, prof in profiles), default=1)
+    steps = max((prof.stations if isinstance(prof, LapProfile) else len(prof.time_s)
+                 for _, prof in profiles), default=1)
     gears = 0
     pt = ps.powertrain
     if getattr(pt, "kind", "") == "combustion" and getattr(pt, "shift_rule", "") != "speeds":
@@ -482,75 +595,150 @@ def chunk_size_for(ps, profiles, memory_bytes: int = CHUNK_MEMORY_BYTES) -> int:
 
 def _evaluate(ps, profiles, ambient_temperature_c=None, chunk_size=None,
               units: str = "metric") -> tuple:
-    """Metric arrays (vehicle axis) per profile, and the wheel demands.
+    """Metric arrays (vehicle axis) per profile, and the nominal traces.
 
     The vehicles are evaluated in chunks along the vehicle axis of at most
     ``chunk_size`` vehicles (default: :func:`chunk_size_for`), each chunk in
     one vectorized call per profile; the metric arrays are joined again. The
-    demands returned are those of the first chunk (which holds the nominal
-    vehicle, index 0).
+    traces returned, profile name → (Profile, WheelDemand), are those of the
+    first chunk (which holds the nominal vehicle, index 0); for a lap, the
+    nominal vehicle's simulated trace over all its laps.
     """
     size = ps.size
     perf = _performance(ps, units=units)
     step = chunk_size_for(ps, profiles) if chunk_size is None else max(1, int(chunk_size))
     if step >= size:
-        out, demands = _evaluate_chunk(ps, profiles, ambient_temperature_c)
+        out, traces = _evaluate_chunk(ps, profiles, ambient_temperature_c)
     else:
         pieces = []
-        demands = None
+        traces = None
         for start in range(0, size, step):
-            out_c, dem_c = _evaluate_chunk(ps.take(slice(start, start + step)), profiles,
-                                           ambient_temperature_c)
+            out_c, tr_c = _evaluate_chunk(ps.take(slice(start, start + step)), profiles,
+                                          ambient_temperature_c, nominal=start == 0)
             pieces.append(out_c)
-            if demands is None:
-                demands = dem_c
+            if traces is None:
+                traces = tr_c
         out = {name: {key: np.concatenate([piece[name][key] for piece in pieces])
                       for key in pieces[0][name]} for name in pieces[0]}
     for met in out.values():
         met.update({k: v.copy() for k, v in perf.items()})
-    return out, demands
+    return out, traces
 
 
-def _evaluate_chunk(ps, profiles, ambient_temperature_c=None) -> tuple:
-    """Wheel energy and powertrain metrics of every vehicle of ``ps`` in one call per profile."""
-    size = ps.size
-    rl = ps.road_load()
-    mass = ps.mass_kg()
-    inertial = ps.inertial_mass_kg()
-    vehicle = ps.vehicle()
-    powertrain = vehicle.powertrain
-    out = {}
-    demands = {}
+def _evaluate_chunk(ps, profiles, ambient_temperature_c=None, nominal: bool = True) -> tuple:
+    """Metrics of every vehicle of ``ps`` on every profile: one vectorized call per
+    profile given as a trace, one lap simulation per lap profile (see :func:`_lap_metrics`).
+
+    Returns the metric arrays per profile and, per profile, the trace and wheel demand
+    of the chunk's first vehicle (for a lap: only when ``nominal``, else None).
+    """
+    view = _View(ps)
+    out, traces = {}, {}
+    for name, prof in profiles:
+        if isinstance(prof, LapProfile):
+            out[name], traces[name] = _lap_metrics(ps, name, prof, ambient_temperature_c,
+                                                   nominal)
+        else:
+            out[name], d = _trace_metrics(view, name, prof, ambient_temperature_c)
+            traces[name] = (prof, d)
+    return out, traces
+
+
+class _View:
+    """Road load, masses and vehicle of a parameter set, computed once."""
+
+    def __init__(self, ps):
+        self.size = ps.size
+        self.road_load = ps.road_load()
+        self.mass_kg = ps.mass_kg()
+        self.inertial_mass_kg = ps.inertial_mass_kg()
+        self.vehicle = ps.vehicle()
+
+
+def _trace_metrics(view: _View, name: str, prof, ambient_temperature_c=None) -> tuple:
+    """Wheel energy and powertrain metrics of every vehicle of a view on one trace.
+
+    Returns the metric arrays, each of shape (N,), and the wheel demand.
+    """
+    size = view.size
+    powertrain = view.vehicle.powertrain
+
     def full(x):
         return np.broadcast_to(np.asarray(x, float), (size,)).copy()
 
-    for name, prof in profiles:
-        d = wheel_demand(rl, mass, inertial, prof.time_s, prof.speed_ms, prof.grade_fraction,
-                         profile=name)
-        km = d.distance_m / 1000.0
-        met = {"distance_km": full(km),
-               "positive_energy_kwh": full(d.positive_energy_j / KWH_J),
-               "negative_energy_kwh": full(d.negative_energy_j / KWH_J)}
-        for comp in COMPONENTS:
-            met[f"{comp}_energy_kwh"] = full(d.components_j[comp] / KWH_J)
-        met["positive_energy_wh_per_km"] = full(d.positive_energy_j / 3600.0 / km)
-        for comp in COMPONENTS:
-            met[f"{comp}_energy_wh_per_km"] = full(d.components_j[comp] / 3600.0 / km)
-        if powertrain is not None:
-            res = powertrain.consume(vehicle, d, prof,
-                                    ambient_temperature_c=ambient_temperature_c)
-            data = res.to_dict() if hasattr(res, "to_dict") else dict(res)
-            for key in POWERTRAIN_KEYS:
-                value = data.get(key)
-                if value is None:
-                    continue
-                arr = np.asarray(value, float)
-                if arr.ndim > 1 or (arr.ndim == 1 and arr.shape[0] != size):
-                    continue
-                met[key] = full(arr)
-        out[name] = met
-        demands[name] = d
-    return out, demands
+    d = wheel_demand(view.road_load, view.mass_kg, view.inertial_mass_kg, prof.time_s,
+                     prof.speed_ms, prof.grade_fraction, profile=name)
+    km = d.distance_m / 1000.0
+    met = {"distance_km": full(km),
+           "positive_energy_kwh": full(d.positive_energy_j / KWH_J),
+           "negative_energy_kwh": full(d.negative_energy_j / KWH_J)}
+    for comp in COMPONENTS:
+        met[f"{comp}_energy_kwh"] = full(d.components_j[comp] / KWH_J)
+    met["positive_energy_wh_per_km"] = full(d.positive_energy_j / 3600.0 / km)
+    for comp in COMPONENTS:
+        met[f"{comp}_energy_wh_per_km"] = full(d.components_j[comp] / 3600.0 / km)
+    if powertrain is not None:
+        res = powertrain.consume(view.vehicle, d, prof,
+                                 ambient_temperature_c=ambient_temperature_c)
+        data = res.to_dict() if hasattr(res, "to_dict") else dict(res)
+        for key in POWERTRAIN_KEYS:
+            value = data.get(key)
+            if value is None:
+                continue
+            arr = np.asarray(value, float)
+            if arr.ndim > 1 or (arr.ndim == 1 and arr.shape[0] != size):
+                continue
+            met[key] = full(arr)
+    return met, d
+
+
+def _lap_metrics(ps, name: str, lp: LapProfile, ambient_temperature_c=None,
+                 nominal: bool = True) -> tuple:
+    """Lap time and the energy metrics of every vehicle of ``ps`` on its simulated lap.
+
+    One :func:`tractive.lap.simulate_lap` call for all vehicles (vehicle axis);
+    then each vehicle's trace on its own time grid (:data:`tractive.lap.TRACE_DT_S`)
+    through :func:`_trace_metrics`, one vehicle at a time (see the module doc).
+    Totals are those of ``lp.laps`` laps (the lap's times ``laps``); a vehicle that
+    cannot complete the lap gets NaN. Returns the metric arrays and, when
+    ``nominal``, the first vehicle's trace over all laps and its wheel demand.
+    """
+    from ..lap import TRACE_DT_S, simulate_lap
+
+    sim = simulate_lap(ps.vehicle(), lp.track)
+    size = ps.size
+    lap_s = np.asarray(sim.lap_time_s, float).reshape(size)
+    speed_ms = np.asarray(sim.speed_ms, float).reshape(size, -1)
+    rows: list = []
+    trace = None
+    for i in range(size):          # one trace per vehicle, each of its own duration
+        if not np.isfinite(lap_s[i]):
+            rows.append(None)
+            continue
+        one = sim.select(i)
+        prof = one.to_profile(dt_s=TRACE_DT_S, name=name)
+        met, d = _trace_metrics(_View(ps.take([i])), name, prof, ambient_temperature_c)
+        rows.append(met)
+        if i == 0 and nominal:
+            trace = (prof, d)
+            if lp.laps > 1:
+                prof = one.to_profile(laps=lp.laps, dt_s=TRACE_DT_S, name=name)
+                view = _View(ps.take([0]))
+                trace = (prof, wheel_demand(view.road_load, view.mass_kg,
+                                            view.inertial_mass_kg, prof.time_s,
+                                            prof.speed_ms, prof.grade_fraction,
+                                            profile=name))
+    keys = next((list(r) for r in rows if r is not None), [])
+    out = {}
+    for key in keys:
+        arr = np.array([np.nan if r is None or key not in r else float(r[key][0])
+                        for r in rows])
+        m = lookup(key)
+        out[key] = arr * lp.laps if m is not None and m.kind == TOTAL else arr
+    out["lap_time_s"] = lap_s
+    out["lap_max_speed_kmh"] = np.where(np.isfinite(lap_s), np.max(speed_ms, axis=1) * 3.6,
+                                        np.nan)
+    return out, trace
 
 
 #: vehicles per vectorized performance call: the top-speed and acceleration model holds
@@ -1075,6 +1263,7 @@ def _nominal_force_n(d) -> np.ndarray:
 
 
 def _series(name, profile, prof, d) -> TimeSeries:
+    """The nominal vehicle's time series on one profile (its own trace on a lap)."""
     force = _nominal_force_n(d)
     iv = d.intervals
     positive = np.where(force > 0, force * iv.distance_m, 0.0)

@@ -29,7 +29,7 @@ import yaml
 
 from ..atmosphere import ambient_air
 from ..errors import InputError
-from ..limits import MAX_DRAWS
+from ..limits import MAX_DRAWS, MAX_REPEAT
 from ..spec import Section, load_section
 from ..vehicle import Vehicle, vehicle_from_section
 from ..roadload import CoefficientRoadLoad
@@ -119,10 +119,69 @@ class CombinationSpec:
 
 @dataclass(frozen=True)
 class ProfileSpec:
+    """A profile of the study: its name and the text that names it (see
+    :func:`tractive.profiles.resolve_profile`, or a lap: :func:`parse_lap_profile`)."""
+
     name: str
     text: str
     field: str | None = None
     line: int | None = None
+
+
+#: prefix of a profile simulated per variant on a circuit (``lap:circuit.csv*15``)
+LAP_PREFIX = "lap:"
+_LAP = re.compile(r"^lap:\s*(?P<path>.*?)\s*(?:\*\s*(?P<laps>[^*]*?)\s*)?$", re.IGNORECASE)
+
+
+def parse_lap_profile(text: str):
+    """The track file and lap count of a ``lap:`` profile, or None for any other text.
+
+    ``lap:TRACK`` is one flying lap of the track file (CSV or GPX, see
+    :func:`tractive.lap.read_track`) simulated for every vehicle;
+    ``lap:TRACK*N`` lays N laps end to end (a closed lap, N from 1 to
+    :data:`~tractive.limits.MAX_REPEAT`). A path with spaces or ``*`` may be
+    quoted (``lap:'my track.csv'*5``). A ``lap:`` profile stands alone: it
+    cannot be joined to other terms with ``+``.
+
+    Returns
+    -------
+    (str, int) or None
+        Path as written (relative to the study folder) and number of laps.
+
+    Raises
+    ------
+    InputError
+        For a malformed ``lap:`` text.
+    """
+    if not isinstance(text, str) or not text.strip().lower().startswith(LAP_PREFIX):
+        return None
+    body = text.strip()[len(LAP_PREFIX):].strip()
+    usage = ("write lap:<track file>[*<laps>], e.g. lap:circuit.csv or lap:circuit.csv*15 "
+             "(a lap profile cannot be joined to others with '+')")
+    if body[:1] in ("'", '"'):
+        end = body.find(body[0], 1)
+        if end < 0:
+            raise InputError(f"unclosed quote in profile '{text.strip()}'")
+        path, rest = body[1:end], body[end + 1:].strip()
+        if rest and not rest.startswith("*"):
+            raise InputError(f"cannot read '{text.strip()}': {usage}")
+        count = rest[1:].strip() if rest else None
+    else:
+        m = _LAP.match(text.strip())
+        path, count = m["path"], m["laps"]
+        if "*" in path:
+            raise InputError(f"profile '{text.strip()}': give one lap count; quote a path "
+                             f"that contains '*'")
+    if not path or "+" in (count or "") or (count is None and "+" in path and
+                                            not path.lower().endswith((".csv", ".gpx"))):
+        raise InputError(f"cannot read '{text.strip()}': {usage}")
+    laps = 1
+    if count is not None:
+        if not count.isdigit() or not 1 <= int(count) <= MAX_REPEAT:
+            raise InputError(f"profile '{text.strip()}': the number of laps must be a whole "
+                             f"number from 1 to {MAX_REPEAT}, got '{count}'")
+        laps = int(count)
+    return path, laps
 
 
 @dataclass(frozen=True)
@@ -644,6 +703,10 @@ def _read_driving(sec: Section, rd: _Reader):
             raise InputError(f"the profile name '{name}' is used twice", file=sec.file,
                              field=fld, line=line)
         names.add(name)
+        try:
+            parse_lap_profile(text)
+        except InputError as exc:
+            raise InputError(exc.message, file=sec.file, field=fld, line=line) from None
         profiles.append(ProfileSpec(name, text, fld, line))
         rd.echo("driving", f"profile {name}", text, "", f"{sec.file}:{line}")
     mixes = []
@@ -669,6 +732,11 @@ def _read_driving(sec: Section, rd: _Reader):
         for key in shares:
             if key not in profile_names:
                 # a share may name any profile text not listed: run it as a profile too
+                try:
+                    parse_lap_profile(key)
+                except InputError as exc:
+                    raise InputError(exc.message, file=sec.file, field=shares_sec.field(key),
+                                     line=shares_sec.line_of(key)) from None
                 profiles.append(ProfileSpec(key, key, shares_sec.field(key),
                                             shares_sec.line_of(key)))
                 profile_names.append(key)
