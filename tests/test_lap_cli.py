@@ -65,7 +65,8 @@ def test_energy_matches_energy_command(tmp_path):
     from tractive import api
 
     rep = api.lap(CLUB, CIRCUIT)
-    prof = rep.simulation.to_profile(dt_s=api.LAP_TRACE_DT_S)
+    from tractive.lap.simulate import TRACE_DT_S
+    prof = rep.simulation.to_profile(dt_s=TRACE_DT_S)
     wheel = api.energy(CLUB, [prof]).results[0].wheel
     assert rep.to_dict()["positive_energy_kwh"] == pytest.approx(wheel.positive_energy_kwh)
     # the trace covers the lap: its distance (trapezoid) is the lap length within 0.1 %

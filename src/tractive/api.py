@@ -743,8 +743,6 @@ def read_coastdown_log(path, *, speed_column: str | None = None):
 
 #: most laps one ``lap`` run may lay end to end for the energy figures
 MAX_LAPS = 1000
-#: time step of the simulated trace handed to the energy model [s] (at most)
-LAP_TRACE_DT_S = 0.1
 
 
 @dataclass(frozen=True)
@@ -825,6 +823,7 @@ def lap(vehicle: "Vehicle | str | os.PathLike", track, *, laps: int = 1,
     import numpy as np
 
     from .lap import Track, read_track, simulate_lap
+    from .lap.simulate import TRACE_DT_S
 
     _check_units(units)
     if not 1 <= int(laps) <= MAX_LAPS or int(laps) != laps:
@@ -849,7 +848,7 @@ def lap(vehicle: "Vehicle | str | os.PathLike", track, *, laps: int = 1,
                        start_speed_ms=start)
     result = None
     if np.isfinite(sim.lap_time_s):
-        prof = sim.to_profile(laps=int(laps), dt_s=LAP_TRACE_DT_S)
+        prof = sim.to_profile(laps=int(laps), dt_s=TRACE_DT_S)
         result = energy(vehicle, [prof]).results[0]
     return LapReport(vehicle, track, sim, int(laps), result, bool(trace), units)
 

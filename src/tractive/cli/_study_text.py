@@ -23,6 +23,7 @@ DEFAULT_WIDTH = 100
 MIN_WIDTH = 60
 #: default metrics, first present wins within each group (metric and US keys)
 DEFAULT_GROUPS = (
+    ("lap_time_s",),
     ("battery_wh_per_km", "battery_wh_per_mi", "fuel_l_per_100km", "fuel_economy_mpg",
      "positive_energy_wh_per_km", "positive_energy_wh_per_mi"),
     ("range_km", "range_mi"),
@@ -187,7 +188,9 @@ def summary_text(result, *, width: int | None = None, metrics: str | None = None
         out += textwrap.wrap(sentence, width, subsequent_indent="  ")
     for info in result.profiles:
         out += ["", *textwrap.wrap(_block_title(result, info), width)]
-        for group in _fit_groups(result, info.name, keys, width):
+        here = [k for k in keys if any(k in r.metrics for r in result.rows
+                                       if r.profile == info.name)]
+        for group in _fit_groups(result, info.name, here, width):
             out += _render(result, info.name, group) + [""]
         out.pop()
     if result.warnings:

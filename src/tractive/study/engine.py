@@ -80,6 +80,7 @@ import numpy as np
 
 from ..demand import COMPONENTS, wheel_demand
 from ..errors import InputError
+from ..powertrain._common import sustained_seconds
 from ..metrics import (ECONOMICS, INDEPENDENT, KM_PER_MI, TOTAL, attributed_keys, lookup,
                        mix, to_units)
 from ..units import KMH_MS, KWH_J, MPH_MS, US_GALLON_L
@@ -804,8 +805,8 @@ def _note_wheel_power(name, ps, demands: dict, warnings) -> None:
         speed = np.asarray(iv.speed_ms, float)
         avail = available_wheel_force_n(vehicle, speed, iv.sin_grade)
         over = (force > 0.0) & (force > avail * (1.0 + 1e-9) + 1e-9)
-        if np.any(over):
-            secs = float(np.sum(np.where(over, np.asarray(iv.dt_s, float), 0.0)))
+        secs = float(sustained_seconds(over, np.asarray(iv.dt_s, float)))
+        if secs > 0:
             worst = float(np.max(np.where(over, force - avail, 0.0)))
             warnings.append(
                 f"{name} cannot follow the profile '{profile}': for {secs:.1f} s it asks "

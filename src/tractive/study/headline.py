@@ -89,7 +89,7 @@ def _main_keys(rows) -> tuple:
 
 
 def _per_profile(result, rows) -> str:
-    """The main figure's change on each profile and mix."""
+    """The main figure's change on each profile and mix; the lap time on a simulated lap."""
     key = next((k for k in _main_keys(rows) if any(k in r.change for r in rows)), None)
     if key is None:
         return "no change that a profile shows"
@@ -98,7 +98,10 @@ def _per_profile(result, rows) -> str:
         text = _change(result, r, key)
         if text is not None:
             pieces.append(f"{text} on {r.profile}")
-    return f"{_label(key)} " + ", ".join(pieces)
+    laps = [f"{_change(result, r, 'lap_time_s')} on {r.profile}" for r in rows
+            if "lap_time_s" in r.change]
+    lap_text = f"lap time {', '.join(laps)}; " if laps else ""
+    return f"{lap_text}{_label(key)} " + ", ".join(pieces)
 
 
 def _performance(result, rows) -> str:
