@@ -470,7 +470,8 @@ def _ambient(vehicle, ambient_c) -> tuple:
 # ---------------------------------------------------------------------------
 
 def compare(study: str | os.PathLike, *, draws: int | None = None, seed: int | None = None,
-            series: bool = False, read: ReadOptions | None = None):
+            series: bool = False, read: ReadOptions | None = None,
+            show_progress: bool = False):
     """Run a study file: the baseline and its modifications on every profile and mix.
 
     Parameters
@@ -486,6 +487,8 @@ def compare(study: str | os.PathLike, *, draws: int | None = None, seed: int | N
     read : ReadOptions, optional
         How the study's speed files and GPS tracks are read (columns, gaps,
         smoothing), at any depth of its profile expressions.
+    show_progress : bool
+        A progress bar on stderr while the variants run (terminal only).
 
     Returns
     -------
@@ -501,7 +504,8 @@ def compare(study: str | os.PathLike, *, draws: int | None = None, seed: int | N
     if seed is not None and seed < 0:
         raise InputError(f"--seed must not be negative, got {seed}")
     with tracking() as files, reading(read):
-        result = run_study(study, draws=draws, seed=seed, series=series)
+        result = run_study(study, draws=draws, seed=seed, series=series,
+                           show_progress=show_progress)
     return replace(result, input_files=tuple(sorted({r.path for r in files})))
 
 

@@ -33,12 +33,14 @@ _HEADLINE = ("positive_energy_wh_per_km", "positive_energy_wh_per_mi", "battery_
 @click.option("--metrics", default=None, metavar="KEY,KEY,...",
               help="Metrics of the table, by key (e.g. range_km,annual_energy_cost); "
                    "default: consumption, range, top speed, money and payback.")
+@click.option("--quiet", is_flag=True,
+              help="No progress bar and no notes on stderr (the notes stay in the output).")
 @click.option("--all", "show_all", is_flag=True, help="Show every metric of the result.")
 @click.option("--wide", is_flag=True,
               help="One wide row per variant and profile with every headline column "
                    "side by side (for wide terminals and copying).")
 def compare_command(study_file, outputs, plot_file, as_json, draws, seed, metrics, show_all,
-                    wide, **reading):
+                    wide, quiet, **reading):
     """Compare a baseline vehicle with its modifications on every profile and duty mix.
 
     Reports energy, fuel or battery use, range, performance and money for each
@@ -52,13 +54,13 @@ def compare_command(study_file, outputs, plot_file, as_json, draws, seed, metric
         api.check_figure(plot_file, [study_file])
     result = api.compare(study_file, draws=draws, seed=seed,
                          series=any(o.lower().endswith(".xlsx") for o in outputs),
-                         read=read_options_from(reading))
+                         read=read_options_from(reading), show_progress=not quiet)
     api.write_study_outputs(result, outputs)
     if plot_file:
         api.write_study_plot(result, plot_file)
     if as_json:
         emit_json(result.to_dict())
-        for w in result.warnings:
+        for w in () if quiet else result.warnings:
             click.echo(f"tractive: note: {w}", err=True)
         return
     if wide:

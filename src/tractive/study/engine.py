@@ -81,6 +81,7 @@ import numpy as np
 from ..demand import COMPONENTS, wheel_demand
 from ..errors import InputError
 from ..powertrain._common import sustained_seconds
+from ..progress import progress
 from ..metrics import (ECONOMICS, INDEPENDENT, KM_PER_MI, TOTAL, attributed_keys, lookup,
                        mix, to_units)
 from ..units import KMH_MS, KWH_J, MPH_MS, US_GALLON_L
@@ -108,7 +109,8 @@ PERFORMANCE_KEYS = ("top_speed_kmh", "accel_0_100_kmh_s", "accel_80_120_kmh_s")
 US_ACCEL_MPH = {"accel_0_60_mph_s": (0.0, 60.0), "accel_50_70_mph_s": (50.0, 70.0)}
 
 def run_study(path: str | os.PathLike, *, draws: int | None = None, seed: int | None = None,
-              series: bool = True, chunk_size: int | None = None) -> StudyResult:
+              series: bool = True, chunk_size: int | None = None,
+              show_progress: bool = False) -> StudyResult:
     """Read a study file and run it.
 
     Parameters
@@ -125,9 +127,12 @@ def run_study(path: str | os.PathLike, *, draws: int | None = None, seed: int | 
         Vehicles (nominal and draws) evaluated per vectorized call; default from
         the memory budget :data:`CHUNK_MEMORY_BYTES` (see :func:`chunk_size_for`).
         The results do not depend on it.
+    show_progress : bool
+        A progress bar over the variants on stderr (only when it is a terminal).
     """
     spec = load_study(path)
-    return run_spec(spec, draws=draws, seed=seed, series=series, chunk_size=chunk_size)
+    return run_spec(spec, draws=draws, seed=seed, series=series, chunk_size=chunk_size,
+                    show_progress=show_progress)
 
 
 @dataclass(frozen=True)
@@ -181,7 +186,8 @@ class LapProfile:
 
 
 def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = None,
-             series: bool = True, chunk_size: int | None = None) -> StudyResult:
+             series: bool = True, chunk_size: int | None = None,
+             show_progress: bool = False) -> StudyResult:
     """Run a validated study (see :func:`run_study`)."""
     n, seed, inputs = _draw_settings(spec, draws, seed)
     rng = np.random.default_rng(seed)
@@ -192,10 +198,13 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
     costs = _cost_draws(spec, variants, rng, n, uncertain)
 
     raw_results, traces = {}, {}
-    for v in variants:
-        raw_results[v.name], traces[v.name] = _evaluate(
-            v.params, profiles, spec.ambient_temperature_c, chunk_size=chunk_size,
-            units=spec.units)
+    with progress(len(variants), f"{1 + n} vehicles per variant", quiet=not show_progress,
+                  unit=" variants") as bar:
+        for v in variants:
+            raw_results[v.name], traces[v.name] = _evaluate(
+                v.params, profiles, spec.ambient_temperature_c, chunk_size=chunk_size,
+                units=spec.units)
+            bar.update(1)
     laps = {p for p, prof in profiles if isinstance(prof, LapProfile)}
     _check_laps(spec, variants, raw_results, laps, n, warnings)
     infos = _lap_infos(spec, infos, traces[BASELINE], laps)
