@@ -10,17 +10,19 @@ functions are exported here::
     report = tractive.energy("van.yaml", ["udds", "hwfet"])
     study = tractive.compare("study.yaml", draws=2000)
 
-Names are imported on first use, so ``import tractive`` stays light.
+Names are imported on first use, so ``import tractive`` stays light. The api
+functions named like a subpackage (``performance``, ``lap``, ``fleet``,
+``coastdown``) are reached as ``tractive.api.performance`` and so on, since
+``tractive.performance`` is the module.
 """
 
 __version__ = "0.1.0"
 
 #: public name → module that defines it (imported on first use)
 _EXPORTS = {
-    "cycles": "api", "energy": "api", "energy_mix": "api", "performance": "api",
-    "range_curve": "api", "compare": "api", "coastdown": "api", "coastdown_quick": "api",
+    "cycles": "api", "energy": "api", "energy_mix": "api",
+    "range_curve": "api", "compare": "api", "coastdown_quick": "api",
     "load_vehicle": "api", "load_profiles": "api", "write_study_outputs": "api",
-    "lap": "api", "fleet": "api",
     "InputError": "errors", "Vehicle": "vehicle", "Profile": "profiles",
     "resolve_profile": "profiles", "RoadLoad": "roadload", "wheel_demand": "demand",
     "StudyResult": "study.results", "METRICS": "metrics", "Metric": "metrics",

@@ -404,18 +404,13 @@ def _powertrain_gearing(pt):
     return pt.gearing
 
 
-def _model(vehicle) -> _Model:
-    spec = vehicle.performance
-    src = vehicle.source or None
-    if spec is None:
-        raise InputError("the vehicle has no performance block; give at least "
-                         "driven_axle_load_share and tyre_road_friction", file=src,
-                         field="performance")
+def _drive_and_gearing(vehicle, spec, err) -> tuple:
+    """The drive (engine full-load curve or motor; the performance block's, else the
+    powertrain's) and the gearing, performance values overriding the powertrain's.
 
-    def err(msg, key=None):
-        field = "performance" if key is None else f"performance.{key}"
-        return InputError(msg, file=spec.file or src, field=field, line=spec.line)
-
+    Returns ``(full_load, motor, gear_ratios, values)``, ``values`` holding the
+    scalar parameters of the model by key.
+    """
     pt = vehicle.powertrain
     full_load = spec.full_load
     motor = spec.motor
@@ -427,7 +422,6 @@ def _model(vehicle) -> _Model:
     if full_load is None and motor is None:
         raise err("no drive data: give performance.full_load (engine) or performance.motor, "
                   "or powertrain.full_load / powertrain.motor")
-    # gearing: performance values override the powertrain's
     base = _powertrain_gearing(pt)
     ratios = spec.gear_ratios if spec.gear_ratios is not None else (
         None if base is None else base.gear_ratios)
@@ -463,38 +457,63 @@ def _model(vehicle) -> _Model:
               if spec.downforce_driven_share is None else spec.downforce_driven_share,
               "mass_kg": vehicle.mass_kg,
               "rotating_mass_fraction": vehicle.rotating_mass_fraction}
-    sigma = 0.0
-    if spec.cg_height_m is not None and spec.driven_axle != "all":
-        sigma = 1.0 if spec.driven_axle == "rear" else -1.0
-        values["cg_height_m"] = spec.cg_height_m
-        values["wheelbase_m"] = spec.wheelbase_m
+    return full_load, motor, ratios, values
+
+
+def _drive_limits(vehicle, spec, full_load, motor, values: dict, err) -> str:
+    """Add the motor's envelope or the engine's rev limit and launch speed to ``values``;
+    returns the name of the limit that caps the top speed of a gear."""
     if motor is not None:
         values["motor.peak_power_kw"] = np.asarray(motor.peak_power_w, float) / 1000.0
         values["motor.peak_torque_nm"] = motor.peak_torque_nm
         values["motor.max_speed_rpm"] = (math.inf if motor.max_speed_rpm is None
                                          else motor.max_speed_rpm)
-        limit = "motor_speed_limit"
+        return "motor_speed_limit"
+    pt = vehicle.powertrain
+    rev = spec.rev_limit_rpm
+    if rev is None and pt is not None and pt.kind == "combustion" and \
+            full_load is pt.full_load:
+        rev = pt.rev_limit_rpm
+    if rev is None:
+        rev = float(full_load.speed_rpm[-1])
+    last = float(full_load.speed_rpm[-1])
+    if np.any(np.asarray(rev, float) > last + 1e-9):
+        raise err(f"rev limit {np.max(rev):g} rpm is above the last full-load speed "
+                  f"{last:g} rpm", "rev_limit_rpm")
+    if spec.launch_speed_rpm is not None:
+        launch_rpm = np.asarray(spec.launch_speed_rpm, float)
+        if np.any((launch_rpm < full_load.speed_rpm[0]) | (launch_rpm > rev)):
+            raise err(f"must lie within the full-load curve ({full_load.speed_rpm[0]:g} "
+                      f"to {np.min(rev):g} rpm)", "launch_speed_rpm")
     else:
-        rev = spec.rev_limit_rpm
-        if rev is None and pt is not None and pt.kind == "combustion" and \
-                full_load is pt.full_load:
-            rev = pt.rev_limit_rpm
-        if rev is None:
-            rev = float(full_load.speed_rpm[-1])
-        last = float(full_load.speed_rpm[-1])
-        if np.any(np.asarray(rev, float) > last + 1e-9):
-            raise err(f"rev limit {np.max(rev):g} rpm is above the last full-load speed "
-                      f"{last:g} rpm", "rev_limit_rpm")
-        if spec.launch_speed_rpm is not None:
-            launch_rpm = np.asarray(spec.launch_speed_rpm, float)
-            if np.any((launch_rpm < full_load.speed_rpm[0]) | (launch_rpm > rev)):
-                raise err(f"must lie within the full-load curve ({full_load.speed_rpm[0]:g} "
-                          f"to {np.min(rev):g} rpm)", "launch_speed_rpm")
-        else:
-            launch_rpm = full_load.peak_torque()[1]
-        values["rev_limit_rpm"] = rev
-        values["launch_speed_rpm"] = launch_rpm
-        limit = "rev_limit"
+        launch_rpm = full_load.peak_torque()[1]
+    values["rev_limit_rpm"] = rev
+    values["launch_speed_rpm"] = launch_rpm
+    return "rev_limit"
+
+
+def _model(vehicle) -> _Model:
+    """The performance model of a vehicle: drive, gearing, tyres and road load as (N, 1)
+    columns along the vehicle axis (see the module doc). A little over 80 lines: the
+    model's fields are filled in one place, in the order of the dataclass."""
+    spec = vehicle.performance
+    src = vehicle.source or None
+    if spec is None:
+        raise InputError("the vehicle has no performance block; give at least "
+                         "driven_axle_load_share and tyre_road_friction", file=src,
+                         field="performance")
+
+    def err(msg, key=None):
+        field = "performance" if key is None else f"performance.{key}"
+        return InputError(msg, file=spec.file or src, field=field, line=spec.line)
+
+    full_load, motor, ratios, values = _drive_and_gearing(vehicle, spec, err)
+    sigma = 0.0
+    if spec.cg_height_m is not None and spec.driven_axle != "all":
+        sigma = 1.0 if spec.driven_axle == "rear" else -1.0
+        values["cg_height_m"] = spec.cg_height_m
+        values["wheelbase_m"] = spec.wheelbase_m
+    limit = _drive_limits(vehicle, spec, full_load, motor, values, err)
     rl = vehicle.resistance()
     values.update({"road_load.f0_n": rl.f0_n, "road_load.f1_n_per_ms": rl.f1_n_per_ms,
                    "road_load.f2_aero_n_per_ms2": rl.f2_aero_n_per_ms2,

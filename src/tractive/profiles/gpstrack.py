@@ -146,6 +146,9 @@ def read_gpx(path, dt_s: float = 1.0, *, speed_window_s: float = SPEED_WINDOW_S,
              name: str | None = None) -> Profile:
     """Read a GPS track (GPX) as a speed profile (method in the module docstring).
 
+    Longer than 80 lines: the method's steps (points, pauses, smoothed velocity, stated
+    speeds, grade) in order, each with its check.
+
     Parameters
     ----------
     path : str or path
