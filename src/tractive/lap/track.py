@@ -80,7 +80,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..limits import MAX_GRADE_FRACTION
-from ..readfiles import note_read
+from ..readfiles import check_regular, note_read
 
 #: mean Earth radius [m] (IUGG R1 of GRS 80, rounded to 0.1 m; the value of tractive.profiles)
 EARTH_RADIUS_M = 6_371_008.8
@@ -505,6 +505,7 @@ def _check_shape(track: Track, loc: _Locator, u_points, u_nodes, *, grade_is_tan
 
 def _read_text(path: Path) -> str:
     """The file's text (UTF-8), or a one-line error."""
+    check_regular(path, "track file")
     try:
         return path.read_text(encoding="utf-8-sig")
     except FileNotFoundError:
