@@ -34,7 +34,7 @@ from pathlib import Path
 import numpy as np
 
 from .errors import InputError
-from .readfiles import note_read
+from .readfiles import check_regular, note_read
 
 __all__ = ["EARTH_RADIUS_M", "haversine_distance_m", "local_east_north_m", "equirectangular_m", "gpx_points",
            "gpx_positions",
@@ -214,6 +214,7 @@ def read_text(path: Path, kind: str) -> str:
     Notes the file as read (:func:`tractive.readfiles.note_read`).
     """
     note_read(path)
+    check_regular(path, f"{kind} file")
     try:
         return path.read_text(encoding="utf-8-sig")
     except FileNotFoundError:

@@ -16,6 +16,8 @@ import os
 from dataclasses import dataclass
 from pathlib import Path
 
+from .errors import InputError
+
 
 @dataclass(frozen=True)
 class ReadFile:
@@ -79,3 +81,24 @@ def is_input(path, read) -> ReadFile | None:
         if item.path == resolved or (ident is not None and item.identity == ident):
             return item
     return None
+
+
+def check_regular(path, kind: str = "file") -> os.stat_result:
+    """The ``os.stat`` of an input that is a regular file; a located InputError for a
+    missing file, a folder, or what is not a regular file (a FIFO would block the
+    read, a device such as /dev/zero would never end)."""
+    import stat
+
+    try:
+        st = os.stat(path)
+    except FileNotFoundError:
+        raise InputError("file not found", file=str(path)) from None
+    except OSError as exc:
+        raise InputError(f"cannot read file ({exc.strerror or exc.__class__.__name__})",
+                         file=str(path)) from None
+    if stat.S_ISDIR(st.st_mode):
+        raise InputError(f"is a directory, expected a {kind}", file=str(path))
+    if not stat.S_ISREG(st.st_mode):
+        raise InputError(f"is not a regular file (a device, pipe or socket), expected a "
+                         f"{kind}", file=str(path))
+    return st

@@ -26,7 +26,7 @@ from typing import Any, Iterable
 import yaml
 
 from .errors import InputError
-from .readfiles import note_read
+from .readfiles import check_regular, note_read
 
 #: largest magnitude of any number in an input file: no quantity tractive reads comes
 #: near it in its unit, and products of such numbers stay finite (common practice)
@@ -99,21 +99,8 @@ def read_input_text(path: str | os.PathLike, *, kind: str = "file",
     /dev/zero) and files larger than ``max_bytes``, and records the file as
     read (:func:`tractive.readfiles.note_read`).
     """
-    import stat
-
     path = Path(path)
-    try:
-        st = os.stat(path)
-    except FileNotFoundError:
-        raise InputError("file not found", file=str(path)) from None
-    except OSError as exc:
-        raise InputError(f"cannot read file ({exc.strerror or exc.__class__.__name__})",
-                         file=str(path)) from None
-    if stat.S_ISDIR(st.st_mode):
-        raise InputError(f"is a directory, expected a {kind}", file=str(path))
-    if not stat.S_ISREG(st.st_mode):
-        raise InputError(f"is not a regular file (a device, pipe or socket), expected a "
-                         f"{kind}", file=str(path))
+    st = check_regular(path, kind)
     if st.st_size > max_bytes:
         raise InputError(f"is {st.st_size / 2 ** 20:.1f} MiB, more than the "
                          f"{max_bytes / 2 ** 20:.0f} MiB a {kind} may have", file=str(path))

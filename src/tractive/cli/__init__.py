@@ -44,11 +44,15 @@ class _Group(click.Group):
         try:
             return super().invoke(ctx)
         except InputError as exc:
-            click.echo(f"tractive: error: {exc.one_line()}", err=True)
+            click.echo(f"tractive: error: {exc.one_line()}", err=True, color=True)
             sys.exit(2)
 
 
-@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
+#: ``color``: click would strip ANSI sequences from text written off a terminal; every
+#: stream is a :class:`~tractive.cli._safe.SafeStream` instead, which writes each
+#: control character as a visible escape, on a terminal or not
+@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"],
+                                           "color": True})
 @click.version_option(package_name="tractive", prog_name="tractive")
 def cli():
     """What a vehicle modification costs or saves.
@@ -88,12 +92,13 @@ def _run(argv):
     except click.exceptions.Exit as exc:
         sys.exit(exc.exit_code)
     except click.ClickException as exc:
-        click.echo(f"tractive: error: {' '.join(exc.format_message().split())}", err=True)
+        click.echo(f"tractive: error: {' '.join(exc.format_message().split())}", err=True,
+                   color=True)
         sys.exit(exc.exit_code)
     except click.exceptions.Abort:
-        click.echo("tractive: aborted", err=True)
+        click.echo("tractive: aborted", err=True, color=True)
         sys.exit(1)
     except InputError as exc:
-        click.echo(f"tractive: error: {exc.one_line()}", err=True)
+        click.echo(f"tractive: error: {exc.one_line()}", err=True, color=True)
         sys.exit(2)
     sys.exit(rv if isinstance(rv, int) else 0)

@@ -45,7 +45,7 @@ import numpy as np
 from ..errors import InputError
 from ..geo import haversine_distance_m, initial_bearing_deg, read_gpx_track
 from ..profiles.columns import choose_speed_column, choose_time_column, times_from_text
-from ..readfiles import note_read
+from ..readfiles import check_regular, note_read
 from ..units import KMH_MS, MPH_MS
 
 #: speed columns and their factor to m/s (exact, NIST SP 811)
@@ -156,6 +156,7 @@ def read_coastdown_log(path: str | os.PathLike, *, speed_column: str | None = No
 
 def _header(path: Path, src: str):
     """(header cells, its 1-based line): the first line that is neither blank nor ``#``."""
+    check_regular(path, "CSV or GPX log")
     try:
         with open(path, newline="", encoding="utf-8-sig") as fh:
             for number, raw in enumerate(fh, start=1):

@@ -81,7 +81,7 @@ import numpy as np
 from ..errors import InputError
 from ..geo import check_coordinates, equirectangular_m, gpx_positions
 from ..limits import MAX_GRADE_FRACTION
-from ..readfiles import note_read
+from ..readfiles import check_regular, note_read
 
 #: default smoothing length: knot spacing of the fitted spline [m]
 DEFAULT_SMOOTHING_M = 10.0
@@ -504,6 +504,7 @@ def _check_shape(track: Track, loc: _Locator, u_points, u_nodes, *, grade_is_tan
 
 def _read_text(path: Path) -> str:
     """The file's text (UTF-8), or a one-line error."""
+    check_regular(path, "track file")
     try:
         return path.read_text(encoding="utf-8-sig")
     except FileNotFoundError:

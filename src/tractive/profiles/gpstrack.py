@@ -258,7 +258,10 @@ def read_gpx(path, dt_s: float = 1.0, *, speed_window_s: float = SPEED_WINDOW_S,
 
     # a pause holds the position: the small move across it is taken out (the points after
     # it shift by that offset), so the vehicle stands where it stopped for the whole gap
-    grid = uniform_grid(t[-1], dt_s)
+    try:
+        grid = uniform_grid(t[-1], dt_s)
+    except InputError as err:
+        raise err.located(file=file, field="dt_s") from None
     paused = np.zeros_like(grid, dtype=bool)
     for i in long_gap:
         paused |= (grid > t[i]) & (grid < t[i + 1])

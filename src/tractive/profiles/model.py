@@ -19,7 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
-from ..limits import MAX_USER_ACCEL_MS2
+from ..limits import MAX_USER_ACCEL_MS2, MEMORY_BUDGET_BYTES
 from ..units import kmh_to_ms, mph_to_ms
 
 #: speed units a user may name, and their conversion to m/s (exact, NIST SP 811)
@@ -27,6 +27,11 @@ SPEED_UNITS = {"kmh": kmh_to_ms, "mph": mph_to_ms, "ms": lambda v: np.asarray(v,
 #: standard gravity [m/s²] (CGPM 1901, exact), for accelerations worded in g
 STANDARD_GRAVITY_MS2 = 9.80665
 _STEP_RTOL = 1e-6
+#: memory one sample of a profile takes while it is built and used [bytes]: its time,
+#: speed and grade and the dozen or so float64 arrays of the same length that the
+#: wheel-demand and powertrain models derive from it (an estimate with a margin,
+#: common practice)
+BYTES_PER_SAMPLE = 16 * 8
 
 
 @dataclass(frozen=True)
@@ -174,9 +179,30 @@ def positive(value, what: str) -> float:
     return x
 
 
+def check_samples(n_samples: float, what: str = "the profile") -> int:
+    """``n_samples`` as an int; InputError when that many samples of
+    :data:`BYTES_PER_SAMPLE` would exceed :data:`~tractive.limits.MEMORY_BUDGET_BYTES`.
+
+    Called before a profile's arrays are allocated, so that a profile too long
+    for its time step is refused at once with the budget in the message, never
+    after minutes with a MemoryError.
+    """
+    n = float(n_samples)
+    if not math.isfinite(n) or n * BYTES_PER_SAMPLE > MEMORY_BUDGET_BYTES:
+        need = f"{n * BYTES_PER_SAMPLE / 2 ** 30:.3g} GiB" if math.isfinite(n) else "unbounded"
+        count = f"{n:.3g}" if math.isfinite(n) else "unbounded"
+        raise InputError(f"{what} would have {count} samples ({need} at "
+                         f"{BYTES_PER_SAMPLE} bytes each), more than the memory budget of "
+                         f"{MEMORY_BUDGET_BYTES / 2 ** 30:g} GiB; use a larger time step "
+                         f"(dt_s) or a shorter profile")
+    return int(n)
+
+
 def uniform_grid(span_s: float, dt_s: float) -> np.ndarray:
-    """0, dt, 2 dt, ... up to the last point not after ``span_s`` (within rounding)."""
-    n = int(math.floor(span_s / dt_s + 1e-9)) + 1
+    """0, dt, 2 dt, ... up to the last point not after ``span_s`` (within rounding);
+    refused up front when it would exceed the memory budget (:func:`check_samples`)."""
+    n = check_samples(math.floor(span_s / dt_s + 1e-9) + 1,
+                      f"a {span_s:.6g} s profile at a time step of {dt_s:.6g} s")
     return np.arange(n) * dt_s
 
 

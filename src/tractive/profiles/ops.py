@@ -20,7 +20,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..limits import MAX_REPEAT
-from .model import Phase, Profile, positive, uniform_grid
+from .model import Phase, Profile, check_samples, positive, uniform_grid
 
 __all__ = ["constant_speed", "resample", "concatenate", "repeat"]
 
@@ -55,6 +55,7 @@ def constant_speed(speed_ms: float, duration_s: float = 3600.0, dt_s: float = 1.
     if not math.isfinite(g):
         raise InputError(f"must be finite, got {grade_fraction!r}", field="grade_fraction")
     steps = duration_s / dt_s
+    check_samples(steps + 1, f"a {duration_s:.6g} s profile at a time step of {dt_s:.6g} s")
     n = int(round(steps))
     if abs(steps - n) > 1e-9 * max(1.0, steps):
         raise InputError(f"duration {duration_s:g} s is not a whole number of time steps of "
@@ -138,6 +139,7 @@ def concatenate(profiles: Iterable[Profile], name: str | None = None) -> Profile
             raise InputError(f"cannot join profiles with different time steps: "
                              f"'{parts[0].name}' has {dt:g} s, '{p.name}' has {p.dt_s:g} s; "
                              f"resample first")
+    check_samples(sum(len(p) for p in parts), f"'{label}'")
     speeds, grades, starts = [parts[0].speed_ms], [parts[0].grade_fraction], [0]
     end_index = len(parts[0]) - 1
     for p in parts[1:]:

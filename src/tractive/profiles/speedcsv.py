@@ -59,7 +59,7 @@ import numpy as np
 from ..errors import InputError
 from ..geo import read_text
 from ..limits import MAX_GRADE_FRACTION, MAX_USER_SPEED_KMH
-from ..readfiles import note_read
+from ..readfiles import check_regular, note_read
 from .columns import choose_speed_column, choose_time_column, times_from_text
 from .gpstrack import smoothed
 from .grade import GRADE_WINDOW_M, grade_from_elevation
@@ -114,6 +114,7 @@ def _sniff(path: Path):
     Reads only the start of the file; raises the errors of an unreadable file.
     """
     file = str(path)
+    check_regular(path, "CSV file")
     try:
         with open(path, encoding="utf-8-sig", newline="") as fh:
             header, number = None, 0
@@ -416,7 +417,10 @@ def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_
                          f"above the {MAX_USER_SPEED_KMH:g} km/h no road vehicle exceeds; "
                          "check the value and the column's unit", file=file,
                          field=speed_col, line=line(fast[0]))
-    grid = uniform_grid(span, dt_s)
+    try:
+        grid = uniform_grid(span, dt_s)
+    except InputError as err:
+        raise err.located(file=file, field="dt_s") from None
     speed_ms = np.interp(grid, rel, v_raw_ms)
     if smooth_s is not None:
         speed_ms = np.maximum(smoothed(speed_ms, dt_s, smooth_s), 0.0)
