@@ -63,3 +63,20 @@ class _Main:
 def cli_run():
     """The ``tractive`` command run in-process: ``cli_run("energy", path, "--json")``."""
     return run_cli
+
+
+def pytest_terminal_summary(terminalreporter):
+    """Report the size of the bad-input corpus at the end of every run (also when the
+    tests run in several worker processes, whose own output is not shown)."""
+    try:
+        import test_bad_inputs as corpus
+    except Exception:       # the corpus module itself failed: its tests report that
+        return
+    n = (len(corpus.CASES) + len(corpus.ACCEPTED) + len(corpus.INJECTED)
+         + len(corpus.CONTROL_NAMES) + len(corpus.WRITE_FAULTS))
+    classes = {c.klass for c in corpus.CASES}
+    terminalreporter.write_line(
+        f"bad-input corpus: {n} cases ({len(corpus.CASES)} refused inputs in {len(classes)} "
+        f"classes, {len(corpus.ACCEPTED)} accepted forms, "
+        f"{len(corpus.INJECTED) + len(corpus.CONTROL_NAMES)} name-escaping checks, "
+        f"{len(corpus.WRITE_FAULTS)} write faults)")
