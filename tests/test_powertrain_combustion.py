@@ -1,6 +1,7 @@
 """Combustion powertrain: Willans line, BSFC map, gears, idle, cut-off, fuel units."""
 
 import dataclasses
+from pathlib import Path
 import math
 
 import numpy as np
@@ -594,3 +595,18 @@ def test_parameters_per_vehicle_match_one_run_each(tmp_path):
         one = dataclasses.replace(pt, idle_fuel_kg_s=idle[i], engine=dataclasses.replace(
             pt.engine, marginal_efficiency=e[i], friction_mep_pa=fmep[i]))
         assert r.fuel_kg[i] == pytest.approx(one.consume(v, d, prof).fuel_kg, rel=1e-12)
+
+
+def test_a_speed_exactly_at_an_upshift_speed_is_in_the_higher_gear():
+    # model definition (docs: the speeds rule upshifts when the speed reaches each
+    # upshift speed); the trace and the shift speeds use one km/h factor
+    # (units.kmh_to_ms), so 35.0 km/h in a profile is exactly the 35 km/h threshold,
+    # which 35 × (1000/3600) would miss by one unit in the last place
+    import tractive.api as api
+    from tractive.units import kmh_to_ms
+
+    root = Path(__file__).resolve().parents[1]
+    rows = api.range_curve(root / "examples/vehicles/diesel_light_truck.yaml",
+                           [34.999, 35.0, 54.999, 55.0]).to_dict()["rows"]
+    assert [r["gear"] for r in rows] == [2, 3, 3, 4]
+    assert float(kmh_to_ms(35.0)) != 35.0 * (1000.0 / 3600.0)     # why one factor matters

@@ -70,7 +70,7 @@ import numpy as np
 from ..metrics import l_per_100km_to_mpg
 from ..plain import plain_number
 from ..spec import Section
-from ..units import KMH_MS, KWH_J, UK_GALLON_L, US_GALLON_L
+from ..units import KWH_J, UK_GALLON_L, US_GALLON_L, kmh_to_ms, ms_to_kmh
 from ._common import STANDSTILL_MS, col, range_from, safe_divide, sustained_seconds
 from .base import ParamField
 from .drive import (RPM_RADS, FullLoadCurve, Gearing, parse_full_load, parse_gear_ratios,
@@ -690,7 +690,8 @@ class CombustionPowertrain:
                "tank_kg": self.tank_kg, "engine": self.engine.to_dict(),
                "idle_speed_rpm": self.idle_speed_rpm, "rev_limit_rpm": self.rev_limit_rpm,
                "shift_rule": self.shift_rule,
-               "upshift_speeds_kmh": [s / KMH_MS for s in self.upshift_speeds_ms] or None,
+               "upshift_speeds_kmh": [float(ms_to_kmh(s)) for s in self.upshift_speeds_ms]
+               or None,
                "fuel_cutoff": self.fuel_cutoff, "engine_off_at_rest": self.engine_off_at_rest,
                "idle_fuel_kg_per_h": plain_number(np.squeeze(self.idle_fuel_rate_kg_s()) * 3600.0),
                "min_pulling_speed_rpm": plain_number(self.pulling_speed_floor_rpm),
@@ -790,7 +791,9 @@ def _parse_shift_rule(sec: Section, ratios) -> tuple:
             if len(up) != len(ratios) - 1:
                 raise sec.error(f"needs one speed per upshift ({len(ratios) - 1} for "
                                 f"{len(ratios)} gears), got {len(up)}", "upshift_speeds_kmh")
-            upshift = tuple(float(u) * KMH_MS for u in up)
+            # the same km/h factor as every speed trace (units.kmh_to_ms), so that a
+            # trace at exactly an upshift speed reaches it
+            upshift = tuple(float(kmh_to_ms(u)) for u in up)
     elif sec.has("upshift_speeds_kmh"):
         raise sec.error("is only used with shift_rule: speeds", "upshift_speeds_kmh")
     return rule, upshift
