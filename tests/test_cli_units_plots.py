@@ -94,3 +94,12 @@ def test_compare_plot_in_svg(tmp_path):
     assert done.returncode == 0, done.stderr
     text = out.read_text()
     assert text.lstrip().startswith("<?xml") and "range [km]" in text
+
+
+def test_compare_plot_of_a_lap_study_draws_each_variants_lap(tmp_path):
+    out = tmp_path / "wing.svg"
+    done = run_cli("compare", ROOT / "examples" / "track-wing" / "study.yaml", "--draws", "20",
+                   "--plot", out)
+    assert done.returncode == 0, done.stderr
+    text = out.read_text()
+    assert "simulated lap of each variant" in text and "lap time [s]" in text

@@ -557,7 +557,7 @@ def key_in_units(key: str, units: str) -> str | None:
 
 
 #: metrics drawn by :func:`write_study_plot` when none are named (first present per group)
-PLOT_GROUPS = (("battery_wh_per_km", "battery_wh_per_mi", "fuel_l_per_100km",
+PLOT_GROUPS = (("lap_time_s",), ("battery_wh_per_km", "battery_wh_per_mi", "fuel_l_per_100km",
                 "fuel_economy_mpg", "positive_energy_wh_per_km", "positive_energy_wh_per_mi"),
                ("range_km", "range_mi"), ("top_speed_kmh", "top_speed_mph"),
                ("annual_energy_cost",))

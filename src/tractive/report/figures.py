@@ -119,27 +119,63 @@ def plot_study_changes(result, keys: Sequence[str], path, *, inputs: Iterable = 
     check_figure_target(path, inputs)
     keys = [k for k in keys if any(r.change.get(k) for r in result.rows)]
     curves = list(result.range_curves)
-    if not keys and not curves:
+    laps = list(dict.fromkeys(p for _, p, _ in getattr(result, "lap_runs", ())))
+    if not keys and not curves and not laps:
         raise InputError("the study has no change to draw (no variant changes a headline "
                          "metric)", file=str(path))
     plt = _pyplot()
     profiles = [p.name for p in result.profiles]
     variants = [v.name for v in result.variants if v.role != "baseline"]
     row_h = 0.5 * len(variants) + 1.6
-    heights = [row_h] * len(keys) + ([4.0] if curves else [])
+    heights = [row_h] * len(keys) + [4.0] * len(laps) + ([4.0] if curves else [])
     fig = plt.figure(figsize=(3.2 * len(profiles) + 1.5, sum(heights)))
     grid = fig.add_gridspec(len(heights), len(profiles), height_ratios=heights)
     for i, key in enumerate(keys):
         for j, profile in enumerate(profiles):
             _change_panel(fig.add_subplot(grid[i, j]), result, key, profile, variants,
                           first=(j == 0))
+    for i, profile in enumerate(laps):
+        runs = [(v, sim) for v, p, sim in result.lap_runs if p == profile]
+        _lap_panel(fig.add_subplot(grid[len(keys) + i, :]), profile, runs, result.units)
     if curves:
-        _range_panel(fig.add_subplot(grid[len(keys), :]), curves)
+        _range_panel(fig.add_subplot(grid[len(keys) + len(laps), :]), curves)
     fig.suptitle(f"{result.study}: change against the baseline "
                  f"({result.uncertainty.get('confidence_pct', 95):g} % intervals)",
                  fontsize=10)
     fig.tight_layout()
     return _save(fig, path, inputs)
+
+
+def _lap_panel(ax, profile: str, runs, units: str) -> None:
+    """Speed against distance on a simulated lap for every variant's nominal vehicle;
+    the regime that limits the baseline shaded (grey: cornering, hatched: braking)."""
+    import numpy as np
+
+    from ..lap.simulate import BRAKING, CORNERING
+    from ..units import MILE_M
+
+    us = units == "us"
+    v_fac, v_unit = (3600 / MILE_M, "mph") if us else (3.6, "km/h")
+    d_fac, d_unit = (1 / 0.3048, "ft") if us else (1.0, "m")
+    base = runs[0][1]
+    x0 = np.asarray(base.distance_m) * d_fac
+    top = max(float(np.max(sim.speed_ms)) for _, sim in runs) * v_fac * 1.05
+    for code, label, face, hatch in ((CORNERING, "cornering limit", "0.80", None),
+                                     (BRAKING, "braking", "none", "///")):
+        ax.fill_between(x0, 0, top, where=np.asarray(base.limit) == code, step="mid",
+                        facecolor=face, edgecolor="0.6" if hatch else "none", hatch=hatch,
+                        linewidth=0, label=f"{label} ({runs[0][0]})")
+    for i, (variant, sim) in enumerate(runs):
+        ls, _ = _STYLES[i % len(_STYLES)]
+        t = float(np.asarray(sim.lap_time_s))
+        ax.plot(np.asarray(sim.distance_m) * d_fac, np.asarray(sim.speed_ms) * v_fac,
+                linestyle=ls, color="k", lw=1.2,
+                label=f"{variant}  {t:.2f} s" if np.isfinite(t) else f"{variant} (stalls)")
+    ax.set_ylim(0, top)
+    ax.set_xlabel(f"distance along the lap [{d_unit}]")
+    ax.set_ylabel(f"speed [{v_unit}]")
+    ax.set_title(f"{profile}: simulated lap of each variant", fontsize=9)
+    ax.legend(fontsize=7, ncol=2)
 
 
 def _range_panel(ax, curves) -> None:

@@ -235,6 +235,8 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
               if v.params.powertrain is not None]
     series_out = [_series(v.name, p, *traces[v.name][p])
                   for v in variants for p, _ in profiles] if series else []
+    lap_runs = [(v.name, p, simulate_nominal_lap(v.params, prof))
+                for p, prof in profiles if isinstance(prof, LapProfile) for v in variants]
     econ = {} if spec.economics is None else \
         _economics_echo(spec.economics, spec.units, spec.currency)
     return StudyResult(study=spec.name, source=spec.file, units=spec.units,
@@ -243,7 +245,16 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
                        range_curves=tuple(curves), inputs=tuple(inputs),
                        variants=tuple(variant_infos), profiles=tuple(infos),
                        uncertainty=_uncertainty_echo(n, seed, spec, uncertain),
-                       economics=econ, warnings=tuple(dict.fromkeys(warnings)))
+                       economics=econ, warnings=tuple(dict.fromkeys(warnings)),
+                       lap_runs=tuple(lap_runs))
+
+
+def simulate_nominal_lap(ps, lp):
+    """The lap of a variant's nominal vehicle (index 0: every change, no draw), for the
+    figures: one vehicle simulated again, which costs little against the draws."""
+    from ..lap import simulate_lap
+
+    return simulate_lap(ps.vehicle(0), lp.track)
 
 
 def _draw_settings(spec: StudySpec, draws, seed) -> tuple:

@@ -358,6 +358,9 @@ class StudyResult:
     economics : dict
         Annual distance, prices, discount rate, service life as used.
     warnings : tuple of str
+    lap_runs : tuple of (variant, profile, LapSimulation)
+        The simulated lap of each variant's nominal vehicle on each ``lap:``
+        profile (for figures; not in the JSON document).
     input_files : tuple of str
         Every file the run read (study, vehicles, profiles at any depth of an
         expression, coast-down blocks), resolved; outputs must not replace them.
@@ -378,6 +381,7 @@ class StudyResult:
     economics: dict = field(default_factory=dict)
     warnings: tuple = ()
     input_files: tuple = ()
+    lap_runs: tuple = ()
 
     # -- look-ups ---------------------------------------------------------
     def metric_keys(self) -> list:
