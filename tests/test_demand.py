@@ -189,7 +189,7 @@ def test_a_trace_changed_in_place_is_computed_again():
     first = wheel_demand(_rl(), MASS, MASS * 1.03, t, v)
     again = wheel_demand(_rl(), MASS, MASS * 1.03, t, v)
     assert float(again.positive_energy_j) == float(first.positive_energy_j)
-    v[100:200] *= 1.2
+    v[100:200] += 1.0
     edited = wheel_demand(_rl(), MASS, MASS * 1.03, t, v)
     fresh = wheel_demand(_rl(), MASS, MASS * 1.03, t.copy(), v.copy())
     assert float(edited.positive_energy_j) == float(fresh.positive_energy_j)
