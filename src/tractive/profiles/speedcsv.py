@@ -208,6 +208,19 @@ def _rows_of_header_width(path: Path, header_line: int, delimiter: str, width: i
     return True
 
 
+def _no_quotes(path: Path, header_line: int) -> bool:
+    """True when no line after the header holds a quote character."""
+    with open(path, "rb") as fh:
+        for _ in range(header_line):
+            fh.readline()
+        while True:
+            block = fh.read(1 << 22)
+            if not block:
+                return True
+            if b'"' in block:
+                return False
+
+
 def _fast_columns(path: Path, header_line: int, delimiter: str, first_row, wanted: dict,
                   width: int):
     """The wanted columns read by pandas' C parser, or None when the file is not plain.
@@ -215,10 +228,15 @@ def _fast_columns(path: Path, header_line: int, delimiter: str, first_row, wante
     ``wanted`` maps column name → index in the header. Floats are read as
     Python's float reads them (correctly rounded).
     A time column whose first cell is not a number is read as text.
+    When every column is wanted the parser itself refuses a row with too many
+    fields (a missing or empty cell fails the float conversion or reads as NaN),
+    so only quotes are looked for; else :func:`_rows_of_header_width` checks the rows.
     """
     import pandas as pd
 
-    if first_row is None or not _rows_of_header_width(path, header_line, delimiter, width):
+    every = len(wanted) == width
+    if first_row is None or not (_no_quotes(path, header_line) if every else
+                                 _rows_of_header_width(path, header_line, delimiter, width)):
         return None
     cells = next(csv.reader([first_row], delimiter=delimiter))
     dtypes = {}
@@ -227,10 +245,14 @@ def _fast_columns(path: Path, header_line: int, delimiter: str, first_row, wante
         dtypes[i] = np.float64 if _is_number(text) else object
     # pandas 3 parses floats exactly like Python; pandas 2 needs the round-trip parser
     exact = {} if int(pd.__version__.split(".")[0]) >= 3 else {"float_precision": "round_trip"}
+    # float columns need no NaN markers: a marker fails the conversion, and a NaN or
+    # an infinity read fails the finite check; either way the row-by-row reading words it
+    floats_only = all(d is np.float64 for d in dtypes.values())
     try:
         frame = pd.read_csv(path, sep=delimiter, header=None, skiprows=header_line,
-                            usecols=sorted(wanted.values()), dtype=dtypes, engine="c",
-                            encoding="utf-8", skip_blank_lines=True, na_filter=True, **exact)
+                            usecols=None if every else sorted(wanted.values()), dtype=dtypes,
+                            engine="c", encoding="utf-8", skip_blank_lines=True,
+                            na_filter=not floats_only, **exact)
     except Exception:  # any parser complaint: the row-by-row reading words it
         return None
     return {col: frame[i].to_numpy() for col, i in wanted.items()}
