@@ -245,14 +245,14 @@ def _fast_columns(path: Path, header_line: int, delimiter: str, first_row, wante
         dtypes[i] = np.float64 if _is_number(text) else object
     # pandas 3 parses floats exactly like Python; pandas 2 needs the round-trip parser
     exact = {} if int(pd.__version__.split(".")[0]) >= 3 else {"float_precision": "round_trip"}
-    # float columns need no NaN markers: a marker fails the conversion, and a NaN or
-    # an infinity read fails the finite check; either way the row-by-row reading words it
-    floats_only = all(d is np.float64 for d in dtypes.values())
+    # no NaN markers: in a float column a marker fails the conversion, and a NaN or an
+    # infinity read fails the finite check; a text column keeps its cells as text (an
+    # empty one included); either way the row-by-row reading words the problem
     try:
         frame = pd.read_csv(path, sep=delimiter, header=None, skiprows=header_line,
                             usecols=None if every else sorted(wanted.values()), dtype=dtypes,
                             engine="c", encoding="utf-8", skip_blank_lines=True,
-                            na_filter=not floats_only, **exact)
+                            na_filter=False, **exact)
     except Exception:  # any parser complaint: the row-by-row reading words it
         return None
     return {col: frame[i].to_numpy() for col, i in wanted.items()}
