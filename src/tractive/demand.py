@@ -317,8 +317,11 @@ def wheel_force_n(coeffs, intervals: Intervals) -> np.ndarray:
 VEHICLE_CHUNK = 1024
 
 #: elements of the (vehicles, intervals) working arrays of the per-vehicle sign test:
-#: three such float64 arrays (1.5 MiB) stay in a core's cache between the passes
-CHUNK_ELEMENTS = 1 << 16
+#: four such float64 arrays (256 KiB) stay in a core's cache between the passes, and
+#: the mask product of a chunk (2·8192 × 10 multiply-adds) stays below the size at
+#: which a threaded BLAS splits it across threads, which costs far more than it
+#: saves when the other cores are busy
+CHUNK_ELEMENTS = 1 << 13
 
 #: grid pieces per weight in the exact interval sums (see :func:`_grid_pieces`)
 _PIECES = 2
@@ -363,8 +366,10 @@ class _Trace:
     """The per-trace work of :func:`interval_sums`, which depends only on the samples.
 
     Attributes: ``intervals``; ``basis`` (5, M) terms [1, v, v², a, sin θ] and
-    ``size`` their magnitudes; ``weights`` d·basis; ``pieces`` their grid pieces
-    (:func:`_grid_pieces`, only when every weight is finite); ``graded`` (any
+    ``size`` their magnitudes; ``weights`` d·basis; ``pieces`` (M, P·5) their grid
+    pieces (:func:`_grid_pieces`, transposed and contiguous, so that every matrix
+    product of the sums reads contiguous operands; only when every weight is finite);
+    ``graded`` (any
     sin θ ≠ 0); ``distance_m`` (float).
     """
 
@@ -385,8 +390,8 @@ class _Trace:
         self.weights = iv.distance_m * basis
         # a NaN or infinity anywhere (also in a basis term with d = 0: 0·inf is NaN)
         # reaches the sums: then plain masked sums, no grid
-        self.pieces = _grid_pieces(self.weights) if np.isfinite(np.sum(self.weights)) \
-            else None
+        self.pieces = np.ascontiguousarray(_grid_pieces(self.weights).T) \
+            if np.isfinite(np.sum(self.weights)) else None
         self.graded = bool(np.any(iv.sin_grade != 0.0))
         self.distance_m = float(np.sum(iv.distance_m))
 
@@ -445,7 +450,7 @@ def _interval_sums(coeffs, trace: _Trace) -> tuple:
         shared, unsure = _shared_sums(cc, basis, trace.size, pieces)  # (2, P·5)
         rows = slice(start, start + len(cc))
         if len(unsure):
-            tested = _tested_sums(cc, basis[:, unsure], pieces[:, unsure],
+            tested = _tested_sums(cc, basis[:, unsure], pieces[unsure],
                                   trace.graded)                          # (2, n, P·5)
             tested += shared[:, None, :]                        # exact: one grid
             traction[rows] = _combine(tested[0])
@@ -461,7 +466,7 @@ def _shared_sums(c, basis, size, pieces) -> tuple:
     """Sums of the intervals whose force sign is the same for all vehicles of c.
 
     c : (n, 5) coefficients; basis : (5, M) terms [1, v, v², a, sin θ] and size
-    their magnitudes; pieces : (P·5, M) grid pieces of the weights. With the
+    their magnitudes; pieces : (M, P·5) grid pieces of the weights. With the
     coefficients in [mid − half, mid + half], F lies within mid·b ± half·|b|;
     the sign is sure where that range stays clear of zero by
     :data:`_SIGN_MARGIN` of (|mid| + half)·|b|, which also covers the rounding of
@@ -480,13 +485,13 @@ def _shared_sums(c, basis, size, pieces) -> tuple:
     np.less(center, -margin, out=sure[1], casting="unsafe")      # 1.0: brakes
     unsure = np.flatnonzero(np.abs(center) <= margin)
     # exact grid sums (any order), so a matrix product may form them
-    return sure @ pieces.T, unsure
+    return sure @ pieces, unsure
 
 
 def _tested_sums(c, basis, pieces, graded=True) -> np.ndarray:
     """Grid sums over the intervals with F > 0 and with F < 0, vehicle by vehicle.
 
-    c : (n, 5) coefficients; basis : (5, U) and pieces : (P·5, U) of the tested
+    c : (n, 5) coefficients; basis : (5, U) and pieces : (U, P·5) of the tested
     intervals; graded False when every sin θ is 0 (m·g·sin θ would add only
     zeros). F is computed in the order of :func:`wheel_force_n`. Works in
     chunks of about :data:`CHUNK_ELEMENTS` elements. Returns (2, n, P·5): the
@@ -494,7 +499,7 @@ def _tested_sums(c, basis, pieces, graded=True) -> np.ndarray:
     """
     n, count = len(c), basis.shape[1]
     v, v2, accel, sin_grade = basis[1], basis[2], basis[3], basis[4]
-    out = np.empty((2, n, len(pieces)))
+    out = np.empty((2, n, pieces.shape[1]))
     step = max(1, CHUNK_ELEMENTS // count)
     buf = np.empty((4, min(step, n), count))
     for start in range(0, n, step):
@@ -515,7 +520,7 @@ def _tested_sums(c, basis, pieces, graded=True) -> np.ndarray:
         f += rest
         np.greater(f, 0.0, out=masks[0], casting="unsafe")   # 1.0 where F > 0
         np.less(f, 0.0, out=masks[1], casting="unsafe")      # 1.0 where F < 0
-        sums = masks.reshape(2 * m, count) @ pieces.T          # exact: grid values
+        sums = masks.reshape(2 * m, count) @ pieces            # exact: grid values
         out[:, start:start + m] = sums.reshape(2, m, -1)
     return out
 
