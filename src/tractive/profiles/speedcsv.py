@@ -439,7 +439,10 @@ def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_
                          "check the value and the column's unit", file=file,
                          field=speed_col, line=line(fast[0]))
     grid = uniform_grid(span, dt_s)
-    speed_ms = np.interp(grid, rel, v_raw_ms)
+    # rows already on the grid (a 1 Hz log from 0 s): np.interp would return the
+    # samples themselves, bit for bit, so they are taken as they are
+    on_grid = len(rel) == len(grid) and np.array_equal(rel, grid)
+    speed_ms = v_raw_ms if on_grid else np.interp(grid, rel, v_raw_ms)
     if smooth_s is not None:
         speed_ms = np.maximum(smoothed(speed_ms, dt_s, smooth_s), 0.0)
     jump = first_implausible_step(speed_ms, dt_s)
@@ -455,13 +458,14 @@ def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_
             raise InputError(f"grade must be within -100 % and 100 %, got "
                              f"{g_pct[steep[0]]:.4g}", file=file, field="grade_pct",
                              line=line(steep[0]))
-        grade = np.interp(grid, rel, g_pct / 100.0)
+        grade = g_pct / 100.0 if on_grid else np.interp(grid, rel, g_pct / 100.0)
     elif grade_col == "elevation_m":
-        z = np.interp(grid, rel, column("elevation_m"))
+        z = column("elevation_m")
+        z = z if on_grid else np.interp(grid, rel, z)
         s = np.concatenate([[0.0], np.cumsum(0.5 * (speed_ms[1:] + speed_ms[:-1]) * dt_s)])
         # distance along the road: dz/ds is the sine of the slope angle
         grade = grade_from_elevation(s, z, grade_window_m, max_grade_fraction,
                                      along="road")
     else:
-        grade = np.zeros_like(grid)
+        grade = 0.0                      # the profile repeats it on every sample
     return grid, speed_ms, grade
