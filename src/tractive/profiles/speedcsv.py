@@ -373,7 +373,8 @@ def read_speed_csv(path, dt_s: float = 1.0, max_gap_s: float = 60.0, *,
 
 def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_s, max_gap_s,
            grade_window_m, max_grade_fraction, smooth_s):
-    """(grid, speed [m/s], grade [-]) from the columns, every check made.
+    """(grid, speed [m/s], grade [-]: an array, or 0.0 without a grade column) from the
+    columns, every check made.
 
     ``lines`` is the 1-based line of each row, or None for columns read by the
     C parser: then a failed check raises :class:`_NeedLine` (the caller reads
