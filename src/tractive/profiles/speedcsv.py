@@ -371,6 +371,28 @@ def read_speed_csv(path, dt_s: float = 1.0, max_gap_s: float = 60.0, *,
                    f"speed file {file}")
 
 
+#: samples per block of the checks along long traces: the checks' temporaries stay
+#: small instead of being allocated (and first touched) at the size of the trace
+_BLOCK = 1 << 18
+
+
+def _first_steps(t: np.ndarray, max_gap_s: float) -> tuple:
+    """(first i with t[i+1] <= t[i], first i with t[i+1] - t[i] > max_gap_s), each
+    None when there is none; block by block (:data:`_BLOCK`)."""
+    back = gap = None
+    for a in range(0, len(t) - 1, _BLOCK):
+        steps = np.diff(t[a:a + _BLOCK + 1])
+        if back is None:
+            k = np.flatnonzero(steps <= 0)
+            back = a + int(k[0]) if k.size else None
+        if gap is None:
+            k = np.flatnonzero(steps > max_gap_s)
+            gap = a + int(k[0]) if k.size else None
+        if back is not None:
+            break
+    return back, gap
+
+
 def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_s, max_gap_s,
            grade_window_m, max_grade_fraction, smooth_s):
     """(grid, speed [m/s], grade [-]: an array, or 0.0 without a grade column) from the
@@ -410,16 +432,14 @@ def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_
     if neg.size:
         raise InputError(f"speed must not be negative, got {v_raw[neg[0]]:.4g}", file=file,
                          field=speed_col, line=line(neg[0]))
-    steps = np.diff(t)
-    back = np.flatnonzero(steps <= 0)
-    if back.size:
-        i = back[0] + 1
+    back, gap = _first_steps(t, max_gap_s)
+    if back is not None:
+        i = back + 1
         raise InputError(f"time must increase from row to row: {t[i]:.10g} s follows "
                          f"{t[i - 1]:.10g} s", file=file, field=time_col, line=line(i))
-    gaps = np.flatnonzero(steps > max_gap_s)
-    if gaps.size:
-        i = gaps[0] + 1
-        raise InputError(f"time gap of {steps[i - 1]:.4g} s before this row is longer than "
+    if gap is not None:
+        i = gap + 1
+        raise InputError(f"time gap of {t[i] - t[i - 1]:.4g} s before this row is longer than "
                          f"the longest gap of {max_gap_s:g} s: the speed in between is "
                          "unknown; if the vehicle stood still, add rows at speed 0 across "
                          "the gap, or pass a larger --max-gap-s to interpolate straight "
@@ -429,7 +449,6 @@ def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_
         raise InputError(f"the rows span {span:.4g} s, less than one time step "
                          f"dt_s = {dt_s:g} s", file=file, field=time_col)
 
-    del steps, back, gaps
     t0 = float(t[0])
     rel = t - t0 if t0 != 0.0 else t       # no copy for a file that starts at 0 s
     v_raw_ms = SPEED_UNITS[unit](v_raw)
@@ -446,7 +465,12 @@ def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_
     speed_ms = v_raw_ms if on_grid else np.interp(grid, rel, v_raw_ms)
     if smooth_s is not None:
         speed_ms = np.maximum(smoothed(speed_ms, dt_s, smooth_s), 0.0)
-    jump = first_implausible_step(speed_ms, dt_s)
+    jump = None
+    for a in range(0, len(speed_ms) - 1, _BLOCK):    # blocks overlap by one sample
+        jump = first_implausible_step(speed_ms[a:a + _BLOCK + 1], dt_s)
+        if jump is not None:
+            jump = (a + jump[0], jump[1])
+            break
     if jump is not None:
         k, accel = jump
         row = min(int(np.searchsorted(rel, grid[k + 1] - 1e-9 * dt_s)), len(rel) - 1)
