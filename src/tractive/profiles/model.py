@@ -108,9 +108,7 @@ class Profile:
                 raise InputError(f"{where}: values must be finite", field=what)
         if t[0] != 0.0:
             raise InputError(f"{where}: must start at 0 s, starts at {t[0]:g} s", field="time_s")
-        steps = np.diff(t)
-        dt = steps[0]
-        if dt <= 0 or np.any(np.abs(steps - dt) > _STEP_RTOL * dt):
+        if not _equal_steps(t):
             raise InputError(f"{where}: time steps must be equal and positive", field="time_s")
         if np.any(v < 0):
             raise InputError(f"{where}: speed must not be negative (min {v.min():g} m/s)",
@@ -163,6 +161,24 @@ class Profile:
 
 
 
+#: samples per block of the step check (small temporaries on long traces)
+_BLOCK = 1 << 18
+
+
+def _equal_steps(t: np.ndarray) -> bool:
+    """True when every step of ``t`` equals the first, positive one within
+    :data:`_STEP_RTOL`; checked block by block."""
+    dt = t[1] - t[0]
+    if dt <= 0:
+        return False
+    for a in range(0, len(t) - 1, _BLOCK):
+        steps = np.diff(t[a:a + _BLOCK + 1])
+        steps -= dt
+        if np.any(np.abs(steps, out=steps) > _STEP_RTOL * dt):
+            return False
+    return True
+
+
 def positive(value, what: str) -> float:
     """``value`` as a positive finite float; InputError naming ``what`` otherwise."""
     try:
@@ -177,7 +193,9 @@ def positive(value, what: str) -> float:
 def uniform_grid(span_s: float, dt_s: float) -> np.ndarray:
     """0, dt, 2 dt, ... up to the last point not after ``span_s`` (within rounding)."""
     n = int(math.floor(span_s / dt_s + 1e-9)) + 1
-    return np.arange(n) * dt_s
+    grid = np.arange(n, dtype=float)        # whole numbers: exact, as np.arange(n) * dt_s
+    grid *= dt_s
+    return grid
 
 
 def first_implausible_step(speed_ms: np.ndarray, dt_s: float):
