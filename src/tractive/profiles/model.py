@@ -53,7 +53,9 @@ def _frozen(values, what: str, n: int | None = None) -> np.ndarray:
     """A read-only float copy of ``values`` (a number repeated ``n`` times), one-dimensional."""
     arr = np.array(values, dtype=float)  # always a copy
     if n is not None and arr.ndim == 0:
-        arr = np.full(n, float(arr))
+        x = float(arr)
+        # +0.0: zeroed pages from the system, touched only when read
+        arr = np.zeros(n) if x == 0.0 and not math.copysign(1.0, x) < 0 else np.full(n, x)
     if arr.ndim != 1:
         raise InputError(f"must be a one-dimensional array, got shape {arr.shape}", field=what)
     arr.setflags(write=False)
@@ -190,10 +192,14 @@ def positive(value, what: str) -> float:
     return x
 
 
+def grid_length(span_s: float, dt_s: float) -> int:
+    """Number of points of :func:`uniform_grid` (``span_s``, ``dt_s``)."""
+    return int(math.floor(span_s / dt_s + 1e-9)) + 1
+
+
 def uniform_grid(span_s: float, dt_s: float) -> np.ndarray:
     """0, dt, 2 dt, ... up to the last point not after ``span_s`` (within rounding)."""
-    n = int(math.floor(span_s / dt_s + 1e-9)) + 1
-    grid = np.arange(n, dtype=float)        # whole numbers: exact, as np.arange(n) * dt_s
+    grid = np.arange(grid_length(span_s, dt_s), dtype=float)        # whole numbers: exact, as np.arange(n) * dt_s
     grid *= dt_s
     return grid
 

@@ -63,8 +63,8 @@ from ..readfiles import note_read
 from .columns import choose_speed_column, choose_time_column, times_from_text
 from .gpstrack import smoothed
 from .grade import GRADE_WINDOW_M, grade_from_elevation
-from .model import (SPEED_UNITS, Profile, accel_message, first_implausible_step, positive,
-                    uniform_grid, whole)
+from .model import (SPEED_UNITS, Profile, accel_message, first_implausible_step, grid_length,
+                    positive, uniform_grid, whole)
 
 __all__ = ["read_speed_csv"]
 
@@ -376,6 +376,19 @@ def read_speed_csv(path, dt_s: float = 1.0, max_gap_s: float = 60.0, *,
 _BLOCK = 1 << 18
 
 
+def _on_grid(rel: np.ndarray, dt_s: float, n: int) -> bool:
+    """True when ``rel`` is, bit for bit, :func:`uniform_grid` with ``n`` points
+    (k · dt_s for k = 0, 1, ...); checked block by block."""
+    if len(rel) != n or np.signbit(rel[0]):
+        return False
+    for a in range(0, n, _BLOCK):
+        block = np.arange(a, min(n, a + _BLOCK), dtype=float)
+        block *= dt_s                    # as uniform_grid computes each point
+        if not np.array_equal(rel[a:a + _BLOCK], block):
+            return False
+    return True
+
+
 def _first_steps(t: np.ndarray, max_gap_s: float) -> tuple:
     """(first i with t[i+1] <= t[i], first i with t[i+1] - t[i] > max_gap_s), each
     None when there is none; block by block (:data:`_BLOCK`)."""
@@ -458,10 +471,11 @@ def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_
                          f"above the {MAX_USER_SPEED_KMH:g} km/h no road vehicle exceeds; "
                          "check the value and the column's unit", file=file,
                          field=speed_col, line=line(fast[0]))
-    grid = uniform_grid(span, dt_s)
-    # rows already on the grid (a 1 Hz log from 0 s): np.interp would return the
-    # samples themselves, bit for bit, so they are taken as they are
-    on_grid = len(rel) == len(grid) and np.array_equal(rel, grid)
+    # rows already on the grid (a 1 Hz log from 0 s): the grid is the rows' times and
+    # np.interp would return the samples themselves, bit for bit, so they are taken as
+    # they are
+    on_grid = _on_grid(rel, dt_s, grid_length(span, dt_s))
+    grid = rel if on_grid else uniform_grid(span, dt_s)
     speed_ms = v_raw_ms if on_grid else np.interp(grid, rel, v_raw_ms)
     if smooth_s is not None:
         speed_ms = np.maximum(smoothed(speed_ms, dt_s, smooth_s), 0.0)
