@@ -225,7 +225,7 @@ def csv_reading(fig: Figures, sizes) -> None:
             write_speed_csv(path, rows)
             ours = {"seconds": float("inf"), "peak_kib": float("inf")}
             ref = dict(ours)
-            for _ in range(3 if rows <= 10**6 else 2):
+            for _ in range(3):
                 a = read_in_fresh_process("tractive", path)
                 b = read_in_fresh_process("pandas", path)
                 if "error" in a:
