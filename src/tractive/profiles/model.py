@@ -199,8 +199,8 @@ def grid_length(span_s: float, dt_s: float) -> int:
 
 def uniform_grid(span_s: float, dt_s: float) -> np.ndarray:
     """0, dt, 2 dt, ... up to the last point not after ``span_s`` (within rounding)."""
-    grid = np.arange(grid_length(span_s, dt_s), dtype=float)        # whole numbers: exact, as np.arange(n) * dt_s
-    grid *= dt_s
+    grid = np.arange(grid_length(span_s, dt_s), dtype=float)   # whole numbers, exact
+    grid *= dt_s                       # in place: the values of np.arange(n) * dt_s
     return grid
 
 
