@@ -25,8 +25,9 @@ demo: $(VENV)/.installed
 test: $(VENV)/.installed
 	$(BIN)/python -m pytest
 
+# make bench BENCH_ARGS=--quick  - a short run
 bench: $(VENV)/.installed
-	$(BIN)/python benchmarks/run.py
+	$(BIN)/python benchmarks/run.py $(BENCH_ARGS)
 
 clean:
 	rm -rf $(VENV) build src/*.egg-info $(DEMO_OUT)

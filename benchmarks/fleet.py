@@ -13,6 +13,7 @@ one, as a script calling the library per trip would), measured over a sample of
 trips and scaled to the whole fleet.
 
 Run: ``python benchmarks/fleet.py [--trips N]``. Exits 1 when the target is missed.
+``make bench`` runs it too (figure 5 of run.py, through :func:`measure`).
 """
 
 from __future__ import annotations
@@ -20,14 +21,18 @@ from __future__ import annotations
 import argparse
 import sys
 import time
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-from tractive.demand import wheel_demand
-from tractive.fleet.engine import FleetModel, trip_batch
-from tractive.roadload import RoadLoad
-from tractive.units import STANDARD_GRAVITY_MS2
+if str(Path(__file__).resolve().parents[1] / "src") not in sys.path:
+    sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "src"))
+
+from tractive.demand import wheel_demand  # noqa: E402
+from tractive.fleet.engine import FleetModel, trip_batch  # noqa: E402
+from tractive.roadload import RoadLoad  # noqa: E402
+from tractive.units import STANDARD_GRAVITY_MS2  # noqa: E402
 
 TARGET_S = 30.0
 TRIP_SAMPLES = 1201             # 20 minutes at 1 Hz
@@ -75,23 +80,29 @@ def per_trip_loop(chunk: pd.DataFrame, fm: FleetModel, trips: int) -> float:
     return time.perf_counter() - t0
 
 
-def main(argv=None) -> int:
-    """Run the benchmark; 0 when the target is met, 1 when missed."""
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--trips", type=int, default=100_000)
-    ap.add_argument("--sample", type=int, default=300, help="trips of the per-trip loop")
-    args = ap.parse_args(argv)
+def measure(trips: int = 100_000, sample: int = 300) -> tuple:
+    """(fleet seconds, per-trip loop seconds scaled to ``trips``) of one run."""
     rng = np.random.default_rng(1)
     fm = model(rng)
-    chunk = synthetic_chunk(rng, min(CHUNK_TRIPS, args.trips))
-    chunks = int(np.ceil(args.trips / len(chunk["trip_id"].unique())))
+    chunk = synthetic_chunk(rng, min(CHUNK_TRIPS, trips))
+    chunks = int(np.ceil(trips / len(chunk["trip_id"].unique())))
     t0 = time.perf_counter()
     total = 0.0
     for _ in range(chunks):
         out = trip_batch(chunk, fm)
         total += float(out["positive_j"].sum())
     fleet_s = time.perf_counter() - t0
-    loop_s = per_trip_loop(chunk, fm, args.sample) * (args.trips / args.sample)
+    looped = min(sample, trips, CHUNK_TRIPS)
+    return fleet_s, per_trip_loop(chunk, fm, looped) * (trips / looped)
+
+
+def main(argv=None) -> int:
+    """Run the benchmark; 0 when the target is met, 1 when missed."""
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--trips", type=int, default=100_000)
+    ap.add_argument("--sample", type=int, default=300, help="trips of the per-trip loop")
+    args = ap.parse_args(argv)
+    fleet_s, loop_s = measure(args.trips, args.sample)
     print(f"fleet wheel energy: {args.trips} trips x {TRIP_SAMPLES} samples in {fleet_s:.1f} s "
           f"(target at most {TARGET_S:g} s for 100000 trips)")
     print(f"per-trip library loop, scaled from {args.sample} trips: {loop_s:.1f} s; "

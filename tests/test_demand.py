@@ -179,3 +179,21 @@ def test_grade_uses_test_mass_and_acceleration_uses_inertial_mass():
     d = wheel_demand(zero, 1000.0, 1100.0, t, v, g)
     assert float(d.force_parts_n["inertia"][0]) == pytest.approx(1100.0)
     assert float(d.force_parts_n["grade"][0]) == pytest.approx(1000 * 9.80665 * 0.1 / np.sqrt(1.01))
+
+
+def test_a_trace_changed_in_place_is_computed_again():
+    # consistency, not an outside reference: the per-trace work kept between calls
+    # must follow the samples, so a speed array edited in place gives the result of
+    # a fresh copy, and the kept interval arrays cannot be written
+    t, v = _trace(seed=5)
+    first = wheel_demand(_rl(), MASS, MASS * 1.03, t, v)
+    again = wheel_demand(_rl(), MASS, MASS * 1.03, t, v)
+    assert float(again.positive_energy_j) == float(first.positive_energy_j)
+    v[100:200] += 1.0
+    edited = wheel_demand(_rl(), MASS, MASS * 1.03, t, v)
+    fresh = wheel_demand(_rl(), MASS, MASS * 1.03, t.copy(), v.copy())
+    assert float(edited.positive_energy_j) == float(fresh.positive_energy_j)
+    assert float(edited.positive_energy_j) != float(first.positive_energy_j)
+    assert edited.distance_m == fresh.distance_m != first.distance_m
+    with pytest.raises(ValueError):
+        edited.intervals.speed_ms[0] = 1.0

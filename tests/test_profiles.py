@@ -201,6 +201,8 @@ def _csv_error(tmp_path, text, **kw):
     ("time_s,speed_kmh,grade_pct\n0,1,0\n1,2,150\n", "grade_pct", 3, "within"),
     ("time_s,speed_kmh,time_s\n0,1,0\n1,2,1\n", "time_s", 1, "twice"),
     ("# comment\n\ntime_s,speed_kmh\n0,1\n\n1,x\n", "speed_kmh", 6, "not a number"),
+    ("time_s,speed_kmh\n0,1\n1\n2,3\n", None, 3, "malformed CSV"),
+    ("timestamp,speed_kmh\n12:00:00,1\n12:00:01,2\n,3\n", "timestamp", 4, "missing time"),
 ])
 def test_csv_errors_name_file_column_and_line(tmp_path, text, field, line, words):
     err = _csv_error(tmp_path, text)

@@ -95,16 +95,23 @@ def interval_kinematics(time_s, speed_ms, grade_fraction=0.0) -> Intervals:
     """
     t = np.asarray(time_s, float)
     v = np.asarray(speed_ms, float)
+    # in place where a temporary would be made: the same operations, fewer passes
     dt = t[1:] - t[:-1]
-    v_mean = 0.5 * (v[1:] + v[:-1])
-    accel = (v[1:] - v[:-1]) / dt
+    v_mean = v[1:] + v[:-1]
+    v_mean *= 0.5
+    accel = v[1:] - v[:-1]
+    accel /= dt
     g = np.asarray(grade_fraction, float)
     if g.ndim == 0:                              # one grade: the same sine everywhere
         sin_grade = np.full(dt.shape, float(g / np.sqrt(1.0 + g * g)))
     else:
         g = np.broadcast_to(g, t.shape)
-        g_mean = 0.5 * (g[1:] + g[:-1])
-        sin_grade = g_mean / np.sqrt(1.0 + g_mean * g_mean)
+        g_mean = g[1:] + g[:-1]
+        g_mean *= 0.5
+        sin_grade = g_mean * g_mean
+        sin_grade += 1.0
+        np.sqrt(sin_grade, out=sin_grade)
+        np.divide(g_mean, sin_grade, out=sin_grade)
     return Intervals(dt, v_mean, accel, v_mean * dt, sin_grade)
 
 
@@ -245,26 +252,26 @@ def wheel_demand(road_load: RoadLoad, mass_kg, inertial_mass_kg, time_s, speed_m
     profile : str
         Name carried into the result.
     """
-    iv = interval_kinematics(time_s, speed_ms, grade_fraction)
+    trace = _trace(time_s, speed_ms, grade_fraction)
     coeffs = force_coefficients(road_load, mass_kg, inertial_mass_kg)   # (..., 5)
-    traction, braking = interval_sums(coeffs, iv)                       # (..., 5) each
+    traction, braking = _interval_sums(coeffs, trace)                   # (..., 5) each
     f2_rolling = np.asarray(road_load.f2_rolling_n_per_ms2, float)
     f2_aero = np.asarray(road_load.f2_aero_n_per_ms2, float)
-    c = [coeffs[..., k] for k in range(5)]
-    s = [traction[..., k] for k in range(5)]
+    c0, c1, _, c3, c4 = (coeffs[..., k] for k in range(5))
+    s0, s1, s2, s3, s4 = (traction[..., k] for k in range(5))
     components = {
-        "rolling": c[0] * s[0] + c[1] * s[1] + f2_rolling * s[2],
-        "aero": f2_aero * s[2],
-        "inertia": c[3] * s[3],
-        "grade": c[4] * s[4],
+        "rolling": c0 * s0 + c1 * s1 + f2_rolling * s2,
+        "aero": f2_aero * s2,
+        "inertia": c3 * s3,
+        "grade": c4 * s4,
     }
     positive = components["rolling"] + components["aero"] + components["inertia"] + \
         components["grade"]
     negative = 0.0 - np.sum(coeffs * braking, axis=-1)   # 0.0 - x: no negative zero
-    return WheelDemand(profile=profile, intervals=iv, road_load=road_load, mass_kg=mass_kg,
-                       inertial_mass_kg=inertial_mass_kg, positive_energy_j=positive,
-                       negative_energy_j=negative, components_j=components,
-                       distance_m=float(np.sum(iv.distance_m)))
+    return WheelDemand(profile=profile, intervals=trace.intervals, road_load=road_load,
+                       mass_kg=mass_kg, inertial_mass_kg=inertial_mass_kg,
+                       positive_energy_j=positive, negative_energy_j=negative,
+                       components_j=components, distance_m=trace.distance_m)
 
 
 def force_coefficients(road_load: RoadLoad, mass_kg, inertial_mass_kg) -> np.ndarray:
@@ -308,8 +315,11 @@ def wheel_force_n(coeffs, intervals: Intervals) -> np.ndarray:
 VEHICLE_CHUNK = 1024
 
 #: elements of the (vehicles, intervals) working arrays of the per-vehicle sign test:
-#: three such float64 arrays (1.5 MiB) stay in a core's cache between the passes
-CHUNK_ELEMENTS = 1 << 16
+#: four such float64 arrays (256 KiB) stay in a core's cache between the passes, and
+#: the mask product of a chunk (2·8192 × 10 multiply-adds) stays below the size at
+#: which a threaded BLAS splits it across threads, which costs far more than it
+#: saves when the other cores are busy
+CHUNK_ELEMENTS = 1 << 13
 
 #: grid pieces per weight in the exact interval sums (see :func:`_grid_pieces`)
 _PIECES = 2
@@ -347,36 +357,99 @@ def interval_sums(coeffs, intervals: Intervals) -> tuple:
     .. [3] S. M. Rump, T. Ogita and S. Oishi, "Accurate floating-point summation
        part I: faithful rounding", SIAM J. Sci. Comput. 31 (2008).
     """
+    return _interval_sums(coeffs, _Trace(intervals))
+
+
+class _Trace:
+    """The per-trace work of :func:`interval_sums`, which depends only on the samples.
+
+    Attributes: ``intervals``; ``basis`` (5, M) terms [1, v, v², a, sin θ] and
+    ``size`` their magnitudes; ``weights`` d·basis; ``pieces`` (M, P·5) their grid
+    pieces (:func:`_grid_pieces`, transposed and contiguous, so that every matrix
+    product of the sums reads contiguous operands; only when every weight is finite);
+    ``graded`` (any
+    sin θ ≠ 0); ``distance_m`` (float).
+    """
+
+    __slots__ = ("key", "intervals", "basis", "size", "weights", "pieces", "graded",
+                 "distance_m")
+
+    def __init__(self, iv: Intervals, key=None):
+        self.key = key
+        self.intervals = iv
+        basis = np.empty((5, len(iv.speed_ms)))
+        basis[0] = 1.0
+        basis[1] = iv.speed_ms
+        np.multiply(iv.speed_ms, iv.speed_ms, out=basis[2])
+        basis[3] = iv.accel_ms2
+        basis[4] = iv.sin_grade
+        self.basis = basis
+        self.size = np.abs(basis)
+        self.weights = iv.distance_m * basis
+        # a NaN or infinity anywhere (also in a basis term with d = 0: 0·inf is NaN)
+        # reaches the sums: then plain masked sums, no grid
+        self.pieces = np.ascontiguousarray(_grid_pieces(self.weights).T) \
+            if np.isfinite(np.sum(self.weights)) else None
+        self.graded = bool(np.any(iv.sin_grade != 0.0))
+        self.distance_m = float(np.sum(iv.distance_m))
+
+
+#: traces kept by :func:`_trace` (most recent first), and the longest trace kept
+_TRACE_CACHE: list = []
+_TRACE_CACHE_SIZE = 8
+_TRACE_CACHE_MAX_SAMPLES = 100_000
+
+
+def _trace(time_s, speed_ms, grade_fraction) -> _Trace:
+    """:class:`_Trace` of a sampled trace, reused while the same samples come again.
+
+    A few recent traces of at most :data:`_TRACE_CACHE_MAX_SAMPLES` samples are
+    kept with a copy of their samples; a call with equal samples (compared byte
+    for byte) gets the kept work, whose arrays are read-only. Results are the
+    same as without the cache, to the last bit.
+    """
+    t = np.asarray(time_s, float)
+    v = np.asarray(speed_ms, float)
+    g = np.asarray(grade_fraction, float)
+    if t.size > _TRACE_CACHE_MAX_SAMPLES:
+        return _Trace(interval_kinematics(t, v, g))
+    key = (t.shape, v.shape, g.shape, t.tobytes(), v.tobytes(), g.tobytes())
+    for k, kept in enumerate(_TRACE_CACHE):
+        if kept.key == key:
+            if k:
+                _TRACE_CACHE.insert(0, _TRACE_CACHE.pop(k))
+            return kept
+    trace = _Trace(interval_kinematics(t, v, g), key)
+    for a in (*vars(trace.intervals).values(), trace.basis, trace.size, trace.weights,
+              trace.pieces):
+        if a is not None:
+            a.flags.writeable = False
+    _TRACE_CACHE.insert(0, trace)
+    del _TRACE_CACHE[_TRACE_CACHE_SIZE:]
+    return trace
+
+
+def _interval_sums(coeffs, trace: _Trace) -> tuple:
+    """:func:`interval_sums` on the prepared work of a trace."""
     c = np.asarray(coeffs, float)
     lead = c.shape[:-1]
     c = c.reshape(-1, 5)
-    iv = intervals
-    # basis terms and weights as rows (5, T-1): sums over the 5 terms are then
-    # whole-row operations
-    basis = np.empty((5, len(iv.speed_ms)))
-    basis[0] = 1.0
-    basis[1] = iv.speed_ms
-    np.multiply(iv.speed_ms, iv.speed_ms, out=basis[2])
-    basis[3] = iv.accel_ms2
-    basis[4] = iv.sin_grade
-    weights = iv.distance_m * basis
+    basis, pieces = trace.basis, trace.pieces
     traction = np.empty_like(c)
     braking = np.empty_like(c)
-    # a NaN or infinity anywhere (also in a basis term with d = 0: 0·inf is NaN)
-    # reaches these sums, as does an overflow: then plain masked sums
-    if not (np.isfinite(np.sum(weights)) and np.isfinite(np.sum(c))):
-        force = wheel_force_n(c, iv)
-        traction[:] = np.where(force > 0.0, 1.0, 0.0) @ weights.T
-        braking[:] = np.where(force < 0.0, 1.0, 0.0) @ weights.T
+    if pieces is None or not np.isfinite(np.sum(c)):
+        force = wheel_force_n(c, trace.intervals)
+        weights_t = trace.weights.T
+        traction[:] = np.where(force > 0.0, 1.0, 0.0) @ weights_t
+        braking[:] = np.where(force < 0.0, 1.0, 0.0) @ weights_t
         return traction.reshape(lead + (5,)), braking.reshape(lead + (5,))
-    pieces = _grid_pieces(weights)                              # (P·5, T-1)
-    size = np.abs(basis)
     for start in range(0, len(c), VEHICLE_CHUNK):
         cc = c[start:start + VEHICLE_CHUNK]
-        shared, unsure = _shared_sums(cc, basis, size, pieces)  # (2, P·5)
+        shared, unsure = _shared_sums(cc, basis, trace.size, pieces)  # (2, P·5)
         rows = slice(start, start + len(cc))
         if len(unsure):
-            tested = _tested_sums(cc, basis[:, unsure], pieces[:, unsure])  # (2, n, P·5)
+            tested = _tested_sums(cc, basis[:, unsure], pieces[unsure],
+                                  trace.graded)                          # (2, n, P·5)
             tested += shared[:, None, :]                        # exact: one grid
             traction[rows] = _combine(tested[0])
             braking[rows] = _combine(tested[1])
@@ -391,7 +464,7 @@ def _shared_sums(c, basis, size, pieces) -> tuple:
     """Sums of the intervals whose force sign is the same for all vehicles of c.
 
     c : (n, 5) coefficients; basis : (5, M) terms [1, v, v², a, sin θ] and size
-    their magnitudes; pieces : (P·5, M) grid pieces of the weights. With the
+    their magnitudes; pieces : (M, P·5) grid pieces of the weights. With the
     coefficients in [mid − half, mid + half], F lies within mid·b ± half·|b|;
     the sign is sure where that range stays clear of zero by
     :data:`_SIGN_MARGIN` of (|mid| + half)·|b|, which also covers the rounding of
@@ -410,21 +483,21 @@ def _shared_sums(c, basis, size, pieces) -> tuple:
     np.less(center, -margin, out=sure[1], casting="unsafe")      # 1.0: brakes
     unsure = np.flatnonzero(np.abs(center) <= margin)
     # exact grid sums (any order), so a matrix product may form them
-    return sure @ pieces.T, unsure
+    return sure @ pieces, unsure
 
 
-def _tested_sums(c, basis, pieces) -> np.ndarray:
+def _tested_sums(c, basis, pieces, graded=True) -> np.ndarray:
     """Grid sums over the intervals with F > 0 and with F < 0, vehicle by vehicle.
 
-    c : (n, 5) coefficients; basis : (5, U) and pieces : (P·5, U) of the tested
-    intervals. F is computed in the order of :func:`wheel_force_n`. Works in
+    c : (n, 5) coefficients; basis : (5, U) and pieces : (U, P·5) of the tested
+    intervals; graded False when every sin θ is 0 (m·g·sin θ would add only
+    zeros). F is computed in the order of :func:`wheel_force_n`. Works in
     chunks of about :data:`CHUNK_ELEMENTS` elements. Returns (2, n, P·5): the
     traction sums, then the braking sums.
     """
     n, count = len(c), basis.shape[1]
     v, v2, accel, sin_grade = basis[1], basis[2], basis[3], basis[4]
-    graded = bool(np.any(sin_grade != 0.0))      # else m·g·sin θ adds only zeros
-    out = np.empty((2, n, len(pieces)))
+    out = np.empty((2, n, pieces.shape[1]))
     step = max(1, CHUNK_ELEMENTS // count)
     buf = np.empty((4, min(step, n), count))
     for start in range(0, n, step):
@@ -445,7 +518,7 @@ def _tested_sums(c, basis, pieces) -> np.ndarray:
         f += rest
         np.greater(f, 0.0, out=masks[0], casting="unsafe")   # 1.0 where F > 0
         np.less(f, 0.0, out=masks[1], casting="unsafe")      # 1.0 where F < 0
-        sums = masks.reshape(2 * m, count) @ pieces.T          # exact: grid values
+        sums = masks.reshape(2 * m, count) @ pieces            # exact: grid values
         out[:, start:start + m] = sums.reshape(2, m, -1)
     return out
 

@@ -8,12 +8,22 @@ from __future__ import annotations
 
 import json
 import math
+import sys
 
-import numpy as np
+# numpy is not imported here, so that ``tractive --help`` starts without it: an
+# object can only be a numpy one once numpy is loaded (see _numpy).
+
+
+def _numpy():
+    """The numpy module when it is loaded, else None."""
+    return sys.modules.get("numpy")
 
 
 def plain(obj):
     """A JSON-ready copy of ``obj`` (numpy → Python, NaN/±inf → None, tuples → lists)."""
+    np = _numpy()
+    if np is None:
+        return _plain_python(obj)
     if isinstance(obj, dict):
         return {str(k): plain(v) for k, v in obj.items()}
     if isinstance(obj, (list, tuple)):
@@ -30,6 +40,17 @@ def plain(obj):
     return obj
 
 
+def _plain_python(obj):
+    """:func:`plain` for data without numpy objects (numpy not loaded)."""
+    if isinstance(obj, dict):
+        return {str(k): _plain_python(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_plain_python(v) for v in obj]
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    return obj
+
+
 def plain_number(x):
     """float for a scalar, list of floats for an array, None for None (NaN kept).
 
@@ -38,6 +59,8 @@ def plain_number(x):
     """
     if x is None:
         return None
+    import numpy as np
+
     x = np.asarray(x, float)
     return float(x) if x.ndim == 0 else x.tolist()
 

@@ -518,7 +518,9 @@ class CombustionPowertrain:
         idle_rate = self.idle_fuel_rate_kg_s(p_acc)
         ratios = self.gearing.overall_ratios
         if self.shift_rule == "speeds":
-            g = self._speed_rule_gear(v, pulling, w_pull_min)
+            # the gear depends on the speed, the floor and the demand sign only: the
+            # speed and floor without the vehicle axis of the force give the same gears
+            g = self._speed_rule_gear(np.asarray(speed_ms, float), pulling, w_pull_min)
             sel = self._in_gear(f, v, ratios[g], g == 0, pulling, p_acc, idle_rate,
                                 w_pull_min)
         else:
@@ -561,12 +563,13 @@ class CombustionPowertrain:
     def _speed_rule_gear(self, v, pulling, w_pull_min):
         """0-based gear of the ``speeds`` rule: upshift speeds, and while pulling never
         below the pulling floor (the highest gear that keeps the engine at or above it;
-        first gear slips the clutch when none does)."""
+        first gear slips the clutch when none does). ``v`` [m/s] may lack the vehicle
+        axis of ``pulling``; the result has the shape of ``pulling``."""
         gr = self.gearing
         g = np.searchsorted(np.asarray(self.upshift_speeds_ms, float), v, side="right")
         g = np.minimum(g, gr.n_gears - 1)
         floor = w_pull_min * (1 - 1e-12)
-        n_ok = np.zeros(np.shape(v), dtype=np.intp)
+        n_ok = np.zeros(np.broadcast_shapes(np.shape(v), np.shape(floor)), dtype=np.intp)
         for ratio in gr.overall_ratios:        # a few gears: one comparison each
             n_ok += v * ratio / gr.tyre_radius_m >= floor
         return np.where(pulling, np.minimum(g, np.maximum(n_ok - 1, 0)), g)

@@ -58,7 +58,9 @@ def _frozen(values, what: str, n: int | None = None) -> np.ndarray:
     """A read-only float copy of ``values`` (a number repeated ``n`` times), one-dimensional."""
     arr = np.array(values, dtype=float)  # always a copy
     if n is not None and arr.ndim == 0:
-        arr = np.full(n, float(arr))
+        x = float(arr)
+        # +0.0: zeroed pages from the system, touched only when read
+        arr = np.zeros(n) if x == 0.0 and not math.copysign(1.0, x) < 0 else np.full(n, x)
     if arr.ndim != 1:
         raise InputError(f"must be a one-dimensional array, got shape {arr.shape}", field=what)
     arr.setflags(write=False)
@@ -113,9 +115,7 @@ class Profile:
                 raise InputError(f"{where}: values must be finite", field=what)
         if t[0] != 0.0:
             raise InputError(f"{where}: must start at 0 s, starts at {t[0]:g} s", field="time_s")
-        steps = np.diff(t)
-        dt = steps[0]
-        if dt <= 0 or np.any(np.abs(steps - dt) > _STEP_RTOL * dt):
+        if not _equal_steps(t):
             raise InputError(f"{where}: time steps must be equal and positive", field="time_s")
         if np.any(v < 0):
             raise InputError(f"{where}: speed must not be negative (min {v.min():g} m/s)",
@@ -168,6 +168,24 @@ class Profile:
 
 
 
+#: samples per block of the step check (small temporaries on long traces)
+_BLOCK = 1 << 18
+
+
+def _equal_steps(t: np.ndarray) -> bool:
+    """True when every step of ``t`` equals the first, positive one within
+    :data:`_STEP_RTOL`; checked block by block."""
+    dt = t[1] - t[0]
+    if dt <= 0:
+        return False
+    for a in range(0, len(t) - 1, _BLOCK):
+        steps = np.diff(t[a:a + _BLOCK + 1])
+        steps -= dt
+        if np.any(np.abs(steps, out=steps) > _STEP_RTOL * dt):
+            return False
+    return True
+
+
 def positive(value, what: str) -> float:
     """``value`` as a positive finite float; InputError naming ``what`` otherwise."""
     try:
@@ -198,12 +216,18 @@ def check_samples(n_samples: float, what: str = "the profile") -> int:
     return int(n)
 
 
+def grid_length(span_s: float, dt_s: float) -> int:
+    """Number of points of :func:`uniform_grid` (``span_s``, ``dt_s``); refused up front
+    when that many samples would exceed the memory budget (:func:`check_samples`)."""
+    return check_samples(math.floor(span_s / dt_s + 1e-9) + 1,
+                         f"a {span_s:.6g} s profile at a time step of {dt_s:.6g} s")
+
+
 def uniform_grid(span_s: float, dt_s: float) -> np.ndarray:
-    """0, dt, 2 dt, ... up to the last point not after ``span_s`` (within rounding);
-    refused up front when it would exceed the memory budget (:func:`check_samples`)."""
-    n = check_samples(math.floor(span_s / dt_s + 1e-9) + 1,
-                      f"a {span_s:.6g} s profile at a time step of {dt_s:.6g} s")
-    return np.arange(n) * dt_s
+    """0, dt, 2 dt, ... up to the last point not after ``span_s`` (within rounding)."""
+    grid = np.arange(grid_length(span_s, dt_s), dtype=float)   # whole numbers, exact
+    grid *= dt_s                       # in place: the values of np.arange(n) * dt_s
+    return grid
 
 
 def first_implausible_step(speed_ms: np.ndarray, dt_s: float):

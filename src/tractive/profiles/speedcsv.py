@@ -63,8 +63,8 @@ from ..readfiles import check_regular, note_read
 from .columns import choose_speed_column, choose_time_column, times_from_text
 from .gpstrack import smoothed
 from .grade import GRADE_WINDOW_M, grade_from_elevation
-from .model import (SPEED_UNITS, Profile, accel_message, first_implausible_step, positive,
-                    uniform_grid, whole)
+from .model import (SPEED_UNITS, Profile, accel_message, first_implausible_step, grid_length,
+                    positive, uniform_grid, whole)
 
 __all__ = ["read_speed_csv"]
 
@@ -209,6 +209,19 @@ def _rows_of_header_width(path: Path, header_line: int, delimiter: str, width: i
     return True
 
 
+def _no_quotes(path: Path, header_line: int) -> bool:
+    """True when no line after the header holds a quote character."""
+    with open(path, "rb") as fh:
+        for _ in range(header_line):
+            fh.readline()
+        while True:
+            block = fh.read(1 << 22)
+            if not block:
+                return True
+            if b'"' in block:
+                return False
+
+
 def _fast_columns(path: Path, header_line: int, delimiter: str, first_row, wanted: dict,
                   width: int):
     """The wanted columns read by pandas' C parser, or None when the file is not plain.
@@ -216,10 +229,15 @@ def _fast_columns(path: Path, header_line: int, delimiter: str, first_row, wante
     ``wanted`` maps column name → index in the header. Floats are read as
     Python's float reads them (correctly rounded).
     A time column whose first cell is not a number is read as text.
+    When every column is wanted the parser itself refuses a row with too many
+    fields (a missing or empty cell fails the float conversion or reads as NaN),
+    so only quotes are looked for; else :func:`_rows_of_header_width` checks the rows.
     """
     import pandas as pd
 
-    if first_row is None or not _rows_of_header_width(path, header_line, delimiter, width):
+    every = len(wanted) == width
+    if first_row is None or not (_no_quotes(path, header_line) if every else
+                                 _rows_of_header_width(path, header_line, delimiter, width)):
         return None
     cells = next(csv.reader([first_row], delimiter=delimiter))
     dtypes = {}
@@ -228,10 +246,14 @@ def _fast_columns(path: Path, header_line: int, delimiter: str, first_row, wante
         dtypes[i] = np.float64 if _is_number(text) else object
     # pandas 3 parses floats exactly like Python; pandas 2 needs the round-trip parser
     exact = {} if int(pd.__version__.split(".")[0]) >= 3 else {"float_precision": "round_trip"}
+    # no NaN markers: in a float column a marker fails the conversion, and a NaN or an
+    # infinity read fails the finite check; a text column keeps its cells as text (an
+    # empty one included); either way the row-by-row reading words the problem
     try:
         frame = pd.read_csv(path, sep=delimiter, header=None, skiprows=header_line,
-                            usecols=sorted(wanted.values()), dtype=dtypes, engine="c",
-                            encoding="utf-8", skip_blank_lines=True, na_filter=True, **exact)
+                            usecols=None if every else sorted(wanted.values()), dtype=dtypes,
+                            engine="c", encoding="utf-8", skip_blank_lines=True,
+                            na_filter=False, **exact)
     except Exception:  # any parser complaint: the row-by-row reading words it
         return None
     return {col: frame[i].to_numpy() for col, i in wanted.items()}
@@ -350,9 +372,45 @@ def read_speed_csv(path, dt_s: float = 1.0, max_gap_s: float = 60.0, *,
                    f"speed file {file}")
 
 
+#: samples per block of the checks along long traces: the checks' temporaries stay
+#: small instead of being allocated (and first touched) at the size of the trace
+_BLOCK = 1 << 18
+
+
+def _on_grid(rel: np.ndarray, dt_s: float, n: int) -> bool:
+    """True when ``rel`` is, bit for bit, :func:`uniform_grid` with ``n`` points
+    (k · dt_s for k = 0, 1, ...); checked block by block."""
+    if len(rel) != n or np.signbit(rel[0]):
+        return False
+    for a in range(0, n, _BLOCK):
+        block = np.arange(a, min(n, a + _BLOCK), dtype=float)
+        block *= dt_s                    # as uniform_grid computes each point
+        if not np.array_equal(rel[a:a + _BLOCK], block):
+            return False
+    return True
+
+
+def _first_steps(t: np.ndarray, max_gap_s: float) -> tuple:
+    """(first i with t[i+1] <= t[i], first i with t[i+1] - t[i] > max_gap_s), each
+    None when there is none; block by block (:data:`_BLOCK`)."""
+    back = gap = None
+    for a in range(0, len(t) - 1, _BLOCK):
+        steps = np.diff(t[a:a + _BLOCK + 1])
+        if back is None:
+            k = np.flatnonzero(steps <= 0)
+            back = a + int(k[0]) if k.size else None
+        if gap is None:
+            k = np.flatnonzero(steps > max_gap_s)
+            gap = a + int(k[0]) if k.size else None
+        if back is not None:
+            break
+    return back, gap
+
+
 def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_s, max_gap_s,
            grade_window_m, max_grade_fraction, smooth_s):
-    """(grid, speed [m/s], grade [-]) from the columns, every check made.
+    """(grid, speed [m/s], grade [-]: an array, or 0.0 without a grade column) from the
+    columns, every check made.
 
     ``lines`` is the 1-based line of each row, or None for columns read by the
     C parser: then a failed check raises :class:`_NeedLine` (the caller reads
@@ -388,16 +446,14 @@ def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_
     if neg.size:
         raise InputError(f"speed must not be negative, got {v_raw[neg[0]]:.4g}", file=file,
                          field=speed_col, line=line(neg[0]))
-    steps = np.diff(t)
-    back = np.flatnonzero(steps <= 0)
-    if back.size:
-        i = back[0] + 1
+    back, gap = _first_steps(t, max_gap_s)
+    if back is not None:
+        i = back + 1
         raise InputError(f"time must increase from row to row: {t[i]:.10g} s follows "
                          f"{t[i - 1]:.10g} s", file=file, field=time_col, line=line(i))
-    gaps = np.flatnonzero(steps > max_gap_s)
-    if gaps.size:
-        i = gaps[0] + 1
-        raise InputError(f"time gap of {steps[i - 1]:.4g} s before this row is longer than "
+    if gap is not None:
+        i = gap + 1
+        raise InputError(f"time gap of {t[i] - t[i - 1]:.4g} s before this row is longer than "
                          f"the longest gap of {max_gap_s:g} s: the speed in between is "
                          "unknown; if the vehicle stood still, add rows at speed 0 across "
                          "the gap, or pass a larger --max-gap-s to interpolate straight "
@@ -407,7 +463,6 @@ def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_
         raise InputError(f"the rows span {span:.4g} s, less than one time step "
                          f"dt_s = {dt_s:g} s", file=file, field=time_col)
 
-    del steps, back, gaps
     t0 = float(t[0])
     rel = t - t0 if t0 != 0.0 else t       # no copy for a file that starts at 0 s
     v_raw_ms = SPEED_UNITS[unit](v_raw)
@@ -417,14 +472,23 @@ def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_
                          f"above the {MAX_USER_SPEED_KMH:g} km/h no road vehicle exceeds; "
                          "check the value and the column's unit", file=file,
                          field=speed_col, line=line(fast[0]))
+    # rows already on the grid (a 1 Hz log from 0 s): the grid is the rows' times and
+    # np.interp would return the samples themselves, bit for bit, so they are taken as
+    # they are; a grid beyond the memory budget is refused first (profiles.model)
     try:
-        grid = uniform_grid(span, dt_s)
+        on_grid = _on_grid(rel, dt_s, grid_length(span, dt_s))
+        grid = rel if on_grid else uniform_grid(span, dt_s)
     except InputError as err:
         raise err.located(file=file, field="dt_s") from None
-    speed_ms = np.interp(grid, rel, v_raw_ms)
+    speed_ms = v_raw_ms if on_grid else np.interp(grid, rel, v_raw_ms)
     if smooth_s is not None:
         speed_ms = np.maximum(smoothed(speed_ms, dt_s, smooth_s), 0.0)
-    jump = first_implausible_step(speed_ms, dt_s)
+    jump = None
+    for a in range(0, len(speed_ms) - 1, _BLOCK):    # blocks overlap by one sample
+        jump = first_implausible_step(speed_ms[a:a + _BLOCK + 1], dt_s)
+        if jump is not None:
+            jump = (a + jump[0], jump[1])
+            break
     if jump is not None:
         k, accel = jump
         row = min(int(np.searchsorted(rel, grid[k + 1] - 1e-9 * dt_s)), len(rel) - 1)
@@ -437,13 +501,14 @@ def _build(cols: dict, lines, time_col, speed_col, unit, grade_col, *, file, dt_
             raise InputError(f"grade must be within -100 % and 100 %, got "
                              f"{g_pct[steep[0]]:.4g}", file=file, field="grade_pct",
                              line=line(steep[0]))
-        grade = np.interp(grid, rel, g_pct / 100.0)
+        grade = g_pct / 100.0 if on_grid else np.interp(grid, rel, g_pct / 100.0)
     elif grade_col == "elevation_m":
-        z = np.interp(grid, rel, column("elevation_m"))
+        z = column("elevation_m")
+        z = z if on_grid else np.interp(grid, rel, z)
         s = np.concatenate([[0.0], np.cumsum(0.5 * (speed_ms[1:] + speed_ms[:-1]) * dt_s)])
         # distance along the road: dz/ds is the sine of the slope angle
         grade = grade_from_elevation(s, z, grade_window_m, max_grade_fraction,
                                      along="road")
     else:
-        grade = np.zeros_like(grid)
+        grade = 0.0                      # the profile repeats it on every sample
     return grid, speed_ms, grade
