@@ -346,4 +346,5 @@ def coastdown_quick_command(mass_kg, rotating_mass_fraction, high, low, air_dens
                f"{est.mean_decel_f2_n_per_kmh2:.5f})")
     click.echo(f"  Crr {est.crr:.5f}" + (f"   CdA {fmt(est.cda_m2, '.3f')} m^2"
                                            if est.cda_m2 is not None else ""))
-    click.echo("assumes: " + "; ".join(est.assumptions))
+    click.echo("\n".join(textwrap.wrap("assumes: " + "; ".join(est.assumptions), _width(),
+                                        subsequent_indent="  ")))
