@@ -80,19 +80,20 @@ import numpy as np
 
 from ..demand import COMPONENTS, wheel_demand
 from ..errors import InputError
+from ..metrics import TOTAL, attributed_keys, lookup, to_units
 from ..powertrain._common import sustained_seconds
 from ..progress import progress
-from ..metrics import (ECONOMICS, INDEPENDENT, KM_PER_MI, TOTAL, attributed_keys, lookup,
-                       mix, to_units)
-from ..units import KMH_MS, KWH_J, MPH_MS, US_GALLON_L
+from ..units import KMH_MS, KWH_J, MPH_MS
 from . import modify
 from .attribution import one_at_a_time, shapley_values, subsets
-from .economics import annual_amount, net_present_value, simple_payback_years
 from .results import (BASELINE, COMBINATION, MODIFICATION, AttributionRow,
-                      InputItem, ProfileInfo, RangeCurveSeries, ResultRow, StudyResult,
+                      InputItem, ProfileInfo, RangeCurveSeries, StudyResult,
                       TimeSeries, VariantInfo)
 from .spec import MAX_DRAWS, StudySpec, load_study, parse_lap_profile
-from .uncertainty import (UNCERTAIN_PARAMS, clip, clip_powertrain, expand, interval,
+from .money import (_KM_PER_MI, _KMH_PER_MPH, _check_money, _compare_economics, _cost_draws,
+                    _derive, _economics_echo, _mix, _price_draws, _to_units)  # noqa: F401
+from .rows import _row
+from .uncertainty import (UNCERTAIN_PARAMS, clip, clip_powertrain, expand,
                           standard_normal_draws)
 
 #: keys taken from a powertrain's consume(...).to_dict()
@@ -497,6 +498,9 @@ def _override_notes(label, members) -> list:
 
 
 def _build_variant(spec, members, base_mc, z_base, z_changes, n, warnings, label):
+    """A modification or combination built on the baseline's draws: a whole-vehicle
+    member first (its rolling terms stated at the baseline mass), then every change in the
+    order listed. Returns the parameter set and the uncertain inputs it adds."""
     uncertain = []
     whole = [m for m in members if m.vehicle is not None]
     if whole:
@@ -562,6 +566,7 @@ def _apply(ps, change, z, owner, warnings):
 
 
 def _note_clipped(warnings, label, clipped):
+    """Warn for each parameter whose draws fell outside its physical limits."""
     for k, share in clipped.items():
         warnings.append(f"{label}: {share * 100:.2g} % of the Monte Carlo draws of {k} fell "
                         f"outside its physical limits and were clipped; the uncertainty is "
@@ -857,324 +862,6 @@ def _note_limits(name, per_profile: dict, n: int, warnings) -> None:
                             f"would need more than {what}): {', '.join(in_draws)} of the "
                             f"draws")
 
-
-#: share of the bought electricity lost in charging (US DOE VTO Fact #750, 2012)
-CHARGING_LOSS_TEXT = "charging typically loses 16-19 % (US DOE VTO Fact #750)"
-
-
-def _check_money(spec: StudySpec, raw_results, warnings) -> None:
-    e = spec.economics
-    if e is None:
-        return
-    electric = fuel = False
-    for per_profile in raw_results.values():
-        for met in per_profile.values():
-            electric |= "battery_wh_per_km" in met
-            fuel |= "fuel_l_per_100km" in met
-    if not electric and not fuel:
-        raise e.error("annual energy and money need vehicles with a powertrain block "
-                      "(electric or combustion)", "")
-    if electric and e.electricity_price_per_kwh is None:
-        raise e.error("missing: the vehicles use electricity, so money needs this price "
-                      "(money per kWh)", "electricity_price_per_kwh")
-    if fuel and e.fuel_price_per_l is None:
-        raise e.error("missing: the vehicles burn fuel, so money needs fuel_price_per_l "
-                      "(or fuel_price_per_gal)", "fuel_price_per_l")
-    if e.charging_efficiency is None:
-        lossless = [name for name, per_profile in raw_results.items()
-                    if any("battery_wh_per_km" in m and "wall_wh_per_km" not in m
-                           for m in per_profile.values())]
-        if lossless:
-            warnings.append(
-                f"no charging loss counted for {', '.join(lossless)}: neither the powertrain "
-                f"(charger_efficiency) nor economics.charging_efficiency states one, so the "
-                f"electricity bought, its cost and its CO2 equal the battery energy; "
-                f"{CHARGING_LOSS_TEXT}")
-
-
-def _mix(per_profile: dict, shares_pct: dict) -> dict:
-    """Duty-mix metrics from per-profile metrics by distance share (:func:`tractive.metrics.mix`)."""
-    return mix([per_profile[k] for k in shares_pct], [v / 100.0 for v in shares_pct.values()])
-
-
-def _derive(spec: StudySpec, per_profile: dict, prices: dict | None = None) -> dict:
-    """Add duty mixes and annual quantities (not the comparisons).
-
-    ``prices`` holds the fuel price [money/L] and electricity price
-    [money/kWh] as floats or arrays along the vehicle axis (Monte Carlo draws);
-    the nominal prices when None.
-    """
-    out = {p: dict(m) for p, m in per_profile.items()}
-    for mx in spec.mixes:
-        out[mx.name] = _mix(per_profile, mx.shares_pct)
-    if spec.economics is not None:
-        if prices is None:
-            prices = {"fuel": spec.economics.fuel_price_per_l,
-                      "electricity": spec.economics.electricity_price_per_kwh}
-        for met in out.values():
-            _annual(spec.economics, met, prices)
-            _fleet_totals(spec.economics, met)
-    return out
-
-
-def _annual(e, met: dict, prices: dict) -> None:
-    """Annual distance, energy, cost and CO2 of one profile's metrics (in place)."""
-    size = next(iter(met.values())).shape
-    dist = e.annual_distance_km
-    met["annual_distance_km"] = np.full(size, dist)
-    if "battery_wh_per_km" in met:
-        battery = annual_amount(met["battery_wh_per_km"] / 1000.0, dist)
-        if "wall_wh_per_km" in met:
-            # the powertrain states its own charger efficiency
-            grid = annual_amount(met["wall_wh_per_km"] / 1000.0, dist)
-        elif e.charging_efficiency is not None:
-            grid = battery / e.charging_efficiency
-        else:
-            # no charging efficiency anywhere: bought = stored (warned, see _check_money)
-            grid = battery
-        met["annual_battery_energy_kwh"] = battery
-        met["annual_grid_energy_kwh"] = grid
-        if prices["electricity"] is not None:
-            met["annual_energy_cost"] = grid * prices["electricity"]
-        if e.electricity_co2_g_per_kwh is not None:
-            met["annual_co2_kg"] = grid * e.electricity_co2_g_per_kwh / 1000.0
-    elif "fuel_l_per_100km" in met:
-        fuel = annual_amount(met["fuel_l_per_100km"] / 100.0, dist)
-        met["annual_fuel_l"] = fuel
-        if prices["fuel"] is not None:
-            met["annual_energy_cost"] = fuel * prices["fuel"]
-        if e.fuel_co2_g_per_l is not None:
-            met["annual_co2_kg"] = fuel * e.fuel_co2_g_per_l / 1000.0
-        elif "co2_g_per_km" in met:
-            met["annual_co2_kg"] = annual_amount(met["co2_g_per_km"] / 1000.0, dist)
-
-
-#: annual metric → (fleet metric, factor): fleet totals of ``economics.vehicles``
-FLEET_TOTALS = {"annual_fuel_l": ("fleet_annual_fuel_l", 1.0),
-                "annual_grid_energy_kwh": ("fleet_annual_grid_energy_kwh", 1.0),
-                "annual_co2_kg": ("fleet_annual_co2_t", 1e-3),
-                "annual_energy_cost": ("fleet_annual_energy_cost", 1.0)}
-
-
-def _fleet_totals(e, met: dict) -> None:
-    """Fleet totals per year (``economics.vehicles`` × one vehicle's annual amounts)."""
-    if e.vehicles is None:
-        return
-    for key, (fleet_key, factor) in FLEET_TOTALS.items():
-        if key in met:
-            met[fleet_key] = met[key] * (e.vehicles * factor)
-
-
-def _compare_economics(spec: StudySpec, derived: dict, base: dict, cost) -> None:
-    """Saving against the baseline, payback and NPV of a variant (in place).
-
-    ``cost`` is a float, or an array of the cost's Monte Carlo draws (nominal
-    first) when the study gives ``cost_std``.
-    """
-    e = spec.economics
-    if e is None:
-        return
-    for p, met in derived.items():
-        b = base[p]
-        if "annual_energy_cost" not in met or "annual_energy_cost" not in b:
-            continue
-        saving = b["annual_energy_cost"] - met["annual_energy_cost"]
-        met["annual_saving"] = saving
-        if e.vehicles is not None:
-            met["fleet_annual_saving"] = saving * e.vehicles
-        if cost is None:
-            continue
-        cost_arr = np.broadcast_to(np.asarray(cost, float), saving.shape).copy()
-        met["modification_cost"] = cost_arr
-        met["payback_years"] = simple_payback_years(cost_arr if np.ndim(cost) else cost,
-                                                    saving)
-        if e.service_life_years is not None:
-            met["npv"] = net_present_value(cost_arr if np.ndim(cost) else cost, saving,
-                                           e.discount_rate, e.service_life_years)
-            if e.vehicles is not None:
-                met["fleet_npv"] = met["npv"] * e.vehicles
-
-
-def _price_draws(spec: StudySpec, rng, n: int, uncertain: list) -> dict:
-    """Fuel and electricity prices: floats, or arrays (nominal + n draws, normal,
-    clipped at 0) when the study gives their standard uncertainty."""
-    e = spec.economics
-    if e is None:
-        return {"fuel": None, "electricity": None}
-    out = {}
-    for name, price, std, unit in (
-            ("fuel", e.fuel_price_per_l, e.fuel_price_std_per_l, "per L"),
-            ("electricity", e.electricity_price_per_kwh, e.electricity_price_std_per_kwh,
-             "per kWh")):
-        out[name] = price
-        if price is not None and std > 0 and n > 0:
-            z = standard_normal_draws(rng, n)
-            out[name] = np.maximum(price + std * z, 0.0)      # index 0: z = 0, the nominal
-            uncertain.append(f"{name} price ± {std:g} {spec.currency} {unit}")
-    return out
-
-
-def _cost_draws(spec: StudySpec, variants, rng, n: int, uncertain: list) -> dict:
-    """Cost draws (nominal + n) of every variant whose cost is uncertain (``cost_std``);
-    a combination's cost is the sum of its members' draws."""
-    mods = {m.name: m for m in spec.modifications}
-    draws = {}
-    for m in spec.modifications:
-        if m.cost is not None and m.cost_std > 0 and n > 0:
-            z = standard_normal_draws(rng, n)
-            draws[m.name] = m.cost + m.cost_std * z           # index 0: the nominal cost
-            uncertain.append(f"{m.name}: cost ± {m.cost_std:g} {spec.currency}")
-    out = {}
-    for v in variants:
-        if v.cost is None or not any(k in draws for k in v.members):
-            continue
-        total = np.zeros(n + 1)
-        for k in v.members:
-            total = total + (draws[k] if k in draws else mods[k].cost)
-        out[v.name] = total
-    return out
-
-
-# ---------------------------------------------------------------------------
-# output units
-# ---------------------------------------------------------------------------
-
-_KM_PER_MI = KM_PER_MI
-#: km/h per mph (exact: 1 mi = 1.609344 km)
-_KMH_PER_MPH = KM_PER_MI
-
-
-def _to_units(met: dict, units: str) -> dict:
-    """Metric arrays in the study's output units (:func:`tractive.metrics.to_units`)."""
-    return to_units(met, units)
-
-
-def _economics_echo(e, units: str, currency: str) -> dict:
-    """The economics inputs as used, for the result's ``economics``.
-
-    Annual distance, fuel price and fuel CO2 are in the study's units: US
-    studies state them per mile and per US gallon (exact factors of
-    :mod:`tractive.units`), whichever unit the study file used. Electricity
-    price and CO2 are per kWh, the discount rate in percent.
-    """
-    if units != "us":
-        out = {"annual_distance_km": e.annual_distance_km,
-               "fuel_price_per_l": e.fuel_price_per_l,
-               "fuel_co2_g_per_l": e.fuel_co2_g_per_l}
-    else:
-        per_gal = lambda x: None if x is None else x * US_GALLON_L  # noqa: E731
-        out = {"annual_distance_mi": e.annual_distance_km / _KM_PER_MI,
-               "fuel_price_per_gal": per_gal(e.fuel_price_per_l),
-               "fuel_co2_g_per_gal": per_gal(e.fuel_co2_g_per_l)}
-    out.update({"electricity_price_per_kwh": e.electricity_price_per_kwh,
-                "charging_efficiency": e.charging_efficiency,
-                "electricity_co2_g_per_kwh": e.electricity_co2_g_per_kwh,
-                "discount_rate_pct": e.discount_rate * 100.0,
-                "service_life_years": e.service_life_years, "currency": currency})
-    return out
-
-
-# ---------------------------------------------------------------------------
-# rows, statistics
-# ---------------------------------------------------------------------------
-
-def _nominal(x) -> float | None:
-    v = float(np.asarray(x)[0])
-    return v if np.isfinite(v) else None
-
-
-def _row(name, role, profile, kind, met, base, n, conf, economics=None) -> ResultRow:
-    """One result row: nominal values, Monte Carlo intervals, changes against the
-    baseline with their intervals, and the economic verdict."""
-    metrics, mean, low, high = {}, {}, {}, {}
-    change, change_pct, c_mean, c_low, c_high, dist = {}, {}, {}, {}, {}, {}
-    for key, arr in met.items():
-        arr = np.asarray(arr, float)
-        metrics[key] = _nominal(arr)
-        samples = arr[1:] if n > 0 else arr[:1]
-        if key == "payback_years" and "annual_saving" in met:
-            mean[key], low[key], high[key] = _payback_interval(met, n, conf)
-        else:
-            mean[key], low[key], high[key] = interval(samples, conf)
-        if role == BASELINE or _is_comparative(key) or key not in base:
-            continue
-        b = np.asarray(base[key], float)
-        b0 = _nominal(b)
-        if metrics[key] is None or b0 is None:
-            continue
-        change[key] = metrics[key] - b0
-        change_pct[key] = 100.0 * change[key] / b0 if b0 != 0 else None
-        diff = arr - b
-        d_samples = diff[1:] if n > 0 else np.array([change[key]])
-        c_mean[key], c_low[key], c_high[key] = interval(d_samples, conf)
-        if c_low[key] is not None:
-            dist[key] = bool(c_low[key] > 0.0 or c_high[key] < 0.0)
-    return ResultRow(name, role, profile, kind, metrics, change, change_pct, mean, low, high,
-                     c_mean, c_low, c_high, dist, _verdict(met, n, economics))
-
-
-def _verdict(met: dict, n: int, economics) -> dict:
-    """Whether a variant's payback exceeds the service life and its NPV is negative.
-
-    ``payback_exceeds_life``: the nominal modification costs money and never pays
-    back, or pays back later than ``service_life_years``; ``npv_negative``: the
-    nominal NPV is below 0; ``pays_back_within_life_pct``: share of the Monte
-    Carlo draws (the nominal when there are none) that pay back within the
-    service life [%]. Empty without a cost or a service life.
-    """
-    life = getattr(economics, "service_life_years", None)
-    if "payback_years" not in met or life is None:
-        return {}
-    payback = np.asarray(met["payback_years"], float)
-    samples = payback[1:] if n > 0 else payback[:1]
-    p0 = float(payback[0])
-    cost0 = float(np.asarray(met["modification_cost"])[0])
-    out = {"payback_exceeds_life": bool(cost0 > 0 and not (p0 <= life)),
-           "pays_back_within_life_pct": float(np.mean(samples <= life) * 100.0)}
-    if "npv" in met:
-        out["npv_negative"] = bool(float(np.asarray(met["npv"])[0]) < 0.0)
-    return out
-
-
-def _is_comparative(key: str) -> bool:
-    """True for metrics that already compare with the baseline (saving, payback, NPV,
-    the modification's cost), which have no change of their own."""
-    m = lookup(key)
-    return m is not None and (m.kind == ECONOMICS or m.is_money and m.kind == INDEPENDENT)
-
-
-def _payback_interval(met, n, conf):
-    """Payback quantiles from the saving quantiles (cost / saving is monotone); with an
-    uncertain cost, quantiles of the payback of each draw (never = beyond any bound)."""
-    costs = np.asarray(met["modification_cost"], float)
-    if n > 0 and np.any(costs[1:] != costs[0]):
-        return _payback_interval_drawn(met, n, conf)
-    cost = float(costs[0])
-    saving = np.asarray(met["annual_saving"], float)
-    samples = saving[1:] if n > 0 else saving[:1]
-    s_mean, s_low, s_high = interval(samples, conf)
-    if cost <= 0:
-        if s_low is not None and s_low >= 0:
-            return 0.0, 0.0, 0.0
-        return None, None, None
-    if s_low is None or s_high is None or s_high <= 0:
-        return None, None, None
-    high = cost / s_low if s_low > 0 else None
-    mean = float(np.mean(cost / samples)) if np.all(samples > 0) else None
-    return mean, cost / s_high, high
-
-
-def _payback_interval_drawn(met, n, conf):
-    """Mean and interval of the payback of each draw; a draw that never pays back
-    counts as infinitely long (an upper bound at infinity is reported as None)."""
-    payback = np.asarray(met["payback_years"], float)[1:]
-    samples = np.where(np.isnan(payback), np.inf, payback)
-    tail = (100.0 - conf) / 2.0
-    low, high = (float(x) for x in np.percentile(samples, [tail, 100.0 - tail]))
-    mean = float(np.mean(samples)) if np.all(np.isfinite(samples)) else None
-    return mean, (low if np.isfinite(low) else None), (high if np.isfinite(high) else None)
-
-
 # ---------------------------------------------------------------------------
 # attribution
 # ---------------------------------------------------------------------------
@@ -1191,6 +878,9 @@ def _attribute(spec, name, groups, base_nominal, var_nominal, profiles, order, o
         key = (id(merged.powertrain), id(merged.performance), tuple(sorted(merged.pt_values)))
         batches.setdefault(key, []).append((s, merged))
     for items in batches.values():
+    """Shapley and one-at-a-time attribution of a variant's changes to its parameter
+    groups: every inner subset of groups evaluated on the nominal vehicle, batched
+    along the vehicle axis."""
         first = items[0][1]
         params = {k: np.concatenate([m.params[k] for _, m in items]) for k in first.params}
         pt_values = {k: np.concatenate([m.pt_values[k] for _, m in items])
