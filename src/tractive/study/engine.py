@@ -868,6 +868,9 @@ def _note_limits(name, per_profile: dict, n: int, warnings) -> None:
 
 def _attribute(spec, name, groups, base_nominal, var_nominal, profiles, order, out_units,
                warnings) -> list:
+    """Shapley and one-at-a-time attribution of a variant's changes to its parameter
+    groups: every inner subset of groups evaluated on the nominal vehicle, batched
+    along the vehicle axis."""
     all_sets = subsets(groups)
     inner = [s for s in all_sets if 0 < len(s) < len(groups)]
     values = {}
@@ -878,9 +881,6 @@ def _attribute(spec, name, groups, base_nominal, var_nominal, profiles, order, o
         key = (id(merged.powertrain), id(merged.performance), tuple(sorted(merged.pt_values)))
         batches.setdefault(key, []).append((s, merged))
     for items in batches.values():
-    """Shapley and one-at-a-time attribution of a variant's changes to its parameter
-    groups: every inner subset of groups evaluated on the nominal vehicle, batched
-    along the vehicle axis."""
         first = items[0][1]
         params = {k: np.concatenate([m.params[k] for _, m in items]) for k in first.params}
         pt_values = {k: np.concatenate([m.pt_values[k] for _, m in items])
