@@ -74,8 +74,10 @@ def cli():
     """What a vehicle modification costs or saves.
 
     Road load, wheel energy over drive cycles and your own speed profiles,
-    fuel or battery use, range and performance. Run a command with --help
-    for its options; every command takes --json.
+    fuel or battery use, range, performance and lap time; baselines against
+    modifications with uncertainty and money; fleets on their recorded trips;
+    road load from coast-down logs. Run a command with --help for its options;
+    every command takes --json. Reference: docs/ of the project.
     """
 
 
