@@ -2,12 +2,15 @@
 
 from __future__ import annotations
 
+import textwrap
+
 import click
 
 from .. import api
 from . import cli
 from ._output import emit_json, table
 from ._reading import read_options_from, reading_options
+from ._study_text import output_width
 
 _STATS = [("duration_s", "duration s", ".0f"), ("distance_km", "distance km", ".3f"),
           ("mean_speed_kmh", "mean km/h", ".1f"), ("max_speed_kmh", "max km/h", ".1f"),
@@ -39,10 +42,11 @@ def cycles_command(profiles, dt_s, as_json, **reading):
     if profiles:
         click.echo(table(list(report.rows), [("name", "profile", "")] + _STATS))
         return
-    data = []
-    for r in report.rows:
-        d = r.to_dict()
-        d["phases"] = ", ".join(d["phases"]) or "-"
-        data.append(d)
-    click.echo(table(data, [("name", "name", "")] + _STATS[:5] + [
-        ("phases", "phases", ""), ("title", "title", "")]))
+    data = [r.to_dict() for r in report.rows]
+    click.echo(table(data, [("name", "name", "")] + _STATS[:5]))
+    click.echo("")
+    width = output_width()
+    for d in data:
+        phases = f" Phases: {', '.join(d['phases'])}." if d["phases"] else ""
+        click.echo("\n".join(textwrap.wrap(f"{d['name']}: {d['title']}; {d['issuing_body']}."
+                                            f"{phases}", width, subsequent_indent="  ")))

@@ -2,12 +2,15 @@
 
 from __future__ import annotations
 
+import textwrap
+
 import click
 
 from .. import api
 from . import cli
 from ._output import emit_json
 from ._units import units_option
+from ._study_text import output_width
 
 #: text columns: key (metric), header, and the US key and header
 _COLUMNS = (("positive_energy_kwh", "wheel kWh", None, None),
@@ -81,9 +84,11 @@ def fleet_command(study_file, as_json, output, workers, scheduler, units, quiet)
         f = doc["fleet"]
         dist = f.get("distance_mi", f.get("distance_km"))
         unit = "mi" if "distance_mi" in f else "km"
-        click.echo(f"{doc['study']}: {f['vehicles']} vehicles, {api.numfmt.number(f['trips'])} trips, "
-                   f"{api.numfmt.number(dist)} {unit}, {api.numfmt.number(f['duration_h'])} h recorded"
-                   + (f"; {f['trips_left_out']} trips left out" if f["trips_left_out"] else ""))
+        head = (f"{doc['study']}: {f['vehicles']} vehicles, "
+                f"{api.numfmt.number(f['trips'])} trips, {api.numfmt.number(dist)} {unit}, "
+                f"{api.numfmt.number(f['duration_h'])} h recorded"
+                + (f"; {f['trips_left_out']} trips left out" if f["trips_left_out"] else ""))
+        click.echo("\n".join(textwrap.wrap(head, output_width())))
         click.echo("")
         for line in _table(doc["totals"], units, "variant"):
             click.echo(line)
