@@ -215,7 +215,7 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
         _note_limits(v.name, followed, n, warnings)
         if v.params.powertrain is None and v.params.performance is not None:
             _note_wheel_power(v.name, v.params,
-                              {p: d for p, (_, d) in traces[v.name].items() if p not in laps},
+                              {p: t[1] for p, t in traces[v.name].items() if p not in laps},
                               warnings)
     _check_money(spec, raw_results, warnings)
     derived = {v.name: _derive(spec, raw_results[v.name], prices) for v in variants}
@@ -234,10 +234,11 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
                                                      out_units, warnings)
     curves = [_range_curve(v.name, v.params, spec) for v in variants
               if v.params.powertrain is not None]
-    series_out = [_series(v.name, p, *traces[v.name][p])
+    series_out = [_series(v.name, p, *traces[v.name][p][:2])
                   for v in variants for p, _ in profiles] if series else []
-    lap_runs = [(v.name, p, simulate_nominal_lap(v.params, prof))
-                for p, prof in profiles if isinstance(prof, LapProfile) for v in variants]
+    lap_runs = [(v.name, p, traces[v.name][p][2])
+                for p, prof in profiles if isinstance(prof, LapProfile) for v in variants
+                if traces[v.name].get(p) is not None]
     econ = {} if spec.economics is None else \
         _economics_echo(spec.economics, spec.units, spec.currency)
     return StudyResult(study=spec.name, source=spec.file, units=spec.units,
@@ -248,14 +249,6 @@ def run_spec(spec: StudySpec, *, draws: int | None = None, seed: int | None = No
                        uncertainty=_uncertainty_echo(n, seed, spec, uncertain),
                        economics=econ, warnings=tuple(dict.fromkeys(warnings)),
                        lap_runs=tuple(lap_runs))
-
-
-def simulate_nominal_lap(ps, lp):
-    """The lap of a variant's nominal vehicle (index 0: every change, no draw), for the
-    figures: one vehicle simulated again, which costs little against the draws."""
-    from ..lap import simulate_lap
-
-    return simulate_lap(ps.vehicle(0), lp.track)
 
 
 def _draw_settings(spec: StudySpec, draws, seed) -> tuple:
@@ -628,7 +621,8 @@ def _evaluate(ps, profiles, ambient_temperature_c=None, chunk_size=None,
     one vectorized call per profile; the metric arrays are joined again. The
     traces returned, profile name → (Profile, WheelDemand), are those of the
     first chunk (which holds the nominal vehicle, index 0); for a lap, the
-    nominal vehicle's simulated trace over all its laps.
+    nominal vehicle's simulated trace over all its laps, and its LapSimulation
+    as a third item (for the figures).
     """
     size = ps.size
     perf = _performance(ps, units=units)
@@ -746,14 +740,14 @@ def _lap_metrics(ps, name: str, lp: LapProfile, ambient_temperature_c=None,
         met, d = _trace_metrics(_View(ps.take([i])), name, prof, ambient_temperature_c)
         rows.append(met)
         if i == 0 and nominal:
-            trace = (prof, d)
+            trace = (prof, d, one)
             if lp.laps > 1:
                 prof = one.to_profile(laps=lp.laps, dt_s=TRACE_DT_S, name=name)
                 view = _View(ps.take([0]))
                 trace = (prof, wheel_demand(view.road_load, view.mass_kg,
                                             view.inertial_mass_kg, prof.time_s,
                                             prof.speed_ms, prof.grade_fraction,
-                                            profile=name))
+                                            profile=name), one)
     keys = next((list(r) for r in rows if r is not None), [])
     out = {}
     for key in keys:
