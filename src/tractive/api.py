@@ -142,16 +142,6 @@ def cycles(profiles: Sequence[str] = (), *, dt_s: float = 1.0,
     return CyclesReport("profiles", tuple(rows))
 
 
-def cycles_table() -> list:
-    """Every bundled cycle with its statistics (the rows of :func:`cycles`)."""
-    return list(cycles().rows)
-
-
-def profile_table(specs: Sequence[str], *, base_dir=None, dt_s: float = 1.0) -> list:
-    """Statistics of any profiles (the rows of :func:`cycles` with profiles named)."""
-    return list(cycles(specs, dt_s=dt_s, base_dir=base_dir).rows)
-
-
 # ---------------------------------------------------------------------------
 # energy
 # ---------------------------------------------------------------------------

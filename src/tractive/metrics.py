@@ -86,14 +86,6 @@ def l_per_100km_to_mpg(fuel_l_per_100km, gallon_l: float = US_GALLON_L):
         return (100.0 / KM_PER_MI) / (x / gallon_l)
 
 
-def mpg_to_l_per_100km(mpg, gallon_l: float = US_GALLON_L):
-    """Fuel consumption [L/100 km] from an economy [miles per gallon] (inverse of
-    :func:`l_per_100km_to_mpg`)."""
-    x = np.asarray(mpg, float)
-    with np.errstate(divide="ignore"):
-        return (100.0 / KM_PER_MI) * gallon_l / x
-
-
 @dataclass(frozen=True)
 class USForm:
     """How a metric is stated in US units.
@@ -317,12 +309,6 @@ del _metric
 def lookup(key: str) -> Metric | None:
     """The Metric of a key (metric or US), or None for a key not in the registry."""
     return REGISTRY.get(key)
-
-
-def keys_of(kind: str | Iterable[str], units: str = "metric") -> tuple:
-    """Keys of the given kind(s) in a system, in report order."""
-    kinds = {kind} if isinstance(kind, str) else set(kind)
-    return tuple(k for k in ordered_keys(REGISTRY, units) if REGISTRY[k].kind in kinds)
 
 
 def in_system(m: Metric, units: str) -> bool:
